@@ -1,0 +1,2 @@
+//! The chopwave command.
+fn main() {}

@@ -1,0 +1,475 @@
+//! The buck LED driver as a piecewise-linear circuit.
+//!
+//! The circuit: an ideal supply behind a source resistance feeds the input
+//! node, where an optional input capacitor (with ESR) sits; a high-side
+//! switch (a resistance while on) connects the input node to the switch
+//! node; a freewheel diode runs from ground to the switch node; the
+//! inductor (with DCR) runs from the switch node to the output node, where
+//! the LED string and an optional output capacitor (with ESR) sit.
+//!
+//! The state is `x = [i_L, v_Co, v_Cin]` (an absent capacitor's state stays
+//! at zero) and the augmented state is `z = [x, 1]`. In each [`Region`]
+//! (switch on or off, inductor conducting or blocked, diode segment, LED
+//! segment) the circuit is linear: `z' = M z` with `M = [[A, b], [0, 0]]`,
+//! and every current and voltage is a row vector times `z`
+//! ([`Linear::signals`]). [`Circuit::linearize`] builds both by evaluating
+//! the (affine) circuit equations at `z = e_j`.
+
+use crate::devices::{ExpDevice, PwlCurve};
+use crate::scenario::{Diode, Load, Scenario};
+use nalgebra::{SMatrix, SVector};
+
+/// Number of circuit states (inductor current, output and input capacitor voltages).
+pub const N_STATES: usize = 3;
+/// Size of the augmented state `[x, 1]`.
+pub const N_AUG: usize = N_STATES + 1;
+/// The augmented state.
+pub type Aug = SVector<f64, N_AUG>;
+/// An augmented state matrix.
+pub type AugMatrix = SMatrix<f64, N_AUG, N_AUG>;
+/// A row of coefficients on the augmented state.
+pub type Row = nalgebra::RowSVector<f64, N_AUG>;
+
+/// State index of the inductor current, A.
+pub const X_IL: usize = 0;
+/// State index of the output capacitor voltage, V.
+pub const X_VCO: usize = 1;
+/// State index of the input capacitor voltage, V.
+pub const X_VCIN: usize = 2;
+/// Index of the constant 1 in the augmented state.
+pub const X_ONE: usize = 3;
+
+/// The circuit signals every region expresses as rows on `z`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Signal {
+    /// Inductor current, A.
+    InductorCurrent = 0,
+    /// Current through the LED string (or load), A.
+    LedCurrent,
+    /// Voltage across the LED string (output node), V.
+    LedVoltage,
+    /// Switch-node voltage, V.
+    SwitchNode,
+    /// Input-node voltage (after the source resistance), V.
+    InputNode,
+    /// Current drawn from the ideal source, A.
+    SourceCurrent,
+    /// Input capacitor current, A.
+    InputCapCurrent,
+    /// Output capacitor current, A.
+    OutputCapCurrent,
+    /// Switch current, A.
+    SwitchCurrent,
+    /// Diode forward current, A.
+    DiodeCurrent,
+    /// Diode forward voltage (anode to cathode), V.
+    DiodeVoltage,
+}
+
+/// Number of [`Signal`]s.
+pub const N_SIGNALS: usize = 11;
+
+/// Which linear piece of the circuit applies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Region {
+    /// The switch is on.
+    pub switch_on: bool,
+    /// The inductor carries current (false: held at zero, DCM idle or blocked).
+    pub conducting: bool,
+    /// Diode segment (meaningful when off and conducting).
+    pub diode_segment: u8,
+    /// LED segment, or `None` below the knee.
+    pub led_segment: Option<u8>,
+}
+
+impl Region {
+    /// A short name for messages, e.g. `off/diode[0]/led[3]`.
+    pub fn name(&self) -> String {
+        let sw = match (self.switch_on, self.conducting) {
+            (true, true) => "on".to_string(),
+            (true, false) => "on-blocked".to_string(),
+            (false, true) => format!("off/diode[{}]", self.diode_segment),
+            (false, false) => "idle".to_string(),
+        };
+        match self.led_segment {
+            Some(k) => format!("{sw}/led[{k}]"),
+            None => format!("{sw}/led-off"),
+        }
+    }
+}
+
+/// The linear dynamics and outputs of one region.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Linear {
+    /// `z' = m z`.
+    pub m: AugMatrix,
+    /// Row `s` gives signal `s` as `signals.row(s) · z`.
+    pub signals: SMatrix<f64, N_SIGNALS, N_AUG>,
+}
+
+impl Linear {
+    /// The row of one signal.
+    pub fn row(&self, s: Signal) -> Row {
+        self.signals.row(s as usize).into_owned()
+    }
+}
+
+/// Element values of the circuit, in SI units.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Circuit {
+    /// Supply voltage, V.
+    pub supply_v: f64,
+    /// Source resistance, ohms.
+    pub source_ohm: f64,
+    /// Input capacitance, F, and ESR, ohms (None: absent or on an ideal source).
+    pub input_cap: Option<(f64, f64)>,
+    /// Switch on-resistance, ohms.
+    pub switch_ohm: f64,
+    /// Inductance, H.
+    pub inductance_h: f64,
+    /// Inductor DCR, ohms.
+    pub dcr_ohm: f64,
+    /// Output capacitance, F, and ESR, ohms.
+    pub output_cap: Option<(f64, f64)>,
+    /// The diode's piecewise-linear curve in use.
+    pub diode: PwlCurve,
+    /// The load's piecewise-linear curve in use.
+    pub led: PwlCurve,
+    /// Exact diode curve, when the diode is exponential.
+    pub diode_exact: Option<ExpDevice>,
+    /// Exact LED curve, when the load is exponential.
+    pub led_exact: Option<ExpDevice>,
+}
+
+struct Eval {
+    dx: [f64; N_STATES],
+    sig: [f64; N_SIGNALS],
+}
+
+impl Circuit {
+    /// Builds the circuit of a validated scenario. Exponential curves get
+    /// an initial fit from zero to the controller's target current.
+    pub fn new(s: &Scenario) -> Circuit {
+        let target = s.target_current_a().unwrap_or_else(|| {
+            // Fixed duty: the current a resistor or LED string would draw at
+            // the average switch-node voltage.
+            let d = match s.controller {
+                crate::scenario::ControllerSpec::FixedDuty { duty, .. } => duty,
+                _ => 0.5,
+            };
+            let v = d * s.supply.voltage_v;
+            match s.load {
+                Load::Resistor { resistance_ohm } => v / resistance_ohm,
+                _ => 1.0,
+            }
+        });
+        let segs = s.simulation.curve_segments as usize;
+        let led_exact = ExpDevice::from_load(&s.load);
+        let led = match s.load {
+            Load::LedExponential { .. } => {
+                PwlCurve::fit(led_exact.as_ref().expect("exponential load"), 0.0, target, segs)
+            }
+            Load::LedKnee {
+                count,
+                knee_voltage_v,
+                dynamic_resistance_ohm,
+            } => PwlCurve::line(
+                f64::from(count) * knee_voltage_v,
+                f64::from(count) * dynamic_resistance_ohm,
+            ),
+            Load::Resistor { resistance_ohm } => PwlCurve::line(0.0, resistance_ohm),
+        };
+        let diode_exact = ExpDevice::from_diode(&s.diode);
+        let diode = match s.diode {
+            Diode::FixedDrop {
+                forward_voltage_v,
+                series_resistance_ohm,
+            } => PwlCurve::line(forward_voltage_v, series_resistance_ohm),
+            Diode::Shockley { .. } => PwlCurve::fit(
+                diode_exact.as_ref().expect("shockley diode"),
+                0.0,
+                target,
+                segs,
+            ),
+        };
+        let input_cap = s.input_capacitor.and_then(|c| {
+            // A capacitor with no ESR straight on an ideal source does nothing.
+            if s.supply.source_resistance_ohm == 0.0 && c.esr_ohm == 0.0 {
+                None
+            } else {
+                Some((c.capacitance_f, c.esr_ohm))
+            }
+        });
+        Circuit {
+            supply_v: s.supply.voltage_v,
+            source_ohm: s.supply.source_resistance_ohm,
+            input_cap,
+            switch_ohm: s.switch.on_resistance_ohm,
+            inductance_h: s.inductor.inductance_h,
+            dcr_ohm: s.inductor.dcr_ohm,
+            output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
+            diode,
+            led,
+            diode_exact,
+            led_exact,
+        }
+    }
+
+    /// The state at power-on: no current, capacitors discharged.
+    pub fn power_on_state(&self) -> SVector<f64, N_STATES> {
+        SVector::zeros()
+    }
+
+    /// Energy stored in the inductor and capacitors, J.
+    pub fn stored_energy_j(&self, x: &SVector<f64, N_STATES>) -> f64 {
+        let mut e = 0.5 * self.inductance_h * x[X_IL] * x[X_IL];
+        if let Some((c, _)) = self.output_cap {
+            e += 0.5 * c * x[X_VCO] * x[X_VCO];
+        }
+        if let Some((c, _)) = self.input_cap {
+            e += 0.5 * c * x[X_VCIN] * x[X_VCIN];
+        }
+        e
+    }
+
+    /// A bound on the highest natural angular frequency of the circuit,
+    /// rad/s: the inductor against the series combination of the capacitors.
+    pub fn max_angular_frequency(&self) -> f64 {
+        let inv_c: f64 = self.input_cap.map_or(0.0, |c| 1.0 / c.0)
+            + self.output_cap.map_or(0.0, |c| 1.0 / c.0);
+        (inv_c / self.inductance_h).sqrt()
+    }
+
+    /// The input-node voltage and the source and input-capacitor currents
+    /// for a given switch current.
+    fn input_side(&self, x: &[f64; N_STATES], one: f64, i_sw: f64) -> (f64, f64, f64) {
+        let vs = self.supply_v * one;
+        match self.input_cap {
+            None => {
+                let vin = vs - self.source_ohm * i_sw;
+                (vin, i_sw, 0.0)
+            }
+            Some((_, esr)) => {
+                let vc = x[X_VCIN];
+                if self.source_ohm == 0.0 {
+                    let i_c = (vs - vc) / esr;
+                    (vs, i_c + i_sw, i_c)
+                } else if esr == 0.0 {
+                    let i_s = (vs - vc) / self.source_ohm;
+                    (vc, i_s, i_s - i_sw)
+                } else {
+                    let gs = 1.0 / self.source_ohm;
+                    let gc = 1.0 / esr;
+                    let vin = (vs * gs + vc * gc - i_sw) / (gs + gc);
+                    let i_c = (vin - vc) * gc;
+                    (vin, (vs - vin) * gs, i_c)
+                }
+            }
+        }
+    }
+
+    /// Output node voltage, LED current and output-capacitor current.
+    fn output_side(&self, x: &[f64; N_STATES], one: f64, il: f64, led: Option<u8>) -> (f64, f64, f64) {
+        match (self.output_cap, led) {
+            (None, Some(k)) => {
+                let k = k as usize;
+                let vo = self.led.v0_v[k] * one + self.led.r_ohm[k] * il;
+                (vo, il, 0.0)
+            }
+            (None, None) => (self.led.knee_v() * one, 0.0, 0.0),
+            (Some((_, esr)), None) => {
+                let vo = x[X_VCO] + esr * il;
+                (vo, 0.0, il)
+            }
+            (Some((_, esr)), Some(k)) => {
+                let k = k as usize;
+                let v0 = self.led.v0_v[k] * one;
+                let r = self.led.r_ohm[k];
+                let vc = x[X_VCO];
+                if esr == 0.0 {
+                    let i_led = (vc - v0) / r;
+                    (vc, i_led, il - i_led)
+                } else if r == 0.0 {
+                    let i_c = (v0 - vc) / esr;
+                    (v0, il - i_c, i_c)
+                } else {
+                    let vo = (il + vc / esr + v0 / r) / (1.0 / esr + 1.0 / r);
+                    let i_led = (vo - v0) / r;
+                    (vo, i_led, (vo - vc) / esr)
+                }
+            }
+        }
+    }
+
+    fn eval(&self, region: Region, z: &[f64; N_AUG]) -> Eval {
+        let x = [z[0], z[1], z[2]];
+        let one = z[X_ONE];
+        let il = if region.conducting { x[X_IL] } else { 0.0 };
+        let i_sw = if region.switch_on { il } else { 0.0 };
+        let (vin, i_s, i_cin) = self.input_side(&x, one, i_sw);
+        let (vo, i_led, i_co) = self.output_side(&x, one, il, region.led_segment);
+        let (v_sw, i_d, v_d) = if region.switch_on {
+            (vin - self.switch_ohm * il, 0.0, 0.0)
+        } else if region.conducting {
+            let k = region.diode_segment as usize;
+            let vd = self.diode.v0_v[k] * one + self.diode.r_ohm[k] * il;
+            (-vd, il, vd)
+        } else {
+            (vo, 0.0, 0.0)
+        };
+        let dil = if region.conducting {
+            (v_sw - self.dcr_ohm * il - vo) / self.inductance_h
+        } else {
+            0.0
+        };
+        let dvco = self.output_cap.map_or(0.0, |(c, _)| i_co / c);
+        let dvcin = self.input_cap.map_or(0.0, |(c, _)| i_cin / c);
+        Eval {
+            dx: [dil, dvco, dvcin],
+            sig: [il, i_led, vo, v_sw, vin, i_s, i_cin, i_co, i_sw, i_d, v_d],
+        }
+    }
+
+    /// The linear dynamics and signal rows of a region.
+    pub fn linearize(&self, region: Region) -> Linear {
+        let mut m = AugMatrix::zeros();
+        let mut signals = SMatrix::<f64, N_SIGNALS, N_AUG>::zeros();
+        for j in 0..N_AUG {
+            let mut z = [0.0; N_AUG];
+            z[j] = 1.0;
+            let e = self.eval(region, &z);
+            for (i, d) in e.dx.iter().enumerate() {
+                m[(i, j)] = *d;
+            }
+            for (s, v) in e.sig.iter().enumerate() {
+                signals[(s, j)] = *v;
+            }
+        }
+        // `eval` is linear in z (every constant is scaled by z[X_ONE]), so
+        // the probes are exactly the columns.
+        Linear { m, signals }
+    }
+
+    /// Chooses the region for a switch state and a circuit state, resolving
+    /// boundaries by the direction the state is moving.
+    pub fn region_for(&self, switch_on: bool, x: &SVector<f64, N_STATES>) -> Region {
+        let il = x[X_IL];
+        let led_for = |conducting: bool, diode_segment: u8| -> Option<u8> {
+            match self.output_cap {
+                None => {
+                    if conducting {
+                        Some(self.led.segment_for_current(il) as u8)
+                    } else {
+                        None
+                    }
+                }
+                Some((_, esr)) => {
+                    let i = if conducting { il } else { 0.0 };
+                    let vo_open = x[X_VCO] + esr * i;
+                    let seg = self.led.segment_for_voltage(vo_open)?;
+                    let _ = diode_segment;
+                    // Refine using the LED current with this segment.
+                    let mut k = seg;
+                    loop {
+                        let r = Region {
+                            switch_on,
+                            conducting,
+                            diode_segment,
+                            led_segment: Some(k as u8),
+                        };
+                        let z = [x[0], x[1], x[2], 1.0];
+                        let i_led = self.eval(r, &z).sig[Signal::LedCurrent as usize];
+                        if k + 1 < self.led.segments && i_led > self.led.upper_a[k] {
+                            k += 1;
+                        } else if k > 0 && i_led < self.led.upper_a[k - 1] {
+                            k -= 1;
+                        } else {
+                            break;
+                        }
+                    }
+                    Some(k as u8)
+                }
+            }
+        };
+        let diode_segment = self.diode.segment_for_current(il) as u8;
+        let conducting = if switch_on {
+            if self.output_cap.is_some() {
+                il != 0.0 || {
+                    let r = Region {
+                        switch_on,
+                        conducting: true,
+                        diode_segment,
+                        led_segment: led_for(true, diode_segment),
+                    };
+                    self.derivative_il(r, x) > 0.0
+                }
+            } else {
+                il > 0.0 || {
+                    let r = Region {
+                        switch_on,
+                        conducting: true,
+                        diode_segment,
+                        led_segment: Some(0),
+                    };
+                    self.derivative_il(r, x) > 0.0
+                }
+            }
+        } else {
+            il > 0.0
+        };
+        let mut region = Region {
+            switch_on,
+            conducting,
+            diode_segment,
+            led_segment: led_for(conducting, diode_segment),
+        };
+        // At the knee with a capacitor: decide by the direction of travel.
+        if let (Some(_), Some(0)) = (self.output_cap, region.led_segment) {
+            let lin = self.linearize(region);
+            let z = Aug::new(x[0], x[1], x[2], 1.0);
+            let i_led = (lin.row(Signal::LedCurrent) * z)[0];
+            if i_led <= 0.0 {
+                let d = (lin.row(Signal::LedCurrent) * lin.m * z)[0];
+                if d <= 0.0 {
+                    region.led_segment = None;
+                }
+            }
+        }
+        region
+    }
+
+    fn derivative_il(&self, r: Region, x: &SVector<f64, N_STATES>) -> f64 {
+        let z = [x[0], x[1], x[2], 1.0];
+        self.eval(r, &z).dx[X_IL]
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scenario::template;
+
+    #[test]
+    fn signals_are_consistent_with_kirchhoff() {
+        let mut s = template();
+        s.output_capacitor = Some(crate::scenario::Capacitor {
+            capacitance_f: 4.7e-6,
+            esr_ohm: 0.02,
+        });
+        let c = Circuit::new(&s);
+        let x = SVector::<f64, 3>::new(0.7, 9.5, 11.8);
+        for on in [true, false] {
+            let r = c.region_for(on, &x);
+            let lin = c.linearize(r);
+            let z = Aug::new(x[0], x[1], x[2], 1.0);
+            let sig = lin.signals * z;
+            let g = |s: Signal| sig[s as usize];
+            // Output node: inductor current splits into LED and capacitor.
+            let kcl = g(Signal::InductorCurrent) - g(Signal::LedCurrent) - g(Signal::OutputCapCurrent);
+            assert!(kcl.abs() < 1e-12, "{kcl}");
+            // Input node.
+            let kcl_in = g(Signal::SourceCurrent) - g(Signal::InputCapCurrent) - g(Signal::SwitchCurrent);
+            assert!(kcl_in.abs() < 1e-12, "{kcl_in}");
+        }
+    }
+}

@@ -1,0 +1,288 @@
+//! Nonlinear device curves (LED string, Shockley diode) and their
+//! piecewise-linear fits.
+//!
+//! The exact engine needs every element linear between events, so an
+//! exponential curve v = count·(n·Vt·ln(1 + i/Is) + Rs·i) is replaced by a
+//! continuous chain of chords ([`PwlCurve`]) over the current range the
+//! circuit actually visits; crossing from one chord to the next is an
+//! event like any other. The exact curve ([`ExpDevice`]) is kept for the
+//! reference engine and to measure the fit error.
+
+use crate::scenario::{Diode, Load};
+use crate::units::thermal_voltage_v;
+
+/// Most straight segments a piecewise-linear curve may have.
+pub const MAX_SEGMENTS: usize = 32;
+
+/// A string of `count` identical exponential junctions in series:
+/// v(i) = count·(n·Vt·ln(1 + i/Is) + Rs·i).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ExpDevice {
+    /// Number of junctions in series.
+    pub count: f64,
+    /// Saturation current Is of one junction, A.
+    pub saturation_current_a: f64,
+    /// n·Vt of one junction, V.
+    pub n_vt_v: f64,
+    /// Series resistance of one junction, ohms.
+    pub series_resistance_ohm: f64,
+}
+
+impl ExpDevice {
+    /// The exponential model of an LED load, if the load is one.
+    pub fn from_load(load: &Load) -> Option<ExpDevice> {
+        match *load {
+            Load::LedExponential {
+                count,
+                saturation_current_a,
+                emission_coefficient,
+                series_resistance_ohm,
+                junction_temperature_c,
+            } => Some(ExpDevice {
+                count: f64::from(count),
+                saturation_current_a,
+                n_vt_v: emission_coefficient * thermal_voltage_v(junction_temperature_c),
+                series_resistance_ohm,
+            }),
+            _ => None,
+        }
+    }
+
+    /// The Shockley model of a diode, if the diode is one.
+    pub fn from_diode(diode: &Diode) -> Option<ExpDevice> {
+        match *diode {
+            Diode::Shockley {
+                saturation_current_a,
+                emission_coefficient,
+                series_resistance_ohm,
+                temperature_c,
+            } => Some(ExpDevice {
+                count: 1.0,
+                saturation_current_a,
+                n_vt_v: emission_coefficient * thermal_voltage_v(temperature_c),
+                series_resistance_ohm,
+            }),
+            Diode::FixedDrop { .. } => None,
+        }
+    }
+
+    /// Voltage across the string at a current, V. Currents below
+    /// −Is/2 are clamped there (the junction cannot carry more reverse current).
+    pub fn voltage_v(&self, current_a: f64) -> f64 {
+        let i = current_a.max(-0.5 * self.saturation_current_a);
+        self.count
+            * (self.n_vt_v * (i / self.saturation_current_a).ln_1p() + self.series_resistance_ohm * i)
+    }
+
+    /// dv/di of the string, ohms.
+    pub fn slope_ohm(&self, current_a: f64) -> f64 {
+        let i = current_a.max(-0.5 * self.saturation_current_a);
+        self.count * (self.n_vt_v / (self.saturation_current_a + i) + self.series_resistance_ohm)
+    }
+
+    /// The current at which `voltage_v(i) + extra_ohm·i = v`, A: the string
+    /// in series with an extra resistance, driven by a voltage.
+    pub fn current_a(&self, v: f64, extra_ohm: f64) -> f64 {
+        // Per junction: n·Vt·w + R·Is·(e^w − 1) = u, with w = ln(1 + i/Is).
+        // The left side is convex and increasing in w, so Newton from an
+        // upper bound converges monotonically.
+        let u = v / self.count;
+        let r = self.series_resistance_ohm + extra_ohm / self.count;
+        let is = self.saturation_current_a;
+        let nvt = self.n_vt_v;
+        if r <= 0.0 {
+            return is * (u / nvt).exp_m1();
+        }
+        let f = |w: f64| nvt * w + r * is * w.exp_m1() - u;
+        let mut w = if u >= 0.0 {
+            (u / nvt).min((u / (r * is)).ln_1p())
+        } else {
+            // Below zero volts: the root is negative; start at the larger of
+            // the two one-term solutions (both upper bounds of the root).
+            (u / nvt).max((u / (r * is)).max(-0.999_999).ln_1p())
+        };
+        for _ in 0..100 {
+            let fw = f(w);
+            let dfw = nvt + r * is * w.exp();
+            let step = fw / dfw;
+            w -= step;
+            if step.abs() <= 1e-15 * w.abs().max(1.0) {
+                break;
+            }
+        }
+        is * w.exp_m1()
+    }
+}
+
+/// A continuous, increasing piecewise-linear voltage-current curve that
+/// carries no current below its knee (the first segment's intercept).
+///
+/// Segment `k` is v = `v0_v[k]` + `r_ohm[k]`·i for currents from
+/// `upper_a[k-1]` (0 for the first) to `upper_a[k]` (unbounded for the last).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PwlCurve {
+    /// Number of conducting segments (1..=MAX_SEGMENTS).
+    pub segments: usize,
+    /// Intercept of each segment's line at zero current, V.
+    pub v0_v: [f64; MAX_SEGMENTS],
+    /// Slope of each segment, ohms.
+    pub r_ohm: [f64; MAX_SEGMENTS],
+    /// Upper current bound of each segment but the last, A.
+    pub upper_a: [f64; MAX_SEGMENTS],
+}
+
+impl PwlCurve {
+    /// A single straight line v = knee + r·i above the knee.
+    pub fn line(knee_v: f64, r_ohm: f64) -> PwlCurve {
+        let mut c = PwlCurve {
+            segments: 1,
+            v0_v: [0.0; MAX_SEGMENTS],
+            r_ohm: [0.0; MAX_SEGMENTS],
+            upper_a: [f64::INFINITY; MAX_SEGMENTS],
+        };
+        c.v0_v[0] = knee_v;
+        c.r_ohm[0] = r_ohm;
+        c
+    }
+
+    /// Chords of `dev` over the current range `lo_a..hi_a` (widened by a
+    /// quarter of its span each side), `segments` of them, spaced
+    /// geometrically when the range reaches down towards zero and evenly
+    /// otherwise. The first chord extends down to zero current (its
+    /// intercept is the knee); the last extends upward without bound.
+    pub fn fit(dev: &ExpDevice, lo_a: f64, hi_a: f64, segments: usize) -> PwlCurve {
+        let k = segments.clamp(1, MAX_SEGMENTS);
+        let mut hi = hi_a.max(1e-9);
+        let mut lo = lo_a.clamp(0.0, hi);
+        let span = (hi - lo).max(0.02 * hi);
+        lo = (lo - 0.25 * span).max(0.0);
+        hi += 0.25 * span;
+        let mut pts = [0.0; MAX_SEGMENTS + 1];
+        if lo < 0.25 * hi {
+            let start = lo.max(1e-3 * hi);
+            let ratio = (hi / start).powf(1.0 / k as f64);
+            for (j, p) in pts.iter_mut().enumerate().take(k + 1) {
+                *p = start * ratio.powi(j as i32);
+            }
+        } else {
+            for (j, p) in pts.iter_mut().enumerate().take(k + 1) {
+                *p = lo + (hi - lo) * j as f64 / k as f64;
+            }
+        }
+        pts[k] = hi;
+        let mut c = PwlCurve::line(0.0, 0.0);
+        c.segments = k;
+        for j in 0..k {
+            let (a, b) = (pts[j], pts[j + 1]);
+            let (va, vb) = (dev.voltage_v(a), dev.voltage_v(b));
+            let r = (vb - va) / (b - a);
+            c.r_ohm[j] = r;
+            c.v0_v[j] = va - r * a;
+            c.upper_a[j] = if j + 1 < k { b } else { f64::INFINITY };
+        }
+        c
+    }
+
+    /// The knee voltage: no current flows below it, V.
+    pub fn knee_v(&self) -> f64 {
+        self.v0_v[0]
+    }
+
+    /// Segment holding a current (currents at or below zero give 0).
+    pub fn segment_for_current(&self, i_a: f64) -> usize {
+        let mut k = 0;
+        while k + 1 < self.segments && i_a > self.upper_a[k] {
+            k += 1;
+        }
+        k
+    }
+
+    /// Segment holding a voltage above the knee, or `None` below it.
+    pub fn segment_for_voltage(&self, v: f64) -> Option<usize> {
+        if v < self.knee_v() {
+            return None;
+        }
+        let mut k = 0;
+        while k + 1 < self.segments && v > self.v0_v[k] + self.r_ohm[k] * self.upper_a[k] {
+            k += 1;
+        }
+        Some(k)
+    }
+
+    /// Voltage at a current on the curve, V (the knee for zero current).
+    pub fn voltage_v(&self, i_a: f64) -> f64 {
+        let k = self.segment_for_current(i_a);
+        self.v0_v[k] + self.r_ohm[k] * i_a
+    }
+
+    /// Largest |PWL − exact| voltage over currents `lo_a..hi_a`, sampled at
+    /// 64 points per segment span, V.
+    pub fn max_error_v(&self, dev: &ExpDevice, lo_a: f64, hi_a: f64) -> f64 {
+        if !(hi_a > lo_a) {
+            return (self.voltage_v(hi_a) - dev.voltage_v(hi_a)).abs();
+        }
+        let n = 64 * self.segments;
+        (0..=n)
+            .map(|j| {
+                let i = lo_a + (hi_a - lo_a) * j as f64 / n as f64;
+                (self.voltage_v(i) - dev.voltage_v(i)).abs()
+            })
+            .fold(0.0, f64::max)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    fn led() -> ExpDevice {
+        ExpDevice {
+            count: 3.0,
+            saturation_current_a: 1e-18,
+            n_vt_v: 2.2 * 0.0285,
+            series_resistance_ohm: 0.35,
+        }
+    }
+
+    #[test]
+    fn inverse_matches_forward() {
+        let d = led();
+        for &i in &[1e-9, 1e-4, 0.1, 0.7, 3.0] {
+            for &extra in &[0.0, 0.05, 2.0] {
+                let v = d.voltage_v(i) + extra * i;
+                assert_relative_eq!(d.current_a(v, extra), i, max_relative = 1e-10);
+            }
+        }
+    }
+
+    #[test]
+    fn slope_matches_central_difference() {
+        let d = led();
+        for &i in &[1e-3, 0.3, 1.2] {
+            let h = 1e-6 * i;
+            let fd = (d.voltage_v(i + h) - d.voltage_v(i - h)) / (2.0 * h);
+            assert_relative_eq!(d.slope_ohm(i), fd, max_relative = 1e-6);
+        }
+    }
+
+    #[test]
+    fn fit_is_continuous_increasing_and_close() {
+        let d = led();
+        for &(lo, hi) in &[(0.6, 0.8), (0.0, 1.0)] {
+            let c = PwlCurve::fit(&d, lo, hi, 8);
+            for k in 0..c.segments - 1 {
+                let b = c.upper_a[k];
+                let left = c.v0_v[k] + c.r_ohm[k] * b;
+                let right = c.v0_v[k + 1] + c.r_ohm[k + 1] * b;
+                assert_relative_eq!(left, right, max_relative = 1e-12);
+                assert!(c.r_ohm[k] > c.r_ohm[k + 1], "chords of a concave curve");
+            }
+            assert!(c.knee_v() > 0.0);
+            let err = c.max_error_v(&d, lo.max(0.01 * hi), hi);
+            assert!(err < 0.02, "fit error {err} V over {lo}..{hi} A");
+        }
+        let narrow = PwlCurve::fit(&d, 0.6, 0.8, 8);
+        assert!(narrow.max_error_v(&d, 0.6, 0.8) < 1e-4);
+    }
+}

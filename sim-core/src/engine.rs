@@ -1,0 +1,556 @@
+//! The exact piecewise-linear engine.
+//!
+//! Between events the circuit is linear ([`crate::circuit`]), so the state
+//! is propagated in closed form with the matrix exponential and every
+//! energy comes from the interval's Gramian ([`crate::propagate`]). Events
+//! are the controller's threshold and timer, the diode current reaching
+//! zero (DCM), the inductor unblocking, and the LED or diode current
+//! crossing from one straight segment of its fitted curve to the next.
+//!
+//! **Invariant:** [`ExactEngine::run_cycle`] without a recorder allocates
+//! nothing: all matrices are fixed-size and live on the stack.
+
+use crate::circuit::{
+    Aug, Circuit, Linear, Region, Row, Signal, N_STATES, X_IL, X_ONE, X_VCO, X_VCIN,
+};
+use crate::controller::{self, Cause, Command, Controller};
+use crate::devices::PwlCurve;
+use crate::error::SimError;
+use crate::metrics::Totals;
+use crate::propagate::{first_event, gramian, EventFn, WorkCounts, MAX_EVENTS};
+use crate::record::{Recorder, Sample};
+use crate::scenario::Scenario;
+use nalgebra::SVector;
+
+/// What an event does when it fires.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Action {
+    Controller,
+    DiodeOff,
+    DiodeDown,
+    DiodeUp,
+    Block,
+    Unblock,
+    LedDown,
+    LedUp,
+    LedOff,
+    LedOn,
+}
+
+/// Zero-length intervals in a row before the run is stopped as chattering.
+const MAX_ZERO_INTERVALS: u32 = 64;
+
+/// The exact engine's state for one run.
+pub struct ExactEngine {
+    /// The circuit, with the fitted curves currently in use.
+    pub circuit: Circuit,
+    controller: Box<dyn Controller>,
+    /// Simulated time, s.
+    pub t: f64,
+    /// Circuit state `[i_L, v_Co, v_Cin]`.
+    pub x: SVector<f64, N_STATES>,
+    cmd: Command,
+    region: Region,
+    switch_changed_t: f64,
+    max_interval_s: f64,
+    max_step_s: f64,
+    curve_segments: usize,
+    /// Work done so far.
+    pub work: WorkCounts,
+    /// Intervals (between events) simulated.
+    pub intervals: u64,
+    /// Cycles completed.
+    pub cycles: u64,
+    zero_run: u32,
+    led_range: (f64, f64),
+    diode_range: (f64, f64),
+    /// Freeze the curve fits (no refit at cycle starts).
+    pub freeze_fits: bool,
+    /// Energy dropped by cutting off reverse inductor current at turn-off, J.
+    pub clamped_energy_j: f64,
+}
+
+fn aug(x: &SVector<f64, N_STATES>) -> Aug {
+    Aug::new(x[0], x[1], x[2], 1.0)
+}
+
+impl ExactEngine {
+    /// An engine at power-on for a validated scenario.
+    pub fn new(s: &Scenario) -> ExactEngine {
+        let circuit = Circuit::new(s);
+        let mut controller = controller::build(&s.controller);
+        let cmd = controller.start(0.0);
+        let x = circuit.power_on_state();
+        let region = circuit.region_for(cmd.switch_on, &x);
+        let w = circuit.max_angular_frequency();
+        let max_step_s = if w > 0.0 {
+            std::f64::consts::FRAC_PI_4 / w
+        } else {
+            f64::INFINITY
+        };
+        ExactEngine {
+            circuit,
+            controller,
+            t: 0.0,
+            x,
+            cmd,
+            region,
+            switch_changed_t: 0.0,
+            max_interval_s: s.simulation.max_interval_s,
+            max_step_s,
+            curve_segments: s.simulation.curve_segments as usize,
+            work: WorkCounts::default(),
+            intervals: 0,
+            cycles: 0,
+            zero_run: 0,
+            led_range: (f64::INFINITY, f64::NEG_INFINITY),
+            diode_range: (f64::INFINITY, f64::NEG_INFINITY),
+            freeze_fits: false,
+            clamped_energy_j: 0.0,
+        }
+    }
+
+    /// Sets the circuit state (e.g. to warm-start from a known orbit); the
+    /// region is re-derived from it.
+    pub fn set_state(&mut self, x: [f64; N_STATES]) {
+        self.x = SVector::from(x);
+        self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+    }
+
+    /// The region in use.
+    pub fn region(&self) -> Region {
+        self.region
+    }
+
+    /// Re-fits the exponential curves to the currents the last cycle visited.
+    fn refit(&mut self) {
+        if self.freeze_fits {
+            return;
+        }
+        let segs = self.curve_segments;
+        if let Some(dev) = self.circuit.led_exact {
+            let (lo, hi) = self.led_range;
+            if hi > 0.0 && lo.is_finite() {
+                self.circuit.led = PwlCurve::fit(&dev, lo.max(0.0), hi, segs);
+            }
+        }
+        if let Some(dev) = self.circuit.diode_exact {
+            let (lo, hi) = self.diode_range;
+            if hi > 0.0 && lo.is_finite() {
+                self.circuit.diode = PwlCurve::fit(&dev, lo.max(0.0), hi, segs);
+            }
+        }
+        self.led_range = (f64::INFINITY, f64::NEG_INFINITY);
+        self.diode_range = (f64::INFINITY, f64::NEG_INFINITY);
+        // Segment indices refer to the new fits.
+        self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+    }
+
+    /// Runs one switching cycle: from this turn-on to the next. Energies,
+    /// integrals and extremes go into `totals` and samples into `rec` when
+    /// given.
+    pub fn run_cycle(
+        &mut self,
+        mut totals: Option<&mut Totals>,
+        mut rec: Option<&mut Recorder>,
+    ) -> Result<(), SimError> {
+        if let Some(r) = rec.as_deref_mut() {
+            r.cycle_start(self.t);
+        }
+        loop {
+            let turned_on = self.interval(totals.as_deref_mut(), rec.as_deref_mut())?;
+            if turned_on {
+                self.cycles += 1;
+                self.refit();
+                return Ok(());
+            }
+        }
+    }
+
+    fn push_event(
+        evs: &mut [EventFn; MAX_EVENTS],
+        acts: &mut [Action; MAX_EVENTS],
+        n: &mut usize,
+        row: Row,
+        lin: &Linear,
+        act: Action,
+    ) {
+        if *n < MAX_EVENTS {
+            evs[*n] = EventFn::new(row, &lin.m);
+            acts[*n] = act;
+            *n += 1;
+        }
+    }
+
+    /// Simulates up to the next event; returns whether the switch turned on.
+    fn interval(
+        &mut self,
+        totals: Option<&mut Totals>,
+        rec: Option<&mut Recorder>,
+    ) -> Result<bool, SimError> {
+        let region = self.region;
+        let lin = self.circuit.linearize(region);
+        let z0 = aug(&self.x);
+        let one = {
+            let mut r = Row::zeros();
+            r[X_ONE] = 1.0;
+            r
+        };
+        let il_row = lin.row(Signal::InductorCurrent);
+        let mut evs = [EventFn::new(Row::zeros(), &lin.m); MAX_EVENTS];
+        let mut acts = [Action::Controller; MAX_EVENTS];
+        let mut n = 0;
+        let mut threshold_slot = None;
+        if let Some(w) = self.cmd.watch {
+            let row = if w.rising {
+                il_row - one * w.level_a
+            } else {
+                one * w.level_a - il_row
+            };
+            threshold_slot = Some(n);
+            Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::Controller);
+        }
+        let has_co = self.circuit.output_cap.is_some();
+        let led = self.circuit.led;
+        let diode = self.circuit.diode;
+        if region.conducting {
+            if !region.switch_on {
+                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, &lin, Action::DiodeOff);
+                let k = region.diode_segment as usize;
+                if k > 0 {
+                    let row = one * diode.upper_a[k - 1] - il_row;
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::DiodeDown);
+                }
+                if k + 1 < diode.segments {
+                    let row = il_row - one * diode.upper_a[k];
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::DiodeUp);
+                }
+            } else if !has_co {
+                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, &lin, Action::Block);
+            }
+        } else if region.switch_on && !has_co {
+            let cond = Region {
+                conducting: true,
+                led_segment: Some(0),
+                ..region
+            };
+            let lc = self.circuit.linearize(cond);
+            let mut row = Row::zeros();
+            for j in 0..4 {
+                row[j] = lc.m[(X_IL, j)];
+            }
+            row[X_IL] = 0.0;
+            Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::Unblock);
+        }
+        let i_led_row = lin.row(Signal::LedCurrent);
+        match (has_co, region.led_segment) {
+            (false, Some(k)) if region.conducting => {
+                let k = k as usize;
+                if k > 0 {
+                    let row = one * led.upper_a[k - 1] - il_row;
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedDown);
+                }
+                if k + 1 < led.segments {
+                    let row = il_row - one * led.upper_a[k];
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedUp);
+                }
+            }
+            (true, None) => {
+                let row = lin.row(Signal::LedVoltage) - one * led.knee_v();
+                Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedOn);
+            }
+            (true, Some(k)) => {
+                let k = k as usize;
+                if k > 0 {
+                    let row = one * led.upper_a[k - 1] - i_led_row;
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedDown);
+                } else {
+                    Self::push_event(&mut evs, &mut acts, &mut n, -i_led_row, &lin, Action::LedOff);
+                }
+                if k + 1 < led.segments {
+                    let row = i_led_row - one * led.upper_a[k];
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedUp);
+                }
+            }
+            _ => {}
+        }
+
+        // Events already due at the start.
+        let mut due = None;
+        for j in 0..n {
+            let h = evs[j].value(&z0);
+            let tol = 1e-12 * evs[j].magnitude(&z0);
+            let fire = if Some(j) == threshold_slot {
+                h >= 0.0
+            } else {
+                h > tol || (h > -tol && evs[j].slope(&z0) > 0.0)
+            };
+            if fire {
+                due = Some(j);
+                break;
+            }
+        }
+        let to_deadline = self.cmd.deadline_s - self.t;
+        let (dt, z1, fired) = if let Some(j) = due {
+            (0.0, z0, Some(j))
+        } else if to_deadline <= 0.0 {
+            (0.0, z0, None)
+        } else {
+            let limit_left = self.max_interval_s - (self.t - self.switch_changed_t);
+            let t_limit = if self.cmd.deadline_s.is_finite() {
+                to_deadline
+            } else {
+                limit_left.max(0.0)
+            };
+            let scan = first_event(&lin.m, &z0, &evs[..n], t_limit, self.max_step_s, &mut self.work);
+            if scan.event.is_none() && !self.cmd.deadline_s.is_finite() {
+                return Err(SimError::IntervalTooLong {
+                    switch: if self.cmd.switch_on { "on" } else { "off" },
+                    what: self.controller.waiting_for(),
+                    limit_s: self.max_interval_s,
+                    current_a: scan.z[X_IL],
+                    led_voltage_v: (lin.row(Signal::LedVoltage) * scan.z)[0],
+                    time_s: self.t + scan.t,
+                });
+            }
+            (scan.t, scan.z, scan.event)
+        };
+        if !z1.iter().all(|v| v.is_finite()) {
+            return Err(SimError::NonFinite {
+                time_s: self.t + dt,
+                topology: region.name(),
+                state: z1.iter().take(N_STATES).copied().collect(),
+            });
+        }
+        self.intervals += 1;
+        if dt == 0.0 {
+            self.zero_run += 1;
+            if self.zero_run > MAX_ZERO_INTERVALS {
+                return Err(SimError::Chattering {
+                    count: self.zero_run,
+                    time_s: self.t,
+                    topology: region.name(),
+                });
+            }
+        } else {
+            self.zero_run = 0;
+        }
+
+        // Track the visited current ranges for the next refit.
+        let i_led0 = (i_led_row * z0)[0];
+        let i_led1 = (i_led_row * z1)[0];
+        if region.led_segment.is_some() {
+            self.led_range.0 = self.led_range.0.min(i_led0.min(i_led1));
+            self.led_range.1 = self.led_range.1.max(i_led0.max(i_led1));
+        }
+        if !region.switch_on && region.conducting {
+            let (a, b) = (z0[X_IL], z1[X_IL]);
+            self.diode_range.0 = self.diode_range.0.min(a.min(b));
+            self.diode_range.1 = self.diode_range.1.max(a.max(b));
+        }
+
+        if dt > 0.0 {
+            if let Some(tot) = totals {
+                self.accumulate(tot, &lin, region, &z0, &z1, dt);
+            }
+            if let Some(r) = rec {
+                if r.wants_interval() {
+                    self.record(r, &lin, &z0, dt);
+                }
+            }
+        }
+
+        self.t += dt;
+        self.x = SVector::from([z1[0], z1[1], z1[2]]);
+        if let Some((c, _)) = self.circuit.output_cap {
+            let _ = c;
+        } else {
+            self.x[X_VCO] = 0.0;
+        }
+        if self.circuit.input_cap.is_none() {
+            self.x[X_VCIN] = 0.0;
+        }
+
+        let act = fired.map(|j| acts[j]).unwrap_or(Action::Controller);
+        let mut turned_on = false;
+        match act {
+            Action::Controller => {
+                let cause = if fired.is_some() {
+                    Cause::Threshold
+                } else {
+                    Cause::Deadline
+                };
+                let new = self.controller.on_event(self.t, cause, self.x[X_IL]);
+                turned_on = new.switch_on && !self.cmd.switch_on;
+                let changed = new.switch_on != self.cmd.switch_on;
+                self.cmd = new;
+                if changed {
+                    self.switch_changed_t = self.t;
+                    self.switch_transition(new.switch_on);
+                }
+            }
+            Action::DiodeOff | Action::Block => {
+                self.x[X_IL] = 0.0;
+                self.region.conducting = false;
+                if !has_co {
+                    self.region.led_segment = None;
+                }
+            }
+            Action::Unblock => {
+                self.region.conducting = true;
+                self.region.led_segment = Some(0);
+            }
+            Action::DiodeDown => self.region.diode_segment -= 1,
+            Action::DiodeUp => self.region.diode_segment += 1,
+            Action::LedDown => {
+                self.region.led_segment = self.region.led_segment.map(|k| k - 1);
+            }
+            Action::LedUp => {
+                self.region.led_segment = Some(self.region.led_segment.map_or(0, |k| k + 1));
+            }
+            Action::LedOff => self.region.led_segment = None,
+            Action::LedOn => self.region.led_segment = Some(0),
+        }
+        Ok(turned_on)
+    }
+
+    fn switch_transition(&mut self, on: bool) {
+        let il = self.x[X_IL];
+        self.region.switch_on = on;
+        if on {
+            if !self.region.conducting {
+                // Leaving DCM idle: conducts if the drive pushes current forward
+                // (always with an output capacitor: the switch conducts both ways).
+                let r = self.circuit.region_for(true, &self.x);
+                self.region.conducting = r.conducting;
+                if self.circuit.output_cap.is_none() {
+                    self.region.led_segment = r.led_segment;
+                }
+            }
+        } else if il > 0.0 {
+            self.region.conducting = true;
+            self.region.diode_segment = self.circuit.diode.segment_for_current(il) as u8;
+        } else {
+            // A reverse current is cut off at turn-off (the switch's body
+            // diode returns it to the input within nanoseconds); count its
+            // energy as a loss of its own.
+            self.clamped_energy_j += 0.5 * self.circuit.inductance_h * il * il;
+            self.x[X_IL] = 0.0;
+            self.region.conducting = false;
+            if self.circuit.output_cap.is_none() {
+                self.region.led_segment = None;
+            }
+        }
+    }
+
+    fn accumulate(&mut self, tot: &mut Totals, lin: &Linear, region: Region, z0: &Aug, z1: &Aug, dt: f64) {
+        let (g, _) = gramian(&lin.m, z0, dt, &mut self.work);
+        let row = |s: Signal| lin.row(s);
+        let q = |a: &Row, b: &Row| (a * g * b.transpose())[0];
+        let mut one = Row::zeros();
+        one[X_ONE] = 1.0;
+        let lin_int = |a: &Row| q(a, &one);
+        let il = row(Signal::InductorCurrent);
+        let iled = row(Signal::LedCurrent);
+        let vled = row(Signal::LedVoltage);
+        let isrc = row(Signal::SourceCurrent);
+        let icin = row(Signal::InputCapCurrent);
+        let ico = row(Signal::OutputCapCurrent);
+        let isw = row(Signal::SwitchCurrent);
+        let idi = row(Signal::DiodeCurrent);
+        let vdi = row(Signal::DiodeVoltage);
+        tot.time_s += dt;
+        if region.switch_on {
+            tot.on_time_s += dt;
+        } else if !region.conducting {
+            tot.idle_time_s += dt;
+        }
+        tot.il += lin_int(&il);
+        tot.il2 += q(&il, &il);
+        tot.iled += lin_int(&iled);
+        tot.iled2 += q(&iled, &iled);
+        tot.vled += lin_int(&vled);
+        tot.isrc += lin_int(&isrc);
+        tot.isrc2 += q(&isrc, &isrc);
+        tot.icin += lin_int(&icin);
+        tot.icin2 += q(&icin, &icin);
+        tot.ico += lin_int(&ico);
+        tot.ico2 += q(&ico, &ico);
+        tot.isw2 += q(&isw, &isw);
+        tot.idiode += lin_int(&idi);
+        tot.idiode2 += q(&idi, &idi);
+        let c = &self.circuit;
+        tot.e_in += c.supply_v * lin_int(&isrc);
+        tot.e_led += q(&vled, &iled);
+        tot.loss.source_resistance += c.source_ohm * q(&isrc, &isrc);
+        if let Some((_, esr)) = c.input_cap {
+            tot.loss.input_capacitor_esr += esr * q(&icin, &icin);
+        }
+        if let Some((_, esr)) = c.output_cap {
+            tot.loss.output_capacitor_esr += esr * q(&ico, &ico);
+        }
+        tot.loss.switch_conduction += c.switch_ohm * q(&isw, &isw);
+        tot.loss.diode_conduction += q(&vdi, &idi);
+        tot.loss.inductor_dcr += c.dcr_ohm * q(&il, &il);
+        // Extremes: the ends, and any turning point inside.
+        let extreme = |s: Signal, lo: Option<&mut f64>, hi: &mut f64, work: &mut WorkCounts| {
+            let r = row(s);
+            let (a, b) = ((r * z0)[0], (r * z1)[0]);
+            let mut vmax = a.max(b);
+            let mut vmin = a.min(b);
+            let dr = r * lin.m;
+            let (da, db) = ((dr * z0)[0], (dr * z1)[0]);
+            if da * db < 0.0 {
+                // A turning point: the derivative crosses zero.
+                let drow = if da > 0.0 { -dr } else { dr };
+                let ev = EventFn::new(drow, &lin.m);
+                let sc = first_event(&lin.m, z0, &[ev], dt, f64::INFINITY, work);
+                if sc.event.is_some() {
+                    let v = (r * sc.z)[0];
+                    vmax = vmax.max(v);
+                    vmin = vmin.min(v);
+                }
+            }
+            *hi = hi.max(vmax);
+            if let Some(lo) = lo {
+                *lo = lo.min(vmin);
+            }
+        };
+        let mut work = self.work;
+        extreme(Signal::InductorCurrent, Some(&mut tot.il_min), &mut tot.il_max, &mut work);
+        extreme(Signal::LedCurrent, Some(&mut tot.iled_min), &mut tot.iled_max, &mut work);
+        extreme(Signal::SwitchNode, Some(&mut tot.vsw_min), &mut tot.vsw_max, &mut work);
+        extreme(Signal::LedVoltage, None, &mut tot.vled_max, &mut work);
+        self.work = work;
+    }
+
+    fn sample(&self, lin: &Linear, z: &Aug, t: f64) -> Sample {
+        let s = lin.signals * z;
+        [
+            t,
+            s[Signal::InductorCurrent as usize],
+            s[Signal::LedCurrent as usize],
+            s[Signal::LedVoltage as usize],
+            s[Signal::SwitchNode as usize],
+            s[Signal::InputNode as usize],
+            if self.region.switch_on { 1.0 } else { 0.0 },
+        ]
+    }
+
+    fn record(&mut self, r: &mut Recorder, lin: &Linear, z0: &Aug, dt: f64) {
+        r.push(self.sample(lin, z0, self.t));
+        let k = r.per_interval;
+        for j in 1..=k {
+            let tau = dt * j as f64 / (k + 1) as f64;
+            let z = crate::propagate::transition(&lin.m, tau, &mut self.work) * z0;
+            r.push(self.sample(lin, &z, self.t + tau));
+        }
+        let z1 = crate::propagate::transition(&lin.m, dt, &mut self.work) * z0;
+        r.push(self.sample(lin, &z1, self.t + dt));
+    }
+
+    /// Stored energy now, J.
+    pub fn stored_energy_j(&self) -> f64 {
+        self.circuit.stored_energy_j(&self.x)
+    }
+}

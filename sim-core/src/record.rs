@@ -1,0 +1,125 @@
+//! Recorded waveforms.
+//!
+//! A [`Waveform`] is an `ndarray` table, one row per sample and one column
+//! per [`COLUMNS`] entry. Samples fall at every event (twice, before and
+//! after, where a signal jumps) and at evenly spaced points in between.
+//! The start-up recorder keeps memory bounded by dropping every other
+//! sample and thinning later intervals whenever it is full.
+
+use ndarray::Array2;
+
+/// Column names and units of a [`Waveform`], in order.
+pub const COLUMNS: [(&str, &str); 7] = [
+    ("time", "s"),
+    ("inductor_current", "A"),
+    ("led_current", "A"),
+    ("led_voltage", "V"),
+    ("switch_node_voltage", "V"),
+    ("input_node_voltage", "V"),
+    ("switch_on", "1"),
+];
+
+/// Column index of time.
+pub const COL_TIME: usize = 0;
+/// Column index of the inductor current.
+pub const COL_IL: usize = 1;
+/// Column index of the LED current.
+pub const COL_ILED: usize = 2;
+/// Column index of the LED voltage.
+pub const COL_VLED: usize = 3;
+/// Column index of the switch-node voltage.
+pub const COL_VSW: usize = 4;
+/// Column index of the input-node voltage.
+pub const COL_VIN: usize = 5;
+/// Column index of the switch state (1 on, 0 off).
+pub const COL_SWITCH: usize = 6;
+
+/// One recorded sample.
+pub type Sample = [f64; 7];
+
+/// A recorded stretch of waveforms.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Waveform {
+    /// Samples × [`COLUMNS`].
+    pub data: Array2<f64>,
+    /// Start times of the switching cycles covered, s.
+    pub cycle_starts_s: Vec<f64>,
+}
+
+impl Waveform {
+    /// Number of samples.
+    pub fn len(&self) -> usize {
+        self.data.nrows()
+    }
+    /// No samples.
+    pub fn is_empty(&self) -> bool {
+        self.data.nrows() == 0
+    }
+    /// One column as a view.
+    pub fn column(&self, c: usize) -> ndarray::ArrayView1<'_, f64> {
+        self.data.column(c)
+    }
+}
+
+/// Collects samples; allocation happens only here, never in the unrecorded
+/// hot loop.
+#[derive(Debug, Clone)]
+pub struct Recorder {
+    samples: Vec<Sample>,
+    cycle_starts: Vec<f64>,
+    /// Interior samples per interval.
+    pub per_interval: usize,
+    cap: usize,
+    stride: u64,
+    intervals: u64,
+}
+
+impl Recorder {
+    /// A recorder with `per_interval` interior samples per interval and
+    /// at most `cap` samples held (0: unbounded).
+    pub fn new(per_interval: usize, cap: usize) -> Recorder {
+        Recorder {
+            samples: Vec::new(),
+            cycle_starts: Vec::new(),
+            per_interval,
+            cap,
+            stride: 1,
+            intervals: 0,
+        }
+    }
+
+    /// Whether the coming interval should be recorded (thinning when full).
+    pub fn wants_interval(&mut self) -> bool {
+        self.intervals += 1;
+        self.intervals % self.stride == 0
+    }
+
+    /// Adds a sample.
+    pub fn push(&mut self, s: Sample) {
+        self.samples.push(s);
+        if self.cap > 0 && self.samples.len() >= self.cap {
+            let mut k = 0;
+            self.samples.retain(|_| {
+                k += 1;
+                k % 2 == 1
+            });
+            self.stride *= 2;
+        }
+    }
+
+    /// Marks the start of a switching cycle.
+    pub fn cycle_start(&mut self, t: f64) {
+        self.cycle_starts.push(t);
+    }
+
+    /// The samples as a waveform.
+    pub fn finish(self) -> Waveform {
+        let n = self.samples.len();
+        let flat: Vec<f64> = self.samples.into_iter().flatten().collect();
+        Waveform {
+            data: Array2::from_shape_vec((n, COLUMNS.len()), flat)
+                .unwrap_or_else(|_| Array2::zeros((0, COLUMNS.len()))),
+            cycle_starts_s: self.cycle_starts,
+        }
+    }
+}

@@ -1,0 +1,1 @@
+//! Shared reference circuits for the cross-crate tests and benches.
