@@ -1,1 +1,5 @@
-//! Cross-crate tests.
+//! Cross-crate tests: the engine against published closed forms, the
+//! reference integrator, and bad input.
+
+mod bad_input;
+mod textbook;

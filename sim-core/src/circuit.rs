@@ -166,9 +166,12 @@ impl Circuit {
         let segs = s.simulation.curve_segments as usize;
         let led_exact = ExpDevice::from_load(&s.load);
         let led = match s.load {
-            Load::LedExponential { .. } => {
-                PwlCurve::fit(led_exact.as_ref().expect("exponential load"), 0.0, target, segs)
-            }
+            Load::LedExponential { .. } => PwlCurve::fit(
+                led_exact.as_ref().expect("exponential load"),
+                0.0,
+                target,
+                segs,
+            ),
             Load::LedKnee {
                 count,
                 knee_voltage_v,
@@ -235,8 +238,8 @@ impl Circuit {
     /// A bound on the highest natural angular frequency of the circuit,
     /// rad/s: the inductor against the series combination of the capacitors.
     pub fn max_angular_frequency(&self) -> f64 {
-        let inv_c: f64 = self.input_cap.map_or(0.0, |c| 1.0 / c.0)
-            + self.output_cap.map_or(0.0, |c| 1.0 / c.0);
+        let inv_c: f64 =
+            self.input_cap.map_or(0.0, |c| 1.0 / c.0) + self.output_cap.map_or(0.0, |c| 1.0 / c.0);
         (inv_c / self.inductance_h).sqrt()
     }
 
@@ -269,7 +272,13 @@ impl Circuit {
     }
 
     /// Output node voltage, LED current and output-capacitor current.
-    fn output_side(&self, x: &[f64; N_STATES], one: f64, il: f64, led: Option<u8>) -> (f64, f64, f64) {
+    fn output_side(
+        &self,
+        x: &[f64; N_STATES],
+        one: f64,
+        il: f64,
+        led: Option<u8>,
+    ) -> (f64, f64, f64) {
         match (self.output_cap, led) {
             (None, Some(k)) => {
                 let k = k as usize;
@@ -465,10 +474,12 @@ mod tests {
             let sig = lin.signals * z;
             let g = |s: Signal| sig[s as usize];
             // Output node: inductor current splits into LED and capacitor.
-            let kcl = g(Signal::InductorCurrent) - g(Signal::LedCurrent) - g(Signal::OutputCapCurrent);
+            let kcl =
+                g(Signal::InductorCurrent) - g(Signal::LedCurrent) - g(Signal::OutputCapCurrent);
             assert!(kcl.abs() < 1e-12, "{kcl}");
             // Input node.
-            let kcl_in = g(Signal::SourceCurrent) - g(Signal::InputCapCurrent) - g(Signal::SwitchCurrent);
+            let kcl_in =
+                g(Signal::SourceCurrent) - g(Signal::InputCapCurrent) - g(Signal::SwitchCurrent);
             assert!(kcl_in.abs() < 1e-12, "{kcl_in}");
         }
     }

@@ -71,7 +71,8 @@ impl ExpDevice {
     pub fn voltage_v(&self, current_a: f64) -> f64 {
         let i = current_a.max(-0.5 * self.saturation_current_a);
         self.count
-            * (self.n_vt_v * (i / self.saturation_current_a).ln_1p() + self.series_resistance_ohm * i)
+            * (self.n_vt_v * (i / self.saturation_current_a).ln_1p()
+                + self.series_resistance_ohm * i)
     }
 
     /// dv/di of the string, ohms.

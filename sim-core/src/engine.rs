@@ -11,7 +11,7 @@
 //! nothing: all matrices are fixed-size and live on the stack.
 
 use crate::circuit::{
-    Aug, Circuit, Linear, Region, Row, Signal, N_STATES, X_IL, X_ONE, X_VCO, X_VCIN,
+    Aug, Circuit, Linear, Region, Row, Signal, N_STATES, X_IL, X_ONE, X_VCIN, X_VCO,
 };
 use crate::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
@@ -265,7 +265,14 @@ impl ExactEngine {
                     let row = one * led.upper_a[k - 1] - i_led_row;
                     Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedDown);
                 } else {
-                    Self::push_event(&mut evs, &mut acts, &mut n, -i_led_row, &lin, Action::LedOff);
+                    Self::push_event(
+                        &mut evs,
+                        &mut acts,
+                        &mut n,
+                        -i_led_row,
+                        &lin,
+                        Action::LedOff,
+                    );
                 }
                 if k + 1 < led.segments {
                     let row = i_led_row - one * led.upper_a[k];
@@ -302,7 +309,14 @@ impl ExactEngine {
             } else {
                 limit_left.max(0.0)
             };
-            let scan = first_event(&lin.m, &z0, &evs[..n], t_limit, self.max_step_s, &mut self.work);
+            let scan = first_event(
+                &lin.m,
+                &z0,
+                &evs[..n],
+                t_limit,
+                self.max_step_s,
+                &mut self.work,
+            );
             if scan.event.is_none() && !self.cmd.deadline_s.is_finite() {
                 return Err(SimError::IntervalTooLong {
                     switch: if self.cmd.switch_on { "on" } else { "off" },
@@ -443,7 +457,15 @@ impl ExactEngine {
         }
     }
 
-    fn accumulate(&mut self, tot: &mut Totals, lin: &Linear, region: Region, z0: &Aug, z1: &Aug, dt: f64) {
+    fn accumulate(
+        &mut self,
+        tot: &mut Totals,
+        lin: &Linear,
+        region: Region,
+        z0: &Aug,
+        z1: &Aug,
+        dt: f64,
+    ) {
         let (g, _) = gramian(&lin.m, z0, dt, &mut self.work);
         let row = |s: Signal| lin.row(s);
         let q = |a: &Row, b: &Row| (a * g * b.transpose())[0];
@@ -517,9 +539,24 @@ impl ExactEngine {
             }
         };
         let mut work = self.work;
-        extreme(Signal::InductorCurrent, Some(&mut tot.il_min), &mut tot.il_max, &mut work);
-        extreme(Signal::LedCurrent, Some(&mut tot.iled_min), &mut tot.iled_max, &mut work);
-        extreme(Signal::SwitchNode, Some(&mut tot.vsw_min), &mut tot.vsw_max, &mut work);
+        extreme(
+            Signal::InductorCurrent,
+            Some(&mut tot.il_min),
+            &mut tot.il_max,
+            &mut work,
+        );
+        extreme(
+            Signal::LedCurrent,
+            Some(&mut tot.iled_min),
+            &mut tot.iled_max,
+            &mut work,
+        );
+        extreme(
+            Signal::SwitchNode,
+            Some(&mut tot.vsw_min),
+            &mut tot.vsw_max,
+            &mut work,
+        );
         extreme(Signal::LedVoltage, None, &mut tot.vled_max, &mut work);
         self.work = work;
     }

@@ -126,7 +126,9 @@ pub enum SimError {
         time_s: f64,
     },
     /// The state stopped being finite.
-    #[error("state became non-finite at t = {time_s:.6e} s in topology {topology}: state {state:?}")]
+    #[error(
+        "state became non-finite at t = {time_s:.6e} s in topology {topology}: state {state:?}"
+    )]
     NonFinite {
         /// Simulated time, s.
         time_s: f64,
@@ -136,7 +138,9 @@ pub enum SimError {
         state: Vec<f64>,
     },
     /// Events followed one another with no time between them.
-    #[error("{count} events at t = {time_s:.6e} s with no time between them (topology {topology})")]
+    #[error(
+        "{count} events at t = {time_s:.6e} s with no time between them (topology {topology})"
+    )]
     Chattering {
         /// Number of zero-length intervals in a row.
         count: u32,

@@ -295,7 +295,11 @@ impl Metrics {
             off_time_s: period - on,
             idle_time_s: idle,
             conduction_mode: mode,
-            ccm_margin: if mode == ConductionMode::Dcm { 0.0 } else { margin },
+            ccm_margin: if mode == ConductionMode::Dcm {
+                0.0
+            } else {
+                margin
+            },
             input_current_avg_a: avg(t.isrc),
             input_current_rms_a: avg(t.isrc2).max(0.0).sqrt(),
             input_capacitor_ripple_rms_a: ac_rms(avg(t.icin2), avg(t.icin)),

@@ -159,7 +159,11 @@ pub fn first_event(
             }
         }
         step = step.min(cap);
-        let t_b = if step >= remaining { t_limit } else { t_a + step };
+        let t_b = if step >= remaining {
+            t_limit
+        } else {
+            t_a + step
+        };
         let step = t_b - t_a;
         let phi = transition(m, step, work);
         let z_b = phi * z_a;
@@ -175,7 +179,10 @@ pub fn first_event(
                 if best.is_none_or(|b| tau < b.0) {
                     best = Some((tau, j, z));
                 }
-            } else if h_a[j] < 0.0 && h_b[j] < 0.0 && hermite_may_cross(h_a[j], d_a[j], h_b[j], d_b[j], step) {
+            } else if h_a[j] < 0.0
+                && h_b[j] < 0.0
+                && hermite_may_cross(h_a[j], d_a[j], h_b[j], d_b[j], step)
+            {
                 suspicious = true;
             }
         }
@@ -303,7 +310,11 @@ mod tests {
         let z0 = Aug::new(1.0, 0.0, 0.0, 1.0);
         let mut w = WorkCounts::default();
         let (g, _) = gramian(&m, &z0, h, &mut w);
-        assert_relative_eq!(g[(0, 0)], (1.0 - (-2.0 * a * h).exp()) / (2.0 * a), max_relative = 1e-12);
+        assert_relative_eq!(
+            g[(0, 0)],
+            (1.0 - (-2.0 * a * h).exp()) / (2.0 * a),
+            max_relative = 1e-12
+        );
         assert_relative_eq!(g[(0, 3)], (1.0 - (-a * h).exp()) / a, max_relative = 1e-12);
     }
 
@@ -323,7 +334,11 @@ mod tests {
         let mut work = WorkCounts::default();
         let r = first_event(&m, &z0, &[ev], 1.0, 0.25 / w_rad, &mut work);
         assert_eq!(r.event, Some(0));
-        assert!((r.t - std::f64::consts::FRAC_PI_6 / w_rad).abs() < 1e-13, "{}", r.t);
+        assert!(
+            (r.t - std::f64::consts::FRAC_PI_6 / w_rad).abs() < 1e-13,
+            "{}",
+            r.t
+        );
     }
 
     #[test]

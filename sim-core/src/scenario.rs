@@ -351,8 +351,7 @@ impl Scenario {
         text: &str,
         overrides: &[(String, String)],
     ) -> Result<Scenario, ScenarioError> {
-        let mut value: serde_json::Value =
-            serde_json::from_str(text).map_err(|e| syntax(e, ""))?;
+        let mut value: serde_json::Value = serde_json::from_str(text).map_err(|e| syntax(e, ""))?;
         for (path, v) in overrides {
             apply_override(&mut value, path, v)?;
         }
@@ -367,8 +366,18 @@ impl Scenario {
         // serde_path_to_error adds the field path to line and column.
         let de = &mut serde_json::Deserializer::from_str(text);
         let scenario: Scenario = serde_path_to_error::deserialize(de).map_err(|e| {
-            let path = e.path().to_string();
+            let mut path = e.path().to_string();
             let inner = e.into_inner();
+            // Tagged parts (diode, load, controller) are read as a whole, so
+            // the path stops at the part: find the field inside it.
+            if let Ok(root) = serde_json::from_str::<serde_json::Value>(text) {
+                if let Some(field) = root
+                    .get(&path)
+                    .and_then(|v| field_in(v, &inner.to_string()))
+                {
+                    path = format!("{path}.{field}");
+                }
+            }
             syntax(inner, &path)
         })?;
         scenario.validate()?;
@@ -545,13 +554,7 @@ impl Scenario {
                 delay_s,
                 min_on_time_s,
             } => {
-                c.range(
-                    "controller.peak_current_a",
-                    peak_current_a,
-                    1e-6,
-                    1e3,
-                    "A",
-                );
+                c.range("controller.peak_current_a", peak_current_a, 1e-6, 1e3, "A");
                 c.range("controller.off_time_s", off_time_s, 1e-9, 1.0, "s");
                 c.range("controller.delay_s", delay_s, 0.0, 1e-3, "s");
                 c.range("controller.min_on_time_s", min_on_time_s, 0.0, 1e-3, "s");
@@ -640,7 +643,13 @@ impl Scenario {
             1,
             10_000,
         );
-        c.range("simulation.max_interval_s", sim.max_interval_s, 1e-9, 100.0, "s");
+        c.range(
+            "simulation.max_interval_s",
+            sim.max_interval_s,
+            1e-9,
+            100.0,
+            "s",
+        );
 
         // Relations that need the individual values to be sound.
         if c.problems.is_empty() {
@@ -702,8 +711,9 @@ impl Scenario {
         }
         // With the switch held on, the current settles where the supply
         // equals the load voltage plus the drop across the series path.
-        let r_series =
-            self.supply.source_resistance_ohm + self.switch.on_resistance_ohm + self.inductor.dcr_ohm;
+        let r_series = self.supply.source_resistance_ohm
+            + self.switch.on_resistance_ohm
+            + self.inductor.dcr_ohm;
         let (mut lo, mut hi) = (0.0_f64, 1e6_f64);
         for _ in 0..200 {
             let mid = 0.5 * (lo + hi);
@@ -741,6 +751,33 @@ impl Scenario {
     }
 }
 
+/// The field of a tagged part that an error message is about.
+fn field_in(part: &serde_json::Value, message: &str) -> Option<String> {
+    let obj = part.as_object()?;
+    for marker in ["missing field `", "unknown field `"] {
+        if let Some(i) = message.find(marker) {
+            let rest = &message[i + marker.len()..];
+            return rest.find('`').map(|j| rest[..j].to_string());
+        }
+    }
+    if message.contains("unknown variant") {
+        return ["kind", "model"]
+            .into_iter()
+            .find(|k| obj.contains_key(*k))
+            .map(str::to_string);
+    }
+    // The message quotes the offending value in backticks: find the key
+    // holding it.
+    let quoted: Vec<&str> = message.split('`').skip(1).step_by(2).collect();
+    obj.iter().find_map(|(k, v)| {
+        let shown = match v {
+            serde_json::Value::String(s) => s.clone(),
+            other => other.to_string(),
+        };
+        quoted.contains(&shown.as_str()).then(|| k.clone())
+    })
+}
+
 fn syntax(e: serde_json::Error, path: &str) -> ScenarioError {
     let message = e.to_string();
     // serde_json appends " at line L column C"; keep the message clean.
@@ -749,7 +786,11 @@ fn syntax(e: serde_json::Error, path: &str) -> ScenarioError {
         None => message,
     };
     ScenarioError::Syntax {
-        path: if path == "." { String::new() } else { path.to_string() },
+        path: if path == "." {
+            String::new()
+        } else {
+            path.to_string()
+        },
         message,
         line: e.line(),
         column: e.column(),
@@ -762,7 +803,7 @@ fn fmt_num(v: f64) -> String {
         let s = s.trim_end_matches('0').trim_end_matches('.');
         s.to_string()
     } else {
-        format!("{v:.4e}")
+        format!("{v:e}")
     }
 }
 
@@ -790,7 +831,11 @@ impl Checker {
             self.push(path, &fmt_num(v), "must be a finite number");
         } else if v < lo || v > hi {
             let why = if lo > 0.0 && v <= 0.0 {
-                format!("must be positive (allowed {}{u} to {}{u})", fmt_num(lo), fmt_num(hi))
+                format!(
+                    "must be positive (allowed {}{u} to {}{u})",
+                    fmt_num(lo),
+                    fmt_num(hi)
+                )
             } else if lo == 0.0 && v < 0.0 {
                 format!("must not be negative (allowed 0 to {}{u})", fmt_num(hi))
             } else {
@@ -843,7 +888,9 @@ pub fn apply_override(
         reason: reason.to_string(),
     };
     if path.is_empty() || path.split('.').any(str::is_empty) {
-        return Err(err("the path must be dotted field names, e.g. supply.voltage_v"));
+        return Err(err(
+            "the path must be dotted field names, e.g. supply.voltage_v",
+        ));
     }
     let parsed: serde_json::Value = match value.trim() {
         "true" => true.into(),
@@ -882,9 +929,10 @@ pub fn apply_override(
 pub fn template() -> Scenario {
     Scenario {
         name: "bench-lamp".into(),
-        description: "Starter scenario: a 12 V bench lamp driving three white LEDs at about 700 mA. \
+        description:
+            "Starter scenario: a 12 V bench lamp driving three white LEDs at about 700 mA. \
                       Values are illustrative; replace them with your parts' data."
-            .into(),
+                .into(),
         supply: Supply {
             voltage_v: 12.0,
             source_resistance_ohm: 0.05,

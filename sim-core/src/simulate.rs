@@ -244,9 +244,7 @@ pub fn drive<E: CycleEngine>(
         e.set_state(x);
     }
     let mut det = SteadyDetector::new(sim.steady_state_tolerance, state_scales(s));
-    let mut startup = sim
-        .record_startup
-        .then(|| Recorder::new(4, 400_000));
+    let mut startup = sim.record_startup.then(|| Recorder::new(4, 400_000));
     det.push(e.state());
     let mut cycles = 0u64;
     let order = loop {

@@ -106,7 +106,11 @@ impl SteadyDetector {
             for m in 2..=MAX_SUBHARMONIC {
                 if self.len > m {
                     let dm = self.change(&self.history[0], &self.history[m]);
-                    self.sub_good[m] = if dm <= self.tol { self.sub_good[m] + 1 } else { 0 };
+                    self.sub_good[m] = if dm <= self.tol {
+                        self.sub_good[m] + 1
+                    } else {
+                        0
+                    };
                     if self.sub_good[m] >= m as u32 + 1 {
                         return Verdict::Settled { order: m };
                     }
