@@ -219,7 +219,7 @@ impl PwlCurve {
     /// Largest |PWL − exact| voltage over currents `lo_a..hi_a`, sampled at
     /// 64 points per segment span, V.
     pub fn max_error_v(&self, dev: &ExpDevice, lo_a: f64, hi_a: f64) -> f64 {
-        if !(hi_a > lo_a) {
+        if hi_a.partial_cmp(&lo_a) != Some(std::cmp::Ordering::Greater) {
             return (self.voltage_v(hi_a) - dev.voltage_v(hi_a)).abs();
         }
         let n = 64 * self.segments;

@@ -283,20 +283,15 @@ impl ExactEngine {
         }
 
         // Events already due at the start.
-        let mut due = None;
-        for j in 0..n {
-            let h = evs[j].value(&z0);
-            let tol = 1e-12 * evs[j].magnitude(&z0);
-            let fire = if Some(j) == threshold_slot {
+        let due = evs[..n].iter().enumerate().position(|(j, ev)| {
+            let h = ev.value(&z0);
+            let tol = 1e-12 * ev.magnitude(&z0);
+            if Some(j) == threshold_slot {
                 h >= 0.0
             } else {
-                h > tol || (h > -tol && evs[j].slope(&z0) > 0.0)
-            };
-            if fire {
-                due = Some(j);
-                break;
+                h > tol || (h > -tol && ev.slope(&z0) > 0.0)
             }
-        }
+        });
         let to_deadline = self.cmd.deadline_s - self.t;
         let (dt, z1, fired) = if let Some(j) = due {
             (0.0, z0, Some(j))
@@ -579,10 +574,10 @@ impl ExactEngine {
         let k = r.per_interval;
         for j in 1..=k {
             let tau = dt * j as f64 / (k + 1) as f64;
-            let z = crate::propagate::transition(&lin.m, tau, &mut self.work) * z0;
+            let z = crate::propagate::advance(&lin.m, tau, z0, &mut self.work);
             r.push(self.sample(lin, &z, self.t + tau));
         }
-        let z1 = crate::propagate::transition(&lin.m, dt, &mut self.work) * z0;
+        let z1 = crate::propagate::advance(&lin.m, dt, z0, &mut self.work);
         r.push(self.sample(lin, &z1, self.t + dt));
     }
 

@@ -91,7 +91,7 @@ impl Recorder {
     /// Whether the coming interval should be recorded (thinning when full).
     pub fn wants_interval(&mut self) -> bool {
         self.intervals += 1;
-        self.intervals % self.stride == 0
+        self.intervals.is_multiple_of(self.stride)
     }
 
     /// Adds a sample.

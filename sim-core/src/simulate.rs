@@ -253,7 +253,7 @@ pub fn drive<E: CycleEngine>(
         if let Verdict::Settled { order } = det.push(e.state()) {
             break order;
         }
-        if cycles % 256 == 0 {
+        if cycles.is_multiple_of(256) {
             progress(Progress {
                 cycles,
                 max_cycles: sim.max_cycles,

@@ -111,7 +111,7 @@ impl SteadyDetector {
                     } else {
                         0
                     };
-                    if self.sub_good[m] >= m as u32 + 1 {
+                    if self.sub_good[m] > m as u32 {
                         return Verdict::Settled { order: m };
                     }
                 }
