@@ -403,15 +403,9 @@ impl Circuit {
         let diode_segment = self.diode.segment_for_current(il) as u8;
         let conducting = if switch_on {
             if self.output_cap.is_some() {
-                il != 0.0 || {
-                    let r = Region {
-                        switch_on,
-                        conducting: true,
-                        diode_segment,
-                        led_segment: led_for(true, diode_segment),
-                    };
-                    self.derivative_il(r, x) > 0.0
-                }
+                // The switch conducts both ways: current may reverse into
+                // the input while the output capacitor is above it.
+                true
             } else {
                 il > 0.0 || {
                     let r = Region {

@@ -953,7 +953,7 @@ pub fn template() -> Scenario {
             series_resistance_ohm: 0.03,
         },
         inductor: Inductor {
-            inductance_h: 33e-6,
+            inductance_h: 68e-6,
             dcr_ohm: 0.08,
             saturation_current_a: Some(1.5),
         },

@@ -1,0 +1,68 @@
+//! Time per simulated switching cycle, and heap allocations per cycle.
+//!
+//! Run with `cargo bench --bench engine`. Each scenario is first run to
+//! steady state; the benchmark then times further unrecorded cycles. A
+//! counting global allocator reports allocations per cycle alongside.
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use sim_core::engine::ExactEngine;
+use sim_core::simulate::CycleEngine;
+use std::alloc::{GlobalAlloc, Layout, System};
+use std::hint::black_box;
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::time::Duration;
+
+struct Counting;
+static ALLOCS: AtomicU64 = AtomicU64::new(0);
+
+unsafe impl GlobalAlloc for Counting {
+    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
+        ALLOCS.fetch_add(1, Ordering::Relaxed);
+        unsafe { System.alloc(layout) }
+    }
+    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
+        unsafe { System.dealloc(ptr, layout) }
+    }
+}
+
+#[global_allocator]
+static GLOBAL: Counting = Counting;
+
+fn settled<E: CycleEngine>(mut e: E, cycles: usize) -> E {
+    for _ in 0..cycles {
+        e.run_cycle(None, None).expect("cycle");
+    }
+    e
+}
+
+fn allocations_per_cycle<E: CycleEngine>(e: &mut E, cycles: u64) -> f64 {
+    let before = ALLOCS.load(Ordering::Relaxed);
+    for _ in 0..cycles {
+        e.run_cycle(None, None).expect("cycle");
+    }
+    (ALLOCS.load(Ordering::Relaxed) - before) as f64 / cycles as f64
+}
+
+fn per_cycle(c: &mut Criterion) {
+    let mut group = c.benchmark_group("cycle");
+    group
+        .sample_size(20)
+        .warm_up_time(Duration::from_millis(500))
+        .measurement_time(Duration::from_secs(2));
+    for s in chopwave_suite::realistic_set() {
+        let mut exact = settled(ExactEngine::new(&s), 200);
+        println!(
+            "{}: exact engine {:.2} heap allocations per cycle",
+            s.name,
+            allocations_per_cycle(&mut exact, 1000)
+        );
+        group.bench_function(format!("exact/{}", s.name), |b| {
+            b.iter(|| exact.run_cycle(None, None).expect("cycle"));
+        });
+        black_box(&exact);
+    }
+    group.finish();
+}
+
+criterion_group!(benches, per_cycle);
+criterion_main!(benches);
