@@ -8,6 +8,19 @@ fn main() {
     let r = simulate(&s, &RunOptions::default()).unwrap();
     println!("{:#?}", r.metrics);
     println!("{:#?} {:#?} {:#?}", r.steady, r.fit, r.stats);
+    {
+        let mut e = ExactEngine::new(&s);
+        for _ in 0..50 {
+            e.run_cycle(None, None).unwrap();
+        }
+        let c = e.circuit.led;
+        let d = e.circuit.led_exact.unwrap();
+        println!("segments {} v0 {:?} r {:?} up {:?}", c.segments, &c.v0_v[..c.segments], &c.r_ohm[..c.segments], &c.upper_a[..c.segments]);
+        for k in 0..=20 {
+            let i = 0.5 + 0.02 * k as f64;
+            println!("  i {i:.3} err {:+.3e}", c.voltage_v(i) - d.voltage_v(i));
+        }
+    }
     let mut variants = vec![("template", s.clone())];
     let mut co = s.clone();
     co.output_capacitor = Some(sim_core::scenario::Capacitor {
@@ -35,3 +48,5 @@ fn main() {
         );
     }
 }
+#[allow(dead_code)]
+fn debug_fit() {}

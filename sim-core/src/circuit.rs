@@ -164,6 +164,7 @@ impl Circuit {
             }
         });
         let segs = s.simulation.curve_segments as usize;
+        let tol = s.simulation.curve_tolerance_v;
         let led_exact = ExpDevice::from_load(&s.load);
         let led = match s.load {
             Load::LedExponential { .. } => PwlCurve::fit(
@@ -171,6 +172,7 @@ impl Circuit {
                 0.0,
                 target,
                 segs,
+                tol,
             ),
             Load::LedKnee {
                 count,
@@ -193,6 +195,7 @@ impl Circuit {
                 0.0,
                 target,
                 segs,
+                tol,
             ),
         };
         let input_cap = s.input_capacitor.and_then(|c| {

@@ -55,6 +55,7 @@ pub struct ExactEngine {
     max_interval_s: f64,
     max_step_s: f64,
     curve_segments: usize,
+    curve_tolerance_v: f64,
     /// Work done so far.
     pub work: WorkCounts,
     /// Intervals (between events) simulated.
@@ -99,6 +100,7 @@ impl ExactEngine {
             max_interval_s: s.simulation.max_interval_s,
             max_step_s,
             curve_segments: s.simulation.curve_segments as usize,
+            curve_tolerance_v: s.simulation.curve_tolerance_v,
             work: WorkCounts::default(),
             intervals: 0,
             cycles: 0,
@@ -127,17 +129,17 @@ impl ExactEngine {
         if self.freeze_fits {
             return;
         }
-        let segs = self.curve_segments;
+        let (segs, tol) = (self.curve_segments, self.curve_tolerance_v);
         if let Some(dev) = self.circuit.led_exact {
             let (lo, hi) = self.led_range;
             if hi > 0.0 && lo.is_finite() {
-                self.circuit.led = PwlCurve::fit(&dev, lo.max(0.0), hi, segs);
+                self.circuit.led = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
             }
         }
         if let Some(dev) = self.circuit.diode_exact {
             let (lo, hi) = self.diode_range;
             if hi > 0.0 && lo.is_finite() {
-                self.circuit.diode = PwlCurve::fit(&dev, lo.max(0.0), hi, segs);
+                self.circuit.diode = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
             }
         }
         self.led_range = (f64::INFINITY, f64::NEG_INFINITY);

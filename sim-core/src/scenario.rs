@@ -255,8 +255,12 @@ pub struct SimSettings {
     pub record_cycles: u32,
     /// Also record the start-up transient from power-on.
     pub record_startup: bool,
-    /// Straight segments used for an exponential LED or diode curve.
+    /// Most straight segments used for an exponential LED or diode curve.
     pub curve_segments: u32,
+    /// Largest voltage error allowed between the straight-segment fit and
+    /// the exponential curve over the currents visited, V.
+    #[serde(deserialize_with = "de_v")]
+    pub curve_tolerance_v: f64,
     /// Waveform samples recorded inside each interval between events.
     pub samples_per_interval: u32,
     /// Longest time one switch state may last before the run stops, s.
@@ -272,7 +276,8 @@ impl Default for SimSettings {
             max_time_s: 10.0,
             record_cycles: 4,
             record_startup: false,
-            curve_segments: 8,
+            curve_segments: 24,
+            curve_tolerance_v: 1e-3,
             samples_per_interval: 24,
             max_interval_s: 10e-3,
         }
@@ -636,6 +641,13 @@ impl Scenario {
             u64::from(sim.curve_segments),
             1,
             crate::devices::MAX_SEGMENTS as u64,
+        );
+        c.range(
+            "simulation.curve_tolerance_v",
+            sim.curve_tolerance_v,
+            1e-6,
+            1.0,
+            "V",
         );
         c.int_range(
             "simulation.samples_per_interval",
