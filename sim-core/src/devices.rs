@@ -130,6 +130,8 @@ pub struct PwlCurve {
     pub r_ohm: [f64; MAX_SEGMENTS],
     /// Upper current bound of each segment but the last, A.
     pub upper_a: [f64; MAX_SEGMENTS],
+    /// Currents the fit was made for (its error bound holds there), A.
+    pub range_a: (f64, f64),
 }
 
 impl PwlCurve {
@@ -140,6 +142,7 @@ impl PwlCurve {
             v0_v: [0.0; MAX_SEGMENTS],
             r_ohm: [0.0; MAX_SEGMENTS],
             upper_a: [f64::INFINITY; MAX_SEGMENTS],
+            range_a: (0.0, f64::INFINITY),
         };
         c.v0_v[0] = knee_v;
         c.r_ohm[0] = r_ohm;
@@ -190,6 +193,7 @@ impl PwlCurve {
         pts[k] = hi;
         let mut curve = PwlCurve::line(0.0, 0.0);
         curve.segments = k;
+        curve.range_a = (lo, hi);
         for j in 0..k {
             let (a, b) = (pts[j], pts[j + 1]);
             let (va, vb) = (dev.voltage_v(a), dev.voltage_v(b));
@@ -199,6 +203,17 @@ impl PwlCurve {
             curve.upper_a[j] = if j + 1 < k { b } else { f64::INFINITY };
         }
         curve
+    }
+
+    /// Whether currents visited over `lo_a..hi_a` call for a new fit: they
+    /// left the fitted range, or use under half of it (a tighter fit needs
+    /// fewer segments).
+    pub fn needs_refit(&self, lo_a: f64, hi_a: f64) -> bool {
+        let (a, b) = self.range_a;
+        if !b.is_finite() || !(hi_a > 0.0) {
+            return false;
+        }
+        lo_a < a || hi_a > b || (hi_a - lo_a.max(0.0)) < 0.5 * (b - a)
     }
 
     /// The knee voltage: no current flows below it, V.

@@ -17,7 +17,8 @@ use crate::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
 use crate::error::SimError;
 use crate::metrics::Totals;
-use crate::propagate::{first_event, gramian, EventFn, WorkCounts, MAX_EVENTS};
+use crate::propagate::{first_event, gramian, EventFn, Flow, WorkCounts, MAX_EVENTS};
+use crate::spectral::Spectral;
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
 use nalgebra::SVector;
@@ -39,6 +40,18 @@ enum Action {
 
 /// Zero-length intervals in a row before the run is stopped as chattering.
 const MAX_ZERO_INTERVALS: u32 = 64;
+
+/// Regions remembered with their matrices and eigen-decompositions.
+const CACHE_SIZE: usize = 64;
+
+/// One remembered region.
+#[derive(Debug, Clone, Copy)]
+struct CacheEntry {
+    region: Region,
+    generation: u64,
+    lin: Linear,
+    spectral: Option<Spectral>,
+}
 
 /// The exact engine's state for one run.
 pub struct ExactEngine {
@@ -69,6 +82,11 @@ pub struct ExactEngine {
     pub freeze_fits: bool,
     /// Energy dropped by cutting off reverse inductor current at turn-off, J.
     pub clamped_energy_j: f64,
+    /// Times the curve fits were renewed.
+    pub refits: u64,
+    /// Region cache (allocated once, at construction).
+    cache: Vec<Option<CacheEntry>>,
+    cache_next: usize,
 }
 
 fn aug(x: &SVector<f64, N_STATES>) -> Aug {
@@ -109,6 +127,9 @@ impl ExactEngine {
             diode_range: (f64::INFINITY, f64::NEG_INFINITY),
             freeze_fits: false,
             clamped_energy_j: 0.0,
+            refits: 0,
+            cache: vec![None; CACHE_SIZE],
+            cache_next: 0,
         }
     }
 
@@ -124,28 +145,37 @@ impl ExactEngine {
         self.region
     }
 
-    /// Re-fits the exponential curves to the currents the last cycle visited.
+    /// Re-fits the exponential curves when the currents the last cycle
+    /// visited left the fitted range or use under half of it, so the fit
+    /// follows the exponential curve cycle by cycle and settles with the
+    /// circuit.
     fn refit(&mut self) {
         if self.freeze_fits {
             return;
         }
         let (segs, tol) = (self.curve_segments, self.curve_tolerance_v);
+        let mut changed = false;
         if let Some(dev) = self.circuit.led_exact {
             let (lo, hi) = self.led_range;
-            if hi > 0.0 && lo.is_finite() {
+            if lo.is_finite() && self.circuit.led.needs_refit(lo, hi) {
                 self.circuit.led = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
+                changed = true;
             }
         }
         if let Some(dev) = self.circuit.diode_exact {
             let (lo, hi) = self.diode_range;
-            if hi > 0.0 && lo.is_finite() {
+            if lo.is_finite() && self.circuit.diode.needs_refit(lo, hi) {
                 self.circuit.diode = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
+                changed = true;
             }
         }
         self.led_range = (f64::INFINITY, f64::NEG_INFINITY);
         self.diode_range = (f64::INFINITY, f64::NEG_INFINITY);
-        // Segment indices refer to the new fits.
-        self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+        if changed {
+            self.refits += 1;
+            // Segment indices refer to the new fits.
+            self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+        }
     }
 
     /// Runs one switching cycle: from this turn-on to the next. Energies,
@@ -184,6 +214,29 @@ impl ExactEngine {
         }
     }
 
+    /// The linear model of a region, and its decomposition, from the cache.
+    fn model(&mut self, region: Region) -> (Linear, Option<Spectral>) {
+        let generation = self.refits;
+        if let Some(e) = self
+            .cache
+            .iter()
+            .flatten()
+            .find(|e| e.region == region && e.generation == generation)
+        {
+            return (e.lin, e.spectral);
+        }
+        let lin = self.circuit.linearize(region);
+        let spectral = Spectral::new(&lin.m);
+        self.cache[self.cache_next] = Some(CacheEntry {
+            region,
+            generation,
+            lin,
+            spectral,
+        });
+        self.cache_next = (self.cache_next + 1) % CACHE_SIZE;
+        (lin, spectral)
+    }
+
     /// Simulates up to the next event; returns whether the switch turned on.
     fn interval(
         &mut self,
@@ -191,7 +244,11 @@ impl ExactEngine {
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
         let region = self.region;
-        let lin = self.circuit.linearize(region);
+        let (lin, spectral) = self.model(region);
+        let flow = Flow {
+            m: &lin.m,
+            spectral: spectral.as_ref(),
+        };
         let z0 = aug(&self.x);
         let one = {
             let mut r = Row::zeros();
@@ -307,7 +364,7 @@ impl ExactEngine {
                 limit_left.max(0.0)
             };
             let scan = first_event(
-                &lin.m,
+                &flow,
                 &z0,
                 &evs[..n],
                 t_limit,
@@ -362,11 +419,11 @@ impl ExactEngine {
 
         if dt > 0.0 {
             if let Some(tot) = totals {
-                self.accumulate(tot, &lin, region, &z0, &z1, dt);
+                self.accumulate(&flow, tot, &lin, region, &z0, &z1, dt);
             }
             if let Some(r) = rec {
                 if r.wants_interval() {
-                    self.record(r, &lin, &z0, dt);
+                    self.record(r, &flow, &lin, &z0, dt);
                 }
             }
         }
@@ -454,8 +511,10 @@ impl ExactEngine {
         }
     }
 
+    #[allow(clippy::too_many_arguments)] // One interval's full context.
     fn accumulate(
         &mut self,
+        flow: &Flow,
         tot: &mut Totals,
         lin: &Linear,
         region: Region,
@@ -523,7 +582,7 @@ impl ExactEngine {
                 // A turning point: the derivative crosses zero.
                 let drow = if da > 0.0 { -dr } else { dr };
                 let ev = EventFn::new(drow, &lin.m);
-                let sc = first_event(&lin.m, z0, &[ev], dt, f64::INFINITY, work);
+                let sc = first_event(flow, z0, &[ev], dt, f64::INFINITY, work);
                 if sc.event.is_some() {
                     let v = (r * sc.z)[0];
                     vmax = vmax.max(v);
@@ -571,15 +630,15 @@ impl ExactEngine {
         ]
     }
 
-    fn record(&mut self, r: &mut Recorder, lin: &Linear, z0: &Aug, dt: f64) {
+    fn record(&mut self, r: &mut Recorder, flow: &Flow, lin: &Linear, z0: &Aug, dt: f64) {
         r.push(self.sample(lin, z0, self.t));
         let k = r.per_interval;
         for j in 1..=k {
             let tau = dt * j as f64 / (k + 1) as f64;
-            let z = crate::propagate::advance(&lin.m, tau, z0, &mut self.work);
+            let z = flow.advance(tau, z0, &mut self.work);
             r.push(self.sample(lin, &z, self.t + tau));
         }
-        let z1 = crate::propagate::advance(&lin.m, dt, z0, &mut self.work);
+        let z1 = flow.advance(dt, z0, &mut self.work);
         r.push(self.sample(lin, &z1, self.t + dt));
     }
 

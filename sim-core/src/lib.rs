@@ -40,6 +40,7 @@ pub mod record;
 // pub mod reference;
 pub mod scenario;
 pub mod simulate;
+pub mod spectral;
 pub mod steady;
 pub mod units;
 

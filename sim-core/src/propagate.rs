@@ -17,6 +17,7 @@
 //! bound, and refined by safeguarded Newton iteration on the closed form.
 
 use crate::circuit::{Aug, AugMatrix, Row, N_AUG};
+use crate::spectral::Spectral;
 use nalgebra::SMatrix;
 
 /// Time resolution of event location, s.
@@ -36,6 +37,30 @@ pub struct WorkCounts {
 pub fn transition(m: &AugMatrix, t: f64, work: &mut WorkCounts) -> AugMatrix {
     work.exponentials += 1;
     (m * t).exp()
+}
+
+/// How a region's trajectory is evaluated: the state matrix and, when it
+/// diagonalizes well, its eigen-decomposition (used first).
+#[derive(Debug, Clone, Copy)]
+pub struct Flow<'a> {
+    /// The augmented state matrix.
+    pub m: &'a AugMatrix,
+    /// Its eigen-decomposition, if well conditioned.
+    pub spectral: Option<&'a Spectral>,
+}
+
+impl Flow<'_> {
+    /// `e^{M t} z`.
+    #[inline]
+    pub fn advance(&self, t: f64, z: &Aug, work: &mut WorkCounts) -> Aug {
+        match self.spectral {
+            Some(s) => {
+                work.exponentials += 1;
+                s.advance(t, z)
+            }
+            None => advance(self.m, t, z, work),
+        }
+    }
 }
 
 /// `e^{M t} z` without forming the matrix when `‖M t‖` is moderate.
@@ -221,7 +246,7 @@ fn predict_zero(h: f64, d: f64, c: f64) -> Option<f64> {
 /// exponentials; a function that turns back inside a step is caught by a
 /// cubic Hermite test and the step is halved.
 pub fn first_event(
-    m: &AugMatrix,
+    flow: &Flow,
     z0: &Aug,
     events: &[EventFn],
     t_limit: f64,
@@ -265,7 +290,7 @@ pub fn first_event(
             t_a + step
         };
         let step = t_b - t_a;
-        let z_b = advance(m, step, &z_a, work);
+        let z_b = flow.advance(step, &z_a, work);
         let mut h_b = [0.0; MAX_EVENTS];
         let mut d_b = [0.0; MAX_EVENTS];
         let mut best: Option<(f64, usize, Aug)> = None;
@@ -277,7 +302,7 @@ pub fn first_event(
                 let (tau, z) = if h_b[j] <= events[j].zero_tol(&z_b) {
                     (step, z_b)
                 } else {
-                    refine(m, &z_a, &events[j], step, &z_b, work)
+                    refine(flow, &z_a, &events[j], step, &z_b, work)
                 };
                 if best.is_none_or(|b| tau < b.0) {
                     best = Some((tau, j, z));
@@ -339,7 +364,7 @@ fn hermite_may_cross(h0: f64, d0: f64, h1: f64, d1: f64, step: f64) -> bool {
 /// (state `z_step` at the end) by Newton steps kept inside the bracket;
 /// returns the time and the state there, where |h| is at round-off.
 fn refine(
-    m: &AugMatrix,
+    flow: &Flow,
     z0: &Aug,
     ev: &EventFn,
     step: f64,
@@ -368,7 +393,7 @@ fn refine(
         if !(t > lo && t < hi) {
             t = 0.5 * (lo + hi);
         }
-        let z = advance(m, t, z0, work);
+        let z = flow.advance(t, z0, work);
         let h = ev.value(&z);
         if h.abs() <= ev.zero_tol(&z) {
             return (t, z);
@@ -470,7 +495,8 @@ mod tests {
         row[3] = -0.5 / w_rad;
         let ev = EventFn::new(row, &m);
         let mut work = WorkCounts::default();
-        let r = first_event(&m, &z0, &[ev], 1.0, 0.25 / w_rad, &mut work);
+        let flow = Flow { m: &m, spectral: None };
+        let r = first_event(&flow, &z0, &[ev], 1.0, 0.25 / w_rad, &mut work);
         assert_eq!(r.event, Some(0));
         assert!(
             (r.t - std::f64::consts::FRAC_PI_6 / w_rad).abs() < 1e-13,
@@ -492,13 +518,14 @@ mod tests {
         row[3] = -1.0001 / w_rad;
         let ev = EventFn::new(row, &m);
         let mut work = WorkCounts::default();
-        let r = first_event(&m, &z0, &[ev], 5e-5, 0.25 / w_rad, &mut work);
+        let flow = Flow { m: &m, spectral: None };
+        let r = first_event(&flow, &z0, &[ev], 5e-5, 0.25 / w_rad, &mut work);
         assert_eq!(r.event, None);
         // ...but one just below the peak is found.
         let mut row2 = row;
         row2[3] = -0.9999 / w_rad;
         let ev2 = EventFn::new(row2, &m);
-        let r2 = first_event(&m, &z0, &[ev2], 5e-5, 0.25 / w_rad, &mut work);
+        let r2 = first_event(&flow, &z0, &[ev2], 5e-5, 0.25 / w_rad, &mut work);
         assert_eq!(r2.event, Some(0));
     }
 }
