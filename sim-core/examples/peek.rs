@@ -15,7 +15,13 @@ fn main() {
         }
         let c = e.circuit.led;
         let d = e.circuit.led_exact.unwrap();
-        println!("segments {} v0 {:?} r {:?} up {:?}", c.segments, &c.v0_v[..c.segments], &c.r_ohm[..c.segments], &c.upper_a[..c.segments]);
+        println!(
+            "segments {} v0 {:?} r {:?} up {:?}",
+            c.segments,
+            &c.v0_v[..c.segments],
+            &c.r_ohm[..c.segments],
+            &c.upper_a[..c.segments]
+        );
         for k in 0..=20 {
             let i = 0.5 + 0.02 * k as f64;
             println!("  i {i:.3} err {:+.3e}", c.voltage_v(i) - d.voltage_v(i));

@@ -210,7 +210,7 @@ impl PwlCurve {
     /// fewer segments).
     pub fn needs_refit(&self, lo_a: f64, hi_a: f64) -> bool {
         let (a, b) = self.range_a;
-        if !b.is_finite() || !(hi_a > 0.0) {
+        if !b.is_finite() || hi_a.is_nan() || hi_a <= 0.0 {
             return false;
         }
         lo_a < a || hi_a > b || (hi_a - lo_a.max(0.0)) < 0.5 * (b - a)

@@ -18,9 +18,9 @@ use crate::devices::PwlCurve;
 use crate::error::SimError;
 use crate::metrics::Totals;
 use crate::propagate::{first_event, gramian, EventFn, Flow, WorkCounts, MAX_EVENTS};
-use crate::spectral::Spectral;
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
+use crate::spectral::Spectral;
 use nalgebra::SVector;
 
 /// What an event does when it fires.

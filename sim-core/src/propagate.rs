@@ -495,7 +495,10 @@ mod tests {
         row[3] = -0.5 / w_rad;
         let ev = EventFn::new(row, &m);
         let mut work = WorkCounts::default();
-        let flow = Flow { m: &m, spectral: None };
+        let flow = Flow {
+            m: &m,
+            spectral: None,
+        };
         let r = first_event(&flow, &z0, &[ev], 1.0, 0.25 / w_rad, &mut work);
         assert_eq!(r.event, Some(0));
         assert!(
@@ -518,7 +521,10 @@ mod tests {
         row[3] = -1.0001 / w_rad;
         let ev = EventFn::new(row, &m);
         let mut work = WorkCounts::default();
-        let flow = Flow { m: &m, spectral: None };
+        let flow = Flow {
+            m: &m,
+            spectral: None,
+        };
         let r = first_event(&flow, &z0, &[ev], 5e-5, 0.25 / w_rad, &mut work);
         assert_eq!(r.event, None);
         // ...but one just below the peak is found.

@@ -36,7 +36,9 @@ impl Spectral {
         let mut masked = *m;
         let sigma = -1e3 * (norm + 1.0);
         for k in 0..N_AUG {
-            if k != X_ONE && m.row(k).iter().all(|&v| v == 0.0) && m.column(k).iter().all(|&v| v == 0.0)
+            if k != X_ONE
+                && m.row(k).iter().all(|&v| v == 0.0)
+                && m.column(k).iter().all(|&v| v == 0.0)
             {
                 absent[k] = true;
                 masked[(k, k)] = sigma;
@@ -79,12 +81,12 @@ impl Spectral {
         let w = v.try_inverse()?;
         // Conditioning and reconstruction checks.
         let cond = v.map(|c| c.norm()).max() * w.map(|c| c.norm()).max();
-        if !(cond < 1e6) {
+        if cond.is_nan() || cond >= 1e6 {
             return None;
         }
         let rebuilt = v * CMatrix::from_diagonal(&lambda) * w;
         let err = (rebuilt - mc).map(|c| c.norm()).max();
-        if !(err <= 1e-11 * norm) {
+        if err.is_nan() || err > 1e-11 * norm {
             return None;
         }
         Some(Spectral { lambda, v, w })
@@ -109,7 +111,12 @@ impl Spectral {
 }
 
 /// Eigenvector for `lam` by inverse iteration, zero on absent states.
-fn eigenvector(m: &CMatrix, lam: Complex<f64>, norm: f64, absent: &[bool; N_AUG]) -> Option<CVector> {
+fn eigenvector(
+    m: &CMatrix,
+    lam: Complex<f64>,
+    norm: f64,
+    absent: &[bool; N_AUG],
+) -> Option<CVector> {
     let shift = lam + Complex::new(1e-9 * (lam.norm() + norm), 0.0);
     let a = m - CMatrix::identity() * shift;
     let lu = a.lu();
