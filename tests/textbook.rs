@@ -297,3 +297,40 @@ fn led_current_and_voltage_follow_the_exponential_curve() {
         "sampled error {worst} V above reported {err} V"
     );
 }
+
+#[test]
+fn event_times_of_a_lossy_buck_to_a_picosecond() {
+    // A buck with resistive parts and a knee-plus-resistance LED string, no
+    // capacitors: each interval is a first-order R-L circuit, so the
+    // current is exponential, i(t) = a + (i0 − a)·e^{−t/τ} with τ = L/R
+    // (e.g. Nilsson & Riedel, Electric Circuits, ch. 7). With switch on:
+    // a_on = (V_in − V_knee)/R_on-path; off: a_off = −(V_f + V_knee)/R_off-path.
+    // Constant off-time from the peak I_pk gives the valley
+    // i_v = a_off + (I_pk − a_off)·e^{−t_off/τ_off}, and the on-time is
+    // t_on = τ_on·ln((a_on − i_v)/(a_on − I_pk)).
+    let (v_in, l, i_pk, t_off) = (24.0, 47e-6, 1.2, 2.5e-6);
+    let (r_sw, r_dcr, v_f, r_d, v_knee, r_led) = (0.15, 0.12, 0.45, 0.05, 9.0, 1.1);
+    let mut s = ideal_buck(v_in, 0.0, l, cot(i_pk, t_off));
+    s.switch.on_resistance_ohm = r_sw;
+    s.inductor.dcr_ohm = r_dcr;
+    s.diode = sim_core::scenario::Diode::FixedDrop {
+        forward_voltage_v: v_f,
+        series_resistance_ohm: r_d,
+    };
+    s.load = Load::LedKnee {
+        count: 3,
+        knee_voltage_v: v_knee / 3.0,
+        dynamic_resistance_ohm: r_led / 3.0,
+    };
+    let m = simulate(&s, &RunOptions::default()).unwrap().metrics;
+    let r_on = r_sw + r_dcr + r_led;
+    let r_off = r_d + r_dcr + r_led;
+    let (a_on, tau_on) = ((v_in - v_knee) / r_on, l / r_on);
+    let (a_off, tau_off) = (-(v_f + v_knee) / r_off, l / r_off);
+    let i_v = a_off + (i_pk - a_off) * (-t_off / tau_off).exp();
+    let t_on = tau_on * ((a_on - i_v) / (a_on - i_pk)).ln();
+    assert!((m.on_time_s - t_on).abs() < 1e-12, "on-time {} vs {t_on}", m.on_time_s);
+    assert!((m.period_s - (t_on + t_off)).abs() < 1e-12, "period {}", m.period_s);
+    assert_relative_eq!(m.inductor_current_valley_a, i_v, max_relative = 1e-10);
+    assert_relative_eq!(m.inductor_current_peak_a, i_pk, max_relative = 1e-12);
+}
