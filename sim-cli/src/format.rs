@@ -49,15 +49,17 @@ pub fn eng_sig(v: f64, unit: &str, sig: usize) -> String {
     }
     let mut exp = eng_exponent(v);
     let mut mant = v / 10f64.powi(exp);
+    // Decimals for `sig` significant figures (more below 1, at the
+    // clamped ends of the prefix range).
+    let decimals_for = |m: f64| (sig as i32 - 1 - m.abs().log10().floor() as i32).max(0) as usize;
+    let decimals = decimals_for(mant);
     // Rounding can carry into the next prefix (999.7 → 1000 → 1 k).
-    let digits_before = |m: f64| (m.abs().log10().floor() as i32 + 1).max(1) as usize;
-    let decimals = sig.saturating_sub(digits_before(mant));
     let rounded: f64 = format!("{mant:.decimals$}").parse().unwrap_or(mant);
     if rounded.abs() >= 1000.0 && exp < 9 {
         exp += 3;
         mant = v / 10f64.powi(exp);
     }
-    let decimals = sig.saturating_sub(digits_before(mant));
+    let decimals = decimals_for(mant);
     let mut s = format!("{mant:.decimals$}");
     if s.contains('.') {
         s = s.trim_end_matches('0').trim_end_matches('.').to_string();

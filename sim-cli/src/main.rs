@@ -26,9 +26,11 @@ use std::time::{Duration, Instant};
 /// Simulate switch-mode buck LED drivers cycle by cycle: waveforms, ripple,
 /// conduction mode, losses and part stresses before you order parts.
 #[derive(Debug, Parser)]
-#[command(name = "chopwave", version, about, long_about = None)]
-#[command(after_help = "Exit codes: 0 success, 1 simulation failed or an output could not be \
-                        written, 2 bad input (scenario file, field or option).")]
+#[command(name = "chopwave", version)]
+#[command(
+    after_help = "Exit codes: 0 success, 1 simulation failed or an output could not be \
+                        written, 2 bad input (scenario file, field or option)."
+)]
 struct Cli {
     /// No progress bar and no notes on standard error (errors still print).
     #[arg(short, long, global = true)]
@@ -249,8 +251,6 @@ fn summary_line(s: &Scenario) -> String {
         sim_core::scenario::ControllerSpec::ConstantOffTime { .. } => "constant off-time",
         sim_core::scenario::ControllerSpec::Hysteretic { .. } => "hysteretic",
         sim_core::scenario::ControllerSpec::FixedDuty { .. } => "fixed duty",
-        #[allow(unreachable_patterns)] // The enum may grow.
-        _ => "controller",
     };
     format!(
         "{} supply, {} inductor, {ctrl} control",
@@ -347,13 +347,20 @@ fn write_plots(s: &Scenario, r: &SimResult, dir: &Path, stem: &str) -> Result<Ve
     Ok(vec![steady, startup])
 }
 
+fn mode_name(m: sim_core::metrics::ConductionMode) -> &'static str {
+    match m {
+        sim_core::metrics::ConductionMode::Ccm => "CCM",
+        sim_core::metrics::ConductionMode::Dcm => "DCM",
+        sim_core::metrics::ConductionMode::Boundary => "boundary",
+    }
+}
+
 fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
     output::ensure_dir(out).map_err(io_failure)?;
     let mut failures = Vec::new();
     let mut written: Vec<PathBuf> = Vec::new();
-    let mut index = String::from(
-        "chopwave demo: bundled example scenarios (illustrative values)\n\n",
-    );
+    let mut index =
+        String::from("chopwave demo: bundled example scenarios (illustrative values)\n\n");
     for b in bundled::SCENARIOS {
         let mut s = match Scenario::from_json_str(b.json) {
             Ok(s) => s,
@@ -397,7 +404,7 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
                     format::eng(m.led_current_avg_a, "A"),
                     m.led_current_ripple_pct,
                     format::eng(m.switching_frequency_hz, "Hz"),
-                    format!("{:?}", m.conduction_mode).to_uppercase(),
+                    mode_name(m.conduction_mode),
                     format::pct(m.efficiency),
                     elapsed.as_secs_f64()
                 );

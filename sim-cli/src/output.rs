@@ -23,14 +23,12 @@ pub fn write_atomic(
         .unwrap_or_else(|| "output".into());
     let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
     let result = (|| -> Result<()> {
-        let file = File::create(&tmp)
-            .with_context(|| format!("cannot create {}", tmp.display()))?;
+        let file =
+            File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;
         let mut w = BufWriter::new(file);
         fill(&mut w)?;
         w.flush()?;
-        w.into_inner()
-            .map_err(|e| e.into_error())?
-            .sync_all()?;
+        w.into_inner().map_err(|e| e.into_error())?.sync_all()?;
         fs::rename(&tmp, path)
             .with_context(|| format!("cannot rename {} to {}", tmp.display(), path.display()))?;
         Ok(())

@@ -13,8 +13,8 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::FontStyle;
 use sim_core::metrics::ConductionMode;
-use sim_core::record::{COL_IL, COL_ILED, COL_TIME, COL_VIN, COL_VLED, COL_VSW};
 use sim_core::record::Waveform;
+use sim_core::record::{COL_IL, COL_ILED, COL_TIME, COL_VIN, COL_VLED, COL_VSW};
 use sim_core::{Scenario, SimResult};
 use std::path::Path;
 use std::sync::Once;
@@ -168,7 +168,10 @@ fn draw_stack(
         let (lo, hi) = y_range(panel);
         let y_axis = Axis::for_magnitude(lo.abs().max(hi.abs()));
         let ys = (lo / y_axis.scale, hi / y_axis.scale);
-        let (xd, yd) = (tick_decimals(xs.1 - xs.0, 12), tick_decimals(ys.1 - ys.0, 6));
+        let (xd, yd) = (
+            tick_decimals(xs.1 - xs.0, 12),
+            tick_decimals(ys.1 - ys.0, 6),
+        );
         let mut chart = ChartBuilder::on(&plot_area)
             .margin_left(20)
             .margin_right(24)
@@ -251,7 +254,12 @@ fn draw_legend(area: &DrawingArea<BitMapBackend, Shift>, panel: &Panel) -> Resul
         .traces
         .iter()
         .map(|t| (t.label.as_str(), t.color, false))
-        .chain(panel.markers.iter().map(|m| (m.label.as_str(), m.color, true)));
+        .chain(
+            panel
+                .markers
+                .iter()
+                .map(|m| (m.label.as_str(), m.color, true)),
+        );
     for (label, color, dashed) in entries {
         line(y, color, dashed)?;
         let lines = wrap(label, 27);
@@ -290,10 +298,12 @@ fn wrap(text: &str, width: usize) -> Vec<String> {
 /// Decimals that tell apart ticks spread over `span` in about `n` steps.
 fn tick_decimals(span: f64, n: usize) -> usize {
     let step = span / n as f64;
-    if !(step > 0.0) || !step.is_finite() {
+    if step.is_nan() || step <= 0.0 || step.is_infinite() {
         return 2;
     }
-    (-step.log10()).ceil().clamp(0.0, 9.0) as usize
+    // One more than the step needs, in case the ticks fall on halves;
+    // `tick` drops the trailing zeros this leaves on round values.
+    (-step.log10()).ceil().clamp(0.0, 8.0) as usize + 1
 }
 
 /// A tick label with `decimals` decimals, trailing zeros dropped.
@@ -316,6 +326,10 @@ fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
         let mut enc = png::Encoder::new(w, WIDTH, HEIGHT);
         enc.set_color(png::ColorType::Rgb);
         enc.set_depth(png::BitDepth::Eight);
+        // Plots are mostly flat colour: the best deflate level with
+        // adaptive filtering makes them several times smaller.
+        enc.set_compression(png::Compression::Best);
+        enc.set_adaptive_filter(png::AdaptiveFilterType::Adaptive);
         let mut writer = enc.write_header()?;
         writer.write_image_data(buf)?;
         writer.finish()?;
@@ -324,7 +338,10 @@ fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
     .with_context(|| format!("cannot write {}", path.display()))
 }
 
-fn render(path: &Path, draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>) -> Result<()> {
+fn render(
+    path: &Path,
+    draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
+) -> Result<()> {
     register_fonts()?;
     let mut buf = vec![255u8; (WIDTH * HEIGHT * 3) as usize];
     {
@@ -334,22 +351,42 @@ fn render(path: &Path, draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> 
     encode_png(path, &buf)
 }
 
-fn column_pairs(w: &Waveform, rows: std::ops::Range<usize>, col: usize, t0: f64) -> Vec<(f64, f64)> {
+fn column_pairs(
+    w: &Waveform,
+    rows: std::ops::Range<usize>,
+    col: usize,
+    t0: f64,
+) -> Vec<(f64, f64)> {
     rows.map(|r| (w.data[[r, COL_TIME]] - t0, w.data[[r, col]]))
         .collect()
 }
 
-/// Without an output capacitor the LED current is the inductor current:
-/// the inductor trace is then drawn wide beneath the LED trace, and the
-/// legend says so.
-fn led_trace_label(s: &Scenario) -> (bool, String) {
-    if s.output_capacitor.is_none() {
-        (
-            true,
-            "LED current (equals the inductor current: no output capacitor)".into(),
-        )
+/// The current traces: without an output capacitor the LED current is
+/// the inductor current, so one trace says so instead of two drawn over
+/// each other.
+fn current_traces<'a>(same: bool, il: &'a [(f64, f64)], iled: &'a [(f64, f64)]) -> Vec<Trace<'a>> {
+    if same {
+        vec![Trace {
+            label: "inductor current = LED current (no output capacitor)".into(),
+            color: INDUCTOR,
+            width: 2,
+            points: il,
+        }]
     } else {
-        (false, "LED current".into())
+        vec![
+            Trace {
+                label: "inductor current".into(),
+                color: INDUCTOR,
+                width: 2,
+                points: il,
+            },
+            Trace {
+                label: "LED current".into(),
+                color: LED,
+                width: 2,
+                points: iled,
+            },
+        ]
     }
 }
 
@@ -399,7 +436,7 @@ pub fn steady_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
     let vled = column_pairs(w, rows.clone(), COL_VLED, t_first);
     let vsw = column_pairs(w, rows, COL_VSW, t_first);
     let m = &r.metrics;
-    let (same, led_label) = led_trace_label(s);
+    let same = s.output_capacitor.is_none();
     let valley = crate::report::clean_valley(m);
     let span = t_end - t_first;
     let x_axis = Axis::for_magnitude(span);
@@ -407,20 +444,7 @@ pub fn steady_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
         Panel {
             quantity: "Current",
             unit: "A",
-            traces: vec![
-                Trace {
-                    label: "inductor current".into(),
-                    color: INDUCTOR,
-                    width: if same { 6 } else { 2 },
-                    points: &il,
-                },
-                Trace {
-                    label: led_label.clone(),
-                    color: LED,
-                    width: 2,
-                    points: &iled,
-                },
-            ],
+            traces: current_traces(same, &il, &iled),
             markers: vec![
                 Marker {
                     label: format!("inductor peak {}", eng(m.inductor_current_peak_a, "A")),
@@ -466,7 +490,10 @@ pub fn steady_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
             markers: vec![],
         },
     ];
-    let title = format!("{} — steady state, last {shown} switching cycles", r.scenario_name);
+    let title = format!(
+        "{} — steady state, last {shown} switching cycles",
+        r.scenario_name
+    );
     let x_desc = format!("Time from the start of the window ({}s)", x_axis.prefix);
     render(path, |root| {
         draw_stack(
@@ -561,7 +588,7 @@ pub fn startup_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
     let vled = pick(3);
     let vin = pick(4);
     let m = &r.metrics;
-    let (same, led_label) = led_trace_label(s);
+    let same = s.output_capacitor.is_none();
     let span = t_end - t0;
     let x_axis = Axis::for_magnitude(span);
     let mut markers = vec![Marker {
@@ -582,20 +609,7 @@ pub fn startup_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
         Panel {
             quantity: "Current",
             unit: "A",
-            traces: vec![
-                Trace {
-                    label: "inductor current".into(),
-                    color: INDUCTOR,
-                    width: if same { 6 } else { 2 },
-                    points: &il,
-                },
-                Trace {
-                    label: led_label.clone(),
-                    color: LED,
-                    width: 2,
-                    points: &iled,
-                },
-            ],
+            traces: current_traces(same, &il, &iled),
             markers,
         },
         Panel {

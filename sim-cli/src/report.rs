@@ -373,7 +373,11 @@ pub fn clean_valley(m: &Metrics) -> f64 {
 /// design does not have (zero loss) are left out.
 fn loss_rows(w: &LossEnergies, p: &LossEnergies) -> Vec<(&'static str, f64, f64)> {
     [
-        ("switch conduction", w.switch_conduction, p.switch_conduction),
+        (
+            "switch conduction",
+            w.switch_conduction,
+            p.switch_conduction,
+        ),
         ("diode conduction", w.diode_conduction, p.diode_conduction),
         ("inductor winding (DCR)", w.inductor_dcr, p.inductor_dcr),
         (
