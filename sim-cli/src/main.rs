@@ -1,2 +1,439 @@
-//! The chopwave command.
-fn main() {}
+//! `chopwave`: simulate a buck LED driver scenario to steady state and
+//! report what a hardware engineer needs before ordering parts.
+//!
+//! The binary is glue: it turns arguments into a validated
+//! [`sim_core::Scenario`], calls [`sim_core::simulate`], and renders the
+//! result as text, JSON, CSV and PNG. Exit codes: 0 success, 1 the
+//! simulation failed (or an output could not be written), 2 bad input.
+
+mod bundled;
+mod format;
+mod output;
+mod plot;
+mod report;
+
+use anyhow::{Context, Result};
+use clap::{Parser, Subcommand, ValueEnum};
+use indicatif::{ProgressBar, ProgressStyle};
+use report::Report;
+use sim_core::simulate::{simulate_with_progress, Progress};
+use sim_core::{EngineKind, RunOptions, Scenario, ScenarioError, SimError, SimResult};
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::time::{Duration, Instant};
+
+/// Simulate switch-mode buck LED drivers cycle by cycle: waveforms, ripple,
+/// conduction mode, losses and part stresses before you order parts.
+#[derive(Debug, Parser)]
+#[command(name = "chopwave", version)]
+#[command(
+    after_help = "Exit codes: 0 success, 1 simulation failed or an output could not be \
+                        written, 2 bad input (scenario file, field or option)."
+)]
+struct Cli {
+    /// No progress bar and no notes on standard error (errors still print).
+    #[arg(short, long, global = true)]
+    quiet: bool,
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Simulate a scenario to steady state and print a summary.
+    Run(RunArgs),
+    /// Validate a scenario file and print every problem found.
+    Check {
+        /// The scenario file (JSON).
+        file: PathBuf,
+        /// Override a field before checking, e.g. `--set supply.voltage_v=18`.
+        #[arg(long = "set", value_name = "PATH=VALUE", value_parser = parse_override)]
+        overrides: Vec<(String, String)>,
+    },
+    /// Run every bundled example scenario and write summaries and plots.
+    Demo {
+        /// Folder to write into (created if missing).
+        #[arg(long, default_value = "chopwave-demo")]
+        out: PathBuf,
+        /// Engine to use.
+        #[arg(long, value_enum, default_value_t = EngineArg::Exact)]
+        engine: EngineArg,
+    },
+    /// Print a complete, valid starter scenario with every field.
+    Template,
+}
+
+#[derive(Debug, clap::Args)]
+struct RunArgs {
+    /// The scenario file (JSON).
+    file: PathBuf,
+    /// Print the summary as one JSON object (SI units) instead of text.
+    #[arg(long)]
+    json: bool,
+    /// Write steady-state and start-up PNG plots into this folder.
+    #[arg(long, value_name = "DIR")]
+    plot: Option<PathBuf>,
+    /// Write the recorded steady-state samples to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    csv: Option<PathBuf>,
+    /// Engine: `exact` (piecewise-linear, closed form) or `reference`
+    /// (full exponential curves, numerical integration; slower).
+    #[arg(long, value_enum, default_value_t = EngineArg::Exact)]
+    engine: EngineArg,
+    /// Override a field for this run, e.g. `--set supply.voltage_v=18`
+    /// (repeatable; values may use engineering notation such as `4.7u`).
+    #[arg(long = "set", value_name = "PATH=VALUE", value_parser = parse_override)]
+    overrides: Vec<(String, String)>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum EngineArg {
+    /// Piecewise-linear circuit, exact between events.
+    Exact,
+    /// Exponential device curves integrated numerically.
+    Reference,
+}
+
+impl From<EngineArg> for EngineKind {
+    fn from(e: EngineArg) -> EngineKind {
+        match e {
+            EngineArg::Exact => EngineKind::Exact,
+            EngineArg::Reference => EngineKind::Reference,
+        }
+    }
+}
+
+fn parse_override(s: &str) -> Result<(String, String), String> {
+    match s.split_once('=') {
+        Some((p, v)) if !p.trim().is_empty() => Ok((p.trim().to_string(), v.trim().to_string())),
+        _ => Err(format!(
+            "`{s}` is not PATH=VALUE (for example supply.voltage_v=18)"
+        )),
+    }
+}
+
+/// How a command failed, which decides the exit code.
+#[derive(Debug)]
+enum Failure {
+    /// Bad input: exit 2.
+    Input(String),
+    /// The simulation failed or output could not be written: exit 1.
+    Run(String),
+}
+
+impl Failure {
+    fn code(&self) -> u8 {
+        match self {
+            Failure::Input(_) => 2,
+            Failure::Run(_) => 1,
+        }
+    }
+    fn message(&self) -> &str {
+        match self {
+            Failure::Input(m) | Failure::Run(m) => m,
+        }
+    }
+}
+
+fn io_failure(e: anyhow::Error) -> Failure {
+    Failure::Run(format!("{e:#}"))
+}
+
+fn main() -> ExitCode {
+    // A bug must not greet the user with a backtrace: print one line.
+    std::panic::set_hook(Box::new(|info| {
+        let what = info
+            .payload()
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| info.payload().downcast_ref::<String>().cloned())
+            .unwrap_or_default();
+        let at = info
+            .location()
+            .map(|l| format!(" at {}:{}", l.file(), l.line()))
+            .unwrap_or_default();
+        eprintln!("chopwave: internal error{at}: {what} (please report this)");
+    }));
+    let cli = Cli::parse();
+    let quiet = cli.quiet;
+    let outcome = std::panic::catch_unwind(move || dispatch(cli));
+    match outcome {
+        Ok(Ok(())) => ExitCode::SUCCESS,
+        Ok(Err(f)) => {
+            eprintln!("chopwave: {}", f.message());
+            ExitCode::from(f.code())
+        }
+        Err(_) => {
+            if !quiet {
+                eprintln!("chopwave: the run stopped on an internal error");
+            }
+            ExitCode::from(1)
+        }
+    }
+}
+
+fn dispatch(cli: Cli) -> Result<(), Failure> {
+    let quiet = cli.quiet;
+    match cli.command {
+        Command::Run(args) => run(&args, quiet),
+        Command::Check { file, overrides } => check(&file, &overrides),
+        Command::Demo { out, engine } => demo(&out, engine.into(), quiet),
+        Command::Template => {
+            let text = serde_json::to_string_pretty(&sim_core::scenario::template())
+                .map_err(|e| Failure::Run(e.to_string()))?;
+            println!("{text}");
+            Ok(())
+        }
+    }
+}
+
+/// Reads and validates a scenario file, with overrides.
+fn load(file: &Path, overrides: &[(String, String)]) -> Result<Scenario, Failure> {
+    let text = std::fs::read_to_string(file)
+        .map_err(|e| Failure::Input(format!("cannot read {}: {e}", file.display())))?;
+    Scenario::from_json_str_with_overrides(&text, overrides)
+        .map_err(|e| Failure::Input(describe_scenario_error(&file.display().to_string(), &e)))
+}
+
+/// One clear message naming the file, each field, its value and the reason.
+fn describe_scenario_error(file: &str, e: &ScenarioError) -> String {
+    match e {
+        ScenarioError::Syntax {
+            path,
+            message,
+            line,
+            column,
+        } => {
+            let field = if path.is_empty() {
+                String::new()
+            } else {
+                format!(" field `{path}`:")
+            };
+            format!("{file}:{line}:{column}:{field} {message}")
+        }
+        ScenarioError::Invalid(problems) => {
+            let mut s = format!(
+                "{file}: {} problem{} found:",
+                problems.len(),
+                if problems.len() == 1 { "" } else { "s" }
+            );
+            for p in problems {
+                if p.value.is_empty() {
+                    s.push_str(&format!("\n  field `{}`: {}", p.path, p.reason));
+                } else {
+                    s.push_str(&format!(
+                        "\n  field `{}` = {}: {}",
+                        p.path, p.value, p.reason
+                    ));
+                }
+            }
+            s
+        }
+        other => format!("{file}: {other}"),
+    }
+}
+
+fn check(file: &Path, overrides: &[(String, String)]) -> Result<(), Failure> {
+    let s = load(file, overrides)?;
+    println!(
+        "{}: valid scenario `{}` ({})",
+        file.display(),
+        s.name,
+        summary_line(&s)
+    );
+    Ok(())
+}
+
+fn summary_line(s: &Scenario) -> String {
+    use format::eng;
+    let ctrl = match s.controller {
+        sim_core::scenario::ControllerSpec::ConstantOffTime { .. } => "constant off-time",
+        sim_core::scenario::ControllerSpec::Hysteretic { .. } => "hysteretic",
+        sim_core::scenario::ControllerSpec::FixedDuty { .. } => "fixed duty",
+    };
+    format!(
+        "{} supply, {} inductor, {ctrl} control",
+        eng(s.supply.voltage_v, "V"),
+        eng(s.inductor.inductance_h, "H")
+    )
+}
+
+/// Runs the simulation with a progress display on a terminal.
+fn simulate_scenario(s: &Scenario, engine: EngineKind, quiet: bool) -> Result<SimResult, Failure> {
+    let show = !quiet && std::io::stderr().is_terminal();
+    let start = Instant::now();
+    let mut bar: Option<ProgressBar> = None;
+    let mut on_progress = |p: Progress| {
+        if !show {
+            return;
+        }
+        if bar.is_none() && start.elapsed() > Duration::from_millis(300) {
+            let b = ProgressBar::new_spinner();
+            b.set_style(
+                ProgressStyle::with_template("{spinner} {elapsed} {msg}")
+                    .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+            );
+            b.enable_steady_tick(Duration::from_millis(120));
+            bar = Some(b);
+        }
+        if let Some(b) = &bar {
+            b.set_message(format!(
+                "{}: cycle {} of at most {}, change per cycle {:.1e} (steady below {:.0e})",
+                s.name, p.cycles, p.max_cycles, p.last_change, s.simulation.steady_state_tolerance
+            ));
+        }
+    };
+    let opts = RunOptions {
+        engine,
+        ..RunOptions::default()
+    };
+    let result = simulate_with_progress(s, &opts, &mut on_progress);
+    if let Some(b) = bar {
+        b.finish_and_clear();
+    }
+    result.map_err(|e| Failure::Run(describe_sim_error(&s.name, &e)))
+}
+
+fn describe_sim_error(name: &str, e: &SimError) -> String {
+    let hint = match e {
+        SimError::NoSteadyState { .. } => {
+            "\n  hint: raise simulation.max_cycles, loosen simulation.steady_state_tolerance, or \
+             check for an unstable or subharmonic design"
+        }
+        SimError::TimeLimit { .. } => "\n  hint: raise simulation.max_time_s",
+        SimError::IntervalTooLong { .. } => {
+            "\n  hint: check the supply, the LED string voltage and the controller thresholds"
+        }
+        _ => "",
+    };
+    format!("simulation of `{name}` failed: {e}{hint}")
+}
+
+fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
+    let mut s = load(&args.file, &args.overrides)?;
+    // Always record the start-up: the plots need it, and the summary
+    // reports its inductor peak (it costs little next to the run).
+    s.simulation.record_startup = true;
+    let r = simulate_scenario(&s, args.engine.into(), quiet)?;
+    let report = Report::new(&s, &r);
+    let mut written = Vec::new();
+    if let Some(path) = &args.csv {
+        output::write_csv(path, &r.waveform).map_err(io_failure)?;
+        written.push(path.clone());
+    }
+    if let Some(dir) = &args.plot {
+        written.extend(write_plots(&s, &r, dir, &output::file_stem(&s.name)).map_err(io_failure)?);
+    }
+    if args.json {
+        println!("{}", report.to_json());
+    } else {
+        print!("{}", report.to_text());
+    }
+    if !quiet {
+        for p in &written {
+            eprintln!("wrote {}", p.display());
+        }
+    }
+    Ok(())
+}
+
+fn write_plots(s: &Scenario, r: &SimResult, dir: &Path, stem: &str) -> Result<Vec<PathBuf>> {
+    output::ensure_dir(dir)?;
+    let steady = dir.join(format!("{stem}-steady.png"));
+    plot::steady_png(s, r, &steady).context("steady-state plot")?;
+    let startup = dir.join(format!("{stem}-startup.png"));
+    plot::startup_png(s, r, &startup).context("start-up plot")?;
+    Ok(vec![steady, startup])
+}
+
+fn mode_name(m: sim_core::metrics::ConductionMode) -> &'static str {
+    match m {
+        sim_core::metrics::ConductionMode::Ccm => "CCM",
+        sim_core::metrics::ConductionMode::Dcm => "DCM",
+        sim_core::metrics::ConductionMode::Boundary => "boundary",
+    }
+}
+
+fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
+    output::ensure_dir(out).map_err(io_failure)?;
+    let mut failures = Vec::new();
+    let mut written: Vec<PathBuf> = Vec::new();
+    let mut index =
+        String::from("chopwave demo: bundled example scenarios (illustrative values)\n\n");
+    for b in bundled::SCENARIOS {
+        let mut s = match Scenario::from_json_str(b.json) {
+            Ok(s) => s,
+            Err(e) => {
+                failures.push(describe_scenario_error(b.file, &e));
+                continue;
+            }
+        };
+        s.simulation.record_startup = true;
+        let started = Instant::now();
+        let r = match simulate_scenario(&s, engine, quiet) {
+            Ok(r) => r,
+            Err(f) => {
+                failures.push(f.message().to_string());
+                continue;
+            }
+        };
+        let elapsed = started.elapsed();
+        let stem = b.stem();
+        let report = Report::new(&s, &r);
+        let files = (|| -> Result<Vec<PathBuf>> {
+            let mut f = Vec::new();
+            let scenario_copy = out.join(format!("{stem}.scenario.json"));
+            output::write_text(&scenario_copy, b.json)?;
+            f.push(scenario_copy);
+            let txt = out.join(format!("{stem}.txt"));
+            output::write_text(&txt, &report.to_text())?;
+            f.push(txt);
+            let json = out.join(format!("{stem}.json"));
+            output::write_text(&json, &(report.to_json() + "\n"))?;
+            f.push(json);
+            f.extend(write_plots(&s, &r, out, &stem)?);
+            Ok(f)
+        })();
+        match files {
+            Ok(f) => {
+                let m = &r.metrics;
+                let line = format!(
+                    "{:<28} {:>9} LED, {:>5.1} % ripple, {:>9}, {:<8} efficiency {:>6}  ({:.2} s)",
+                    s.name,
+                    format::eng(m.led_current_avg_a, "A"),
+                    m.led_current_ripple_pct,
+                    format::eng(m.switching_frequency_hz, "Hz"),
+                    mode_name(m.conduction_mode),
+                    format::pct(m.efficiency),
+                    elapsed.as_secs_f64()
+                );
+                println!("{line}");
+                index.push_str(&line);
+                index.push('\n');
+                for p in &f {
+                    index.push_str(&format!("    {}\n", p.display()));
+                }
+                written.extend(f);
+            }
+            Err(e) => failures.push(format!("{}: {e:#}", b.file)),
+        }
+    }
+    let index_path = out.join("index.txt");
+    output::write_text(&index_path, &index).map_err(io_failure)?;
+    written.push(index_path);
+    println!("\nwrote {} files into {}:", written.len(), out.display());
+    for p in &written {
+        println!("  {}", p.display());
+    }
+    if failures.is_empty() {
+        Ok(())
+    } else {
+        Err(Failure::Run(format!(
+            "{} of {} demo scenarios failed:\n  {}",
+            failures.len(),
+            bundled::SCENARIOS.len(),
+            failures.join("\n  ")
+        )))
+    }
+}

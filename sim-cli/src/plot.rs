@@ -1,0 +1,678 @@
+//! PNG plots of a run: the steady-state waveforms over the last few
+//! cycles and the start-up transient from power-on.
+//!
+//! Rendered by plotters into an RGB buffer with the DejaVu Sans font
+//! embedded in the binary (via the `dejavu` crate; Bitstream Vera licence)
+//! and encoded with the `png` crate: no system font or graphics library
+//! is used.
+
+use crate::format::{eng, eng_exponent, pct, prefix};
+use anyhow::{anyhow, Context, Result};
+use plotters::coord::Shift;
+use plotters::element::DashedPathElement;
+use plotters::prelude::*;
+use plotters::style::FontStyle;
+use sim_core::metrics::ConductionMode;
+use sim_core::record::Waveform;
+use sim_core::record::{COL_IL, COL_ILED, COL_TIME, COL_VIN, COL_VLED, COL_VSW};
+use sim_core::{Scenario, SimResult};
+use std::path::Path;
+use std::sync::Once;
+
+/// Image width, px.
+pub const WIDTH: u32 = 1600;
+/// Image height, px.
+pub const HEIGHT: u32 = 1000;
+/// The font family name the plots register and use.
+const FAMILY: &str = "sans-serif";
+/// Width of the legend column at the right of each panel, px.
+const LEGEND_WIDTH: u32 = 330;
+/// Steady-state cycles shown (the last ones recorded).
+pub const CYCLES_SHOWN: usize = 4;
+
+// Our palette.
+const INK: RGBColor = RGBColor(33, 37, 41);
+const GRID: RGBColor = RGBColor(226, 229, 233);
+const GRID_MAJOR: RGBColor = RGBColor(196, 201, 207);
+const INDUCTOR: RGBColor = RGBColor(0, 105, 148);
+const INDUCTOR_LIGHT: RGBColor = RGBColor(86, 170, 205);
+const LED: RGBColor = RGBColor(222, 110, 20);
+const LED_AVG: RGBColor = RGBColor(140, 45, 10);
+const VLED: RGBColor = RGBColor(118, 62, 168);
+const VLED_LIGHT: RGBColor = RGBColor(175, 140, 210);
+const VSW: RGBColor = RGBColor(34, 120, 70);
+const VIN: RGBColor = RGBColor(150, 118, 0);
+
+static FONTS: Once = Once::new();
+
+fn register_fonts() -> Result<()> {
+    let mut ok = true;
+    FONTS.call_once(|| {
+        ok &= plotters::style::register_font(FAMILY, FontStyle::Normal, dejavu::sans::regular())
+            .is_ok();
+        ok &= plotters::style::register_font(FAMILY, FontStyle::Bold, dejavu::sans::bold()).is_ok();
+    });
+    if ok {
+        Ok(())
+    } else {
+        Err(anyhow!("the embedded font could not be loaded"))
+    }
+}
+
+fn font(size: u32) -> TextStyle<'static> {
+    (FAMILY, size).into_font().color(&INK)
+}
+
+fn bold(size: u32) -> TextStyle<'static> {
+    (FAMILY, size)
+        .into_font()
+        .style(FontStyle::Bold)
+        .color(&INK)
+}
+
+fn de<E: std::fmt::Debug>(e: E) -> anyhow::Error {
+    anyhow!("drawing failed: {e:?}")
+}
+
+/// One signal on a panel.
+struct Trace<'a> {
+    label: String,
+    color: RGBColor,
+    width: u32,
+    points: &'a [(f64, f64)],
+}
+
+/// A horizontal marker line with a label (average, peak, valley).
+struct Marker {
+    label: String,
+    color: RGBColor,
+    y: f64,
+}
+
+/// One panel of a stacked plot.
+struct Panel<'a> {
+    quantity: &'a str,
+    unit: &'a str,
+    traces: Vec<Trace<'a>>,
+    markers: Vec<Marker>,
+}
+
+/// An axis scaled to an SI prefix: values are divided by `scale`.
+struct Axis {
+    scale: f64,
+    prefix: &'static str,
+}
+
+impl Axis {
+    fn for_magnitude(m: f64) -> Axis {
+        let e = eng_exponent(m);
+        Axis {
+            scale: 10f64.powi(e),
+            prefix: prefix(e),
+        }
+    }
+}
+
+fn y_range(panel: &Panel) -> (f64, f64) {
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    for t in &panel.traces {
+        for &(_, y) in t.points {
+            lo = lo.min(y);
+            hi = hi.max(y);
+        }
+    }
+    for m in &panel.markers {
+        lo = lo.min(m.y);
+        hi = hi.max(m.y);
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return (0.0, 1.0);
+    }
+    // Always include zero when the data come near it, so a reader sees the
+    // ripple against the whole value for currents and voltages close to 0.
+    if lo > 0.0 && lo < 0.25 * hi {
+        lo = 0.0;
+    }
+    let span = (hi - lo).max(1e-3 * hi.abs().max(lo.abs())).max(1e-12);
+    (lo - 0.06 * span, hi + 0.08 * span)
+}
+
+fn draw_stack(
+    root: &DrawingArea<BitMapBackend, Shift>,
+    title: &str,
+    subtitle: &str,
+    x_desc: &str,
+    x_range: (f64, f64),
+    x_axis: &Axis,
+    panels: &[Panel],
+) -> Result<()> {
+    root.fill(&WHITE).map_err(de)?;
+    let (head, body) = root.split_vertically(96);
+    head.draw(&Text::new(title.to_string(), (30, 16), bold(34)))
+        .map_err(de)?;
+    head.draw(&Text::new(subtitle.to_string(), (30, 60), font(22)))
+        .map_err(de)?;
+    let n = panels.len() as u32;
+    let body_h = HEIGHT - 96;
+    let bottom_extra = 70;
+    let each = (body_h - bottom_extra) / n;
+    let mut sizes: Vec<u32> = (1..n).map(|k| k * each).collect();
+    sizes.sort_unstable();
+    let breaks: Vec<i32> = sizes.iter().map(|s| *s as i32).collect();
+    let areas = body.split_by_breakpoints(Vec::<i32>::new(), breaks);
+    let xs = (x_range.0 / x_axis.scale, x_range.1 / x_axis.scale);
+    for (k, (panel, area)) in panels.iter().zip(areas.iter()).enumerate() {
+        let last = k + 1 == panels.len();
+        let (plot_area, legend_area) = area.split_horizontally(WIDTH - LEGEND_WIDTH);
+        let (lo, hi) = y_range(panel);
+        let y_axis = Axis::for_magnitude(lo.abs().max(hi.abs()));
+        let ys = (lo / y_axis.scale, hi / y_axis.scale);
+        let (xd, yd) = (
+            tick_decimals(xs.1 - xs.0, 12),
+            tick_decimals(ys.1 - ys.0, 6),
+        );
+        let mut chart = ChartBuilder::on(&plot_area)
+            .margin_left(20)
+            .margin_right(24)
+            .margin_top(10)
+            .margin_bottom(if last { 10 } else { 6 })
+            .x_label_area_size(if last { 70 } else { 0 })
+            .y_label_area_size(110)
+            .build_cartesian_2d(xs.0..xs.1, ys.0..ys.1)
+            .map_err(de)?;
+        let y_desc = format!("{} ({}{})", panel.quantity, y_axis.prefix, panel.unit);
+        let x_fmt = |v: &f64| tick(*v, xd);
+        let y_fmt = |v: &f64| tick(*v, yd);
+        let mut mesh = chart.configure_mesh();
+        mesh.x_labels(12)
+            .y_labels(6)
+            .light_line_style(GRID)
+            .bold_line_style(GRID_MAJOR)
+            .axis_style(INK)
+            .label_style(font(19))
+            .axis_desc_style(font(21))
+            .y_desc(y_desc)
+            .x_label_formatter(&x_fmt)
+            .y_label_formatter(&y_fmt);
+        if last {
+            mesh.x_desc(x_desc);
+        }
+        mesh.draw().map_err(de)?;
+        for t in &panel.traces {
+            let style = ShapeStyle::from(&t.color).stroke_width(t.width);
+            let sx = x_axis.scale;
+            let sy = y_axis.scale;
+            chart
+                .draw_series(LineSeries::new(
+                    t.points.iter().map(|&(x, y)| (x / sx, y / sy)),
+                    style,
+                ))
+                .map_err(de)?;
+        }
+        for m in &panel.markers {
+            let style = ShapeStyle::from(&m.color).stroke_width(2);
+            let y = m.y / y_axis.scale;
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(xs.0, y), (xs.1, y)],
+                    10,
+                    7,
+                    style,
+                ))
+                .map_err(de)?;
+        }
+        draw_legend(&legend_area, panel)?;
+    }
+    root.present().map_err(de)?;
+    Ok(())
+}
+
+/// The legend beside a panel, in its own column so it never covers data:
+/// a solid line sample for each trace, a dashed one for each marker.
+fn draw_legend(area: &DrawingArea<BitMapBackend, Shift>, panel: &Panel) -> Result<()> {
+    let x0 = 8;
+    let mut y = 22;
+    let line = |y: i32, color: RGBColor, dashed: bool| -> Result<()> {
+        if dashed {
+            area.draw(&DashedPathElement::new(
+                vec![(x0, y), (x0 + 34, y)],
+                7,
+                5,
+                color.stroke_width(3),
+            ))
+            .map_err(de)
+        } else {
+            area.draw(&PathElement::new(
+                vec![(x0, y), (x0 + 34, y)],
+                color.stroke_width(4),
+            ))
+            .map_err(de)
+        }
+    };
+    let entries = panel
+        .traces
+        .iter()
+        .map(|t| (t.label.as_str(), t.color, false))
+        .chain(
+            panel
+                .markers
+                .iter()
+                .map(|m| (m.label.as_str(), m.color, true)),
+        );
+    for (label, color, dashed) in entries {
+        line(y, color, dashed)?;
+        let lines = wrap(label, 27);
+        for (k, part) in lines.iter().enumerate() {
+            area.draw(&Text::new(
+                part.clone(),
+                (x0 + 44, y - 10 + 22 * k as i32),
+                font(18),
+            ))
+            .map_err(de)?;
+        }
+        y += 32 + 22 * (lines.len() as i32 - 1);
+    }
+    Ok(())
+}
+
+/// Splits a label into lines of at most `width` characters at spaces.
+fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut cur = String::new();
+    for word in text.split_whitespace() {
+        if !cur.is_empty() && cur.chars().count() + 1 + word.chars().count() > width {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(word);
+    }
+    if !cur.is_empty() {
+        lines.push(cur);
+    }
+    lines
+}
+
+/// Decimals that tell apart ticks spread over `span` in about `n` steps.
+fn tick_decimals(span: f64, n: usize) -> usize {
+    let step = span / n as f64;
+    if step.is_nan() || step <= 0.0 || step.is_infinite() {
+        return 2;
+    }
+    // One more than the step needs, in case the ticks fall on halves;
+    // `tick` drops the trailing zeros this leaves on round values.
+    (-step.log10()).ceil().clamp(0.0, 8.0) as usize + 1
+}
+
+/// A tick label with `decimals` decimals, trailing zeros dropped.
+fn tick(v: f64, decimals: usize) -> String {
+    let s = format!("{v:.decimals$}");
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.replace('-', "−")
+    }
+}
+
+fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
+    crate::output::write_atomic(path, |w| {
+        let mut enc = png::Encoder::new(w, WIDTH, HEIGHT);
+        enc.set_color(png::ColorType::Rgb);
+        enc.set_depth(png::BitDepth::Eight);
+        // Plots are mostly flat colour: the best deflate level with
+        // adaptive filtering makes them several times smaller.
+        enc.set_compression(png::Compression::Best);
+        enc.set_adaptive_filter(png::AdaptiveFilterType::Adaptive);
+        let mut writer = enc.write_header()?;
+        writer.write_image_data(buf)?;
+        writer.finish()?;
+        Ok(())
+    })
+    .with_context(|| format!("cannot write {}", path.display()))
+}
+
+fn render(
+    path: &Path,
+    draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
+) -> Result<()> {
+    register_fonts()?;
+    let mut buf = vec![255u8; (WIDTH * HEIGHT * 3) as usize];
+    {
+        let root = BitMapBackend::with_buffer(&mut buf, (WIDTH, HEIGHT)).into_drawing_area();
+        draw(&root)?;
+    }
+    encode_png(path, &buf)
+}
+
+fn column_pairs(
+    w: &Waveform,
+    rows: std::ops::Range<usize>,
+    col: usize,
+    t0: f64,
+) -> Vec<(f64, f64)> {
+    rows.map(|r| (w.data[[r, COL_TIME]] - t0, w.data[[r, col]]))
+        .collect()
+}
+
+/// The current traces: without an output capacitor the LED current is
+/// the inductor current, so one trace says so instead of two drawn over
+/// each other.
+fn current_traces<'a>(same: bool, il: &'a [(f64, f64)], iled: &'a [(f64, f64)]) -> Vec<Trace<'a>> {
+    if same {
+        vec![Trace {
+            label: "inductor current = LED current (no output capacitor)".into(),
+            color: INDUCTOR,
+            width: 2,
+            points: il,
+        }]
+    } else {
+        vec![
+            Trace {
+                label: "inductor current".into(),
+                color: INDUCTOR,
+                width: 2,
+                points: il,
+            },
+            Trace {
+                label: "LED current".into(),
+                color: LED,
+                width: 2,
+                points: iled,
+            },
+        ]
+    }
+}
+
+/// The operating point in one line, for plot subtitles.
+fn operating_point(s: &Scenario, r: &SimResult) -> String {
+    let m = &r.metrics;
+    let mode = match m.conduction_mode {
+        ConductionMode::Ccm => "CCM",
+        ConductionMode::Dcm => "DCM",
+        ConductionMode::Boundary => "CCM/DCM boundary",
+    };
+    format!(
+        "supply {}   ·   LED {} average, {} p-p ripple ({:.1} %)   ·   {}   ·   duty {}   ·   {}   ·   efficiency {}",
+        eng(s.supply.voltage_v, "V"),
+        eng(m.led_current_avg_a, "A"),
+        eng(m.led_current_ripple_pp_a, "A"),
+        m.led_current_ripple_pct,
+        eng(m.switching_frequency_hz, "Hz"),
+        pct(m.duty),
+        mode,
+        pct(m.efficiency)
+    )
+}
+
+/// Writes the steady-state plot of the last [`CYCLES_SHOWN`] recorded
+/// cycles: inductor and LED current with average, peak and valley marked;
+/// the LED string voltage; the switch-node voltage.
+pub fn steady_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
+    let w = &r.waveform;
+    if w.is_empty() {
+        return Err(anyhow!("no steady-state samples were recorded"));
+    }
+    let starts = &w.cycle_starts_s;
+    let t_first = if starts.len() > CYCLES_SHOWN {
+        starts[starts.len() - CYCLES_SHOWN]
+    } else {
+        starts.first().copied().unwrap_or(w.data[[0, COL_TIME]])
+    };
+    let first = (0..w.len())
+        .find(|&k| w.data[[k, COL_TIME]] >= t_first)
+        .unwrap_or(0);
+    let rows = first..w.len();
+    let t_end = w.data[[w.len() - 1, COL_TIME]];
+    let shown = starts.len().min(CYCLES_SHOWN);
+    let il = column_pairs(w, rows.clone(), COL_IL, t_first);
+    let iled = column_pairs(w, rows.clone(), COL_ILED, t_first);
+    let vled = column_pairs(w, rows.clone(), COL_VLED, t_first);
+    let vsw = column_pairs(w, rows, COL_VSW, t_first);
+    let m = &r.metrics;
+    let same = s.output_capacitor.is_none();
+    let valley = crate::report::clean_valley(m);
+    let span = t_end - t_first;
+    let x_axis = Axis::for_magnitude(span);
+    let panels = [
+        Panel {
+            quantity: "Current",
+            unit: "A",
+            traces: current_traces(same, &il, &iled),
+            markers: vec![
+                Marker {
+                    label: format!("inductor peak {}", eng(m.inductor_current_peak_a, "A")),
+                    color: INDUCTOR,
+                    y: m.inductor_current_peak_a,
+                },
+                Marker {
+                    label: format!("inductor valley {}", eng(valley, "A")),
+                    color: INDUCTOR_LIGHT,
+                    y: valley,
+                },
+                Marker {
+                    label: format!("LED average {}", eng(m.led_current_avg_a, "A")),
+                    color: LED_AVG,
+                    y: m.led_current_avg_a,
+                },
+            ],
+        },
+        Panel {
+            quantity: "LED string voltage",
+            unit: "V",
+            traces: vec![Trace {
+                label: "LED string voltage".into(),
+                color: VLED,
+                width: 2,
+                points: &vled,
+            }],
+            markers: vec![Marker {
+                label: format!("average {}", eng(m.led_voltage_avg_v, "V")),
+                color: VLED_LIGHT,
+                y: m.led_voltage_avg_v,
+            }],
+        },
+        Panel {
+            quantity: "Switch node",
+            unit: "V",
+            traces: vec![Trace {
+                label: "switch-node voltage".into(),
+                color: VSW,
+                width: 2,
+                points: &vsw,
+            }],
+            markers: vec![],
+        },
+    ];
+    let title = format!(
+        "{} — steady state, last {shown} switching cycles",
+        r.scenario_name
+    );
+    let x_desc = format!("Time from the start of the window ({}s)", x_axis.prefix);
+    render(path, |root| {
+        draw_stack(
+            root,
+            &title,
+            &operating_point(s, r),
+            &x_desc,
+            (0.0, span),
+            &x_axis,
+            &panels,
+        )
+    })
+}
+
+/// Reduces a long trace to at most two points (minimum and maximum, in
+/// time order) per bucket, so a plot shows the true envelope of every
+/// switching cycle without drawing hundreds of thousands of segments.
+pub fn envelope(points: &[(f64, f64)], buckets: usize) -> Vec<(f64, f64)> {
+    if points.len() <= 2 * buckets || buckets == 0 {
+        return points.to_vec();
+    }
+    let t0 = points[0].0;
+    let t1 = points[points.len() - 1].0;
+    let width = (t1 - t0) / buckets as f64;
+    let mut out = Vec::with_capacity(2 * buckets + 2);
+    let mut k = 0;
+    while k < points.len() {
+        let b = (((points[k].0 - t0) / width) as usize).min(buckets - 1);
+        let mut lo = points[k];
+        let mut hi = points[k];
+        let mut j = k;
+        while j < points.len() && (((points[j].0 - t0) / width) as usize).min(buckets - 1) == b {
+            if points[j].1 < lo.1 {
+                lo = points[j];
+            }
+            if points[j].1 > hi.1 {
+                hi = points[j];
+            }
+            j += 1;
+        }
+        if lo.0 <= hi.0 {
+            out.push(lo);
+            out.push(hi);
+        } else {
+            out.push(hi);
+            out.push(lo);
+        }
+        k = j;
+    }
+    out
+}
+
+/// Writes the start-up plot, from power-on to steady state: inductor and
+/// LED current with the steady-state LED average marked; the LED string
+/// and input-node voltages.
+pub fn startup_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
+    let w = r
+        .startup
+        .as_ref()
+        .filter(|w| !w.is_empty())
+        .ok_or_else(|| anyhow!("the start-up transient was not recorded"))?;
+    // Append the first measured cycles so the plot ends in steady state.
+    let mut rows: Vec<[f64; 5]> = (0..w.len())
+        .map(|k| {
+            [
+                w.data[[k, COL_TIME]],
+                w.data[[k, COL_IL]],
+                w.data[[k, COL_ILED]],
+                w.data[[k, COL_VLED]],
+                w.data[[k, COL_VIN]],
+            ]
+        })
+        .collect();
+    let ss = &r.waveform;
+    for k in 0..ss.len() {
+        rows.push([
+            ss.data[[k, COL_TIME]],
+            ss.data[[k, COL_IL]],
+            ss.data[[k, COL_ILED]],
+            ss.data[[k, COL_VLED]],
+            ss.data[[k, COL_VIN]],
+        ]);
+    }
+    let t0 = rows[0][0];
+    let t_end = rows[rows.len() - 1][0];
+    let pick = |c: usize| -> Vec<(f64, f64)> {
+        let p: Vec<(f64, f64)> = rows.iter().map(|r| (r[0] - t0, r[c])).collect();
+        envelope(&p, 1400)
+    };
+    let il = pick(1);
+    let iled = pick(2);
+    let vled = pick(3);
+    let vin = pick(4);
+    let m = &r.metrics;
+    let same = s.output_capacitor.is_none();
+    let span = t_end - t0;
+    let x_axis = Axis::for_magnitude(span);
+    let mut markers = vec![Marker {
+        label: format!("steady LED average {}", eng(m.led_current_avg_a, "A")),
+        color: LED_AVG,
+        y: m.led_current_avg_a,
+    }];
+    if let Some(sat) = s.inductor.saturation_current_a {
+        if sat < 1.5 * m.inductor_current_peak_a.max(0.0) {
+            markers.push(Marker {
+                label: format!("inductor saturation rating {}", eng(sat, "A")),
+                color: RGBColor(190, 30, 45),
+                y: sat,
+            });
+        }
+    }
+    let panels = [
+        Panel {
+            quantity: "Current",
+            unit: "A",
+            traces: current_traces(same, &il, &iled),
+            markers,
+        },
+        Panel {
+            quantity: "Voltage",
+            unit: "V",
+            traces: vec![
+                Trace {
+                    label: "input node (after source resistance)".into(),
+                    color: VIN,
+                    width: 2,
+                    points: &vin,
+                },
+                Trace {
+                    label: "LED string voltage".into(),
+                    color: VLED,
+                    width: 2,
+                    points: &vled,
+                },
+            ],
+            markers: vec![],
+        },
+    ];
+    let title = format!(
+        "{} — start-up from power-on, steady after {} cycles ({})",
+        r.scenario_name,
+        r.steady.cycles_to_settle,
+        eng(r.steady.time_to_settle_s, "s")
+    );
+    let x_desc = format!("Time from power-on ({}s)", x_axis.prefix);
+    render(path, |root| {
+        draw_stack(
+            root,
+            &title,
+            &operating_point(s, r),
+            &x_desc,
+            (0.0, span),
+            &x_axis,
+            &panels,
+        )
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn envelope_keeps_extremes() {
+        let p: Vec<(f64, f64)> = (0..10_000)
+            .map(|k| (k as f64, if k == 5_001 { 9.0 } else { (k % 7) as f64 }))
+            .collect();
+        let e = envelope(&p, 100);
+        assert!(e.len() <= 200);
+        assert!(e.iter().any(|&(_, y)| (y - 9.0).abs() < 1e-12));
+        assert!(e.windows(2).all(|w| w[0].0 <= w[1].0));
+    }
+
+    #[test]
+    fn ticks_tell_close_values_apart() {
+        let d = tick_decimals(0.003, 6);
+        assert_ne!(tick(34.7975, d), tick(34.798, d));
+        assert_eq!(tick(2.5, tick_decimals(10.0, 6)), "2.5");
+        assert_eq!(tick(-0.0001, 2), "0");
+        assert_eq!(tick(120.0, 0), "120");
+    }
+}

@@ -1,0 +1,447 @@
+//! The run summary: one [`Report`] rendered either as text for a person
+//! or as a JSON object for scripts (the field names are documented in
+//! README.md and stable).
+
+use crate::format::{eng, pct, sci};
+use serde::Serialize;
+use sim_core::metrics::{ConductionMode, LossEnergies, Metrics};
+use sim_core::record::COL_IL;
+use sim_core::simulate::{FitReport, RunStats, SteadyInfo, SELV_LIMIT_V};
+use sim_core::{EngineKind, Scenario, SimResult};
+use std::fmt::Write as _;
+
+/// LED power above which the summary adds an eye-safety caution, W
+/// (common practice: a few hundred milliwatts of white LED light at close
+/// range is already uncomfortably bright; no published limit is applied).
+pub const BRIGHT_LED_POWER_W: f64 = 0.5;
+
+/// Total loss above which the summary adds a hot-parts caution, W
+/// (common practice: a watt in small SMD parts heats them well above
+/// ambient without copper area or airflow).
+pub const HOT_PARTS_LOSS_W: f64 = 1.0;
+
+/// Version of the JSON layout; bumped when a field changes meaning.
+pub const JSON_SCHEMA: &str = "chopwave-run-1";
+
+/// Everything `chopwave run` reports about one steady-state run.
+#[derive(Debug, Clone, Serialize)]
+pub struct Report {
+    /// Layout version, [`JSON_SCHEMA`].
+    pub schema: &'static str,
+    /// The scenario's name.
+    pub scenario: String,
+    /// The scenario's description.
+    pub description: String,
+    /// Engine used.
+    pub engine: EngineKind,
+    /// Supply open-circuit voltage of this run, V.
+    pub supply_voltage_v: f64,
+    /// The current the controller aims at, if it has one, A.
+    pub target_current_a: Option<f64>,
+    /// Steady-state figures (flattened into the top level).
+    #[serde(flatten)]
+    pub metrics: Metrics,
+    /// Each loss as a percentage of the input power, %.
+    pub losses_pct: LossEnergies,
+    /// Switch peak current (the inductor peak: in a buck the switch carries
+    /// the inductor current while on), A.
+    pub switch_current_peak_a: f64,
+    /// Diode peak current (the inductor current at turn-off), A.
+    pub diode_current_peak_a: f64,
+    /// How steady state was reached.
+    pub steady_state: SteadyInfo,
+    /// Straight-segment curve fit errors.
+    pub fit: FitReport,
+    /// Work done.
+    pub stats: RunStats,
+    /// Highest inductor current from power-on to steady state (None when
+    /// the start-up was not recorded), A.
+    pub startup_inductor_current_peak_a: Option<f64>,
+    /// Samples in the recorded steady-state waveform (rows of `--csv`).
+    pub recorded_samples: usize,
+    /// Switching cycles in the recorded steady-state waveform.
+    pub recorded_cycles: usize,
+    /// Things the engineer should look at in this design.
+    pub warnings: Vec<String>,
+    /// Safety cautions for building and testing this design.
+    pub cautions: Vec<String>,
+    /// Whether the design has an input capacitor (text layout only).
+    #[serde(skip)]
+    has_input_capacitor: bool,
+    /// Whether the design has an output capacitor (text layout only).
+    #[serde(skip)]
+    has_output_capacitor: bool,
+}
+
+impl Report {
+    /// Builds the report of a run of `scenario`.
+    pub fn new(scenario: &Scenario, r: &SimResult) -> Report {
+        let m = r.metrics;
+        let input = m.input_power_w;
+        let k = if input > 0.0 { 100.0 / input } else { 0.0 };
+        let l = m.losses_w;
+        let losses_pct = LossEnergies {
+            source_resistance: l.source_resistance * k,
+            input_capacitor_esr: l.input_capacitor_esr * k,
+            switch_conduction: l.switch_conduction * k,
+            diode_conduction: l.diode_conduction * k,
+            inductor_dcr: l.inductor_dcr * k,
+            output_capacitor_esr: l.output_capacitor_esr * k,
+            reverse_current_clamp: l.reverse_current_clamp * k,
+        };
+        let startup_peak = r.startup.as_ref().filter(|w| !w.is_empty()).map(|w| {
+            w.column(COL_IL)
+                .iter()
+                .copied()
+                .fold(f64::NEG_INFINITY, f64::max)
+        });
+        let mut warnings = r.warnings.clone();
+        if let (Some(peak), Some(isat)) = (startup_peak, scenario.inductor.saturation_current_a) {
+            if peak > isat && m.inductor_current_peak_a <= isat {
+                warnings.push(format!(
+                    "at start-up the inductor current reaches {}, above its rated saturation \
+                     current {} (steady-state peak {}): a saturating inductor lets the current \
+                     rise faster still; consider a soft start or a part rated for the start-up peak",
+                    eng(peak, "A"),
+                    eng(isat, "A"),
+                    eng(m.inductor_current_peak_a, "A")
+                ));
+            }
+        }
+        Report {
+            schema: JSON_SCHEMA,
+            scenario: r.scenario_name.clone(),
+            description: scenario.description.clone(),
+            engine: r.engine,
+            supply_voltage_v: scenario.supply.voltage_v,
+            target_current_a: scenario.target_current_a(),
+            metrics: m,
+            losses_pct,
+            switch_current_peak_a: m.inductor_current_peak_a,
+            diode_current_peak_a: m.inductor_current_peak_a,
+            steady_state: r.steady,
+            fit: r.fit,
+            stats: r.stats,
+            startup_inductor_current_peak_a: startup_peak,
+            recorded_samples: r.waveform.len(),
+            recorded_cycles: r.waveform.cycle_starts_s.len(),
+            warnings,
+            cautions: cautions(scenario, &m),
+            has_input_capacitor: scenario.input_capacitor.is_some(),
+            has_output_capacitor: scenario.output_capacitor.is_some(),
+        }
+    }
+
+    /// The report as pretty-printed JSON.
+    pub fn to_json(&self) -> String {
+        serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"))
+    }
+
+    /// The report as text for a terminal, about 60 lines.
+    pub fn to_text(&self) -> String {
+        let m = &self.metrics;
+        let mut o = String::new();
+        let engine = match self.engine {
+            EngineKind::Exact => "exact",
+            EngineKind::Reference => "reference",
+        };
+        let _ = writeln!(o, "{} — steady state ({engine} engine)", self.scenario);
+        let target = self
+            .target_current_a
+            .map(|t| format!(", controller target {}", eng(t, "A")))
+            .unwrap_or_default();
+        let _ = writeln!(
+            o,
+            "supply {}{target}, LED string {} average",
+            eng(self.supply_voltage_v, "V"),
+            eng(m.led_voltage_avg_v, "V")
+        );
+        let row = |o: &mut String, label: &str, value: String| {
+            let _ = writeln!(o, "  {label:<24}{value}");
+        };
+
+        let _ = writeln!(o, "\nLED current");
+        row(&mut o, "average", eng(m.led_current_avg_a, "A"));
+        row(
+            &mut o,
+            "ripple (peak-to-peak)",
+            format!(
+                "{}  ({:.1} % of average)",
+                eng(m.led_current_ripple_pp_a, "A"),
+                m.led_current_ripple_pct
+            ),
+        );
+        row(&mut o, "RMS", eng(m.led_current_rms_a, "A"));
+        row(
+            &mut o,
+            "min / max",
+            format!(
+                "{} / {}",
+                eng(m.led_current_min_a, "A"),
+                eng(m.led_current_max_a, "A")
+            ),
+        );
+
+        let _ = writeln!(o, "\nSwitching");
+        row(&mut o, "frequency", eng(m.switching_frequency_hz, "Hz"));
+        row(&mut o, "duty cycle", pct(m.duty));
+        row(
+            &mut o,
+            "on / off time",
+            format!("{} / {}", eng(m.on_time_s, "s"), eng(m.off_time_s, "s")),
+        );
+        let mode = match m.conduction_mode {
+            ConductionMode::Ccm => format!(
+                "CCM, valley at {} of the average inductor current",
+                pct(m.ccm_margin)
+            ),
+            ConductionMode::Dcm => format!(
+                "DCM, inductor current at zero for {} ({} of each period)",
+                eng(m.idle_time_s, "s"),
+                pct(m.idle_time_s / m.period_s)
+            ),
+            ConductionMode::Boundary => format!(
+                "boundary (CCM/DCM), valley at {} of the average",
+                pct(m.ccm_margin)
+            ),
+        };
+        row(&mut o, "conduction mode", mode);
+        row(
+            &mut o,
+            "inductor current",
+            format!(
+                "valley {}, peak {}, ripple {} p-p",
+                eng(clean_valley(m), "A"),
+                eng(m.inductor_current_peak_a, "A"),
+                eng(m.inductor_ripple_pp_a, "A")
+            ),
+        );
+        if let Some(p) = self.startup_inductor_current_peak_a {
+            row(&mut o, "start-up inductor peak", eng(p, "A"));
+        }
+
+        let _ = writeln!(o, "\nPower");
+        row(&mut o, "from the supply", eng(m.input_power_w, "W"));
+        row(&mut o, "into the LEDs", eng(m.led_power_w, "W"));
+        row(&mut o, "efficiency", pct(m.efficiency));
+        let _ = writeln!(o, "\n  {:<24}{:>10}{:>12}", "losses", "W", "% of input");
+        for (name, w, p) in loss_rows(&m.losses_w, &self.losses_pct) {
+            let _ = writeln!(o, "  {name:<24}{:>10}{:>10.2} %", eng(w, "W"), p);
+        }
+        let total_pct: f64 = loss_rows(&m.losses_w, &self.losses_pct)
+            .iter()
+            .map(|r| r.2)
+            .sum();
+        let _ = writeln!(
+            o,
+            "  {:<24}{:>10}{:>10.2} %",
+            "total",
+            eng(m.total_loss_w, "W"),
+            total_pct
+        );
+        let _ = writeln!(
+            o,
+            "  (conduction losses only: switching, gate-drive, diode-recovery and core losses \
+             are not modelled)"
+        );
+
+        let _ = writeln!(o, "\n  {:<24}{:>10}{:>10}", "part stresses", "peak", "RMS");
+        let stress = |o: &mut String, name: &str, peak: Option<f64>, rms: f64| {
+            let p = peak.map_or("—".to_string(), |p| eng(p, "A"));
+            let _ = writeln!(o, "  {name:<24}{p:>10}{:>10}", eng(rms, "A"));
+        };
+        stress(
+            &mut o,
+            "inductor",
+            Some(m.inductor_current_peak_a),
+            m.inductor_current_rms_a,
+        );
+        stress(
+            &mut o,
+            "switch",
+            Some(self.switch_current_peak_a),
+            m.switch_current_rms_a,
+        );
+        stress(
+            &mut o,
+            "diode",
+            Some(self.diode_current_peak_a),
+            m.diode_current_rms_a,
+        );
+        stress(
+            &mut o,
+            "LED string",
+            Some(m.led_current_max_a),
+            m.led_current_rms_a,
+        );
+        if self.has_input_capacitor {
+            stress(
+                &mut o,
+                "input capacitor (AC)",
+                None,
+                m.input_capacitor_ripple_rms_a,
+            );
+        }
+        if self.has_output_capacitor {
+            stress(
+                &mut o,
+                "output capacitor (AC)",
+                None,
+                m.output_capacitor_ripple_rms_a,
+            );
+        }
+        stress(&mut o, "supply", None, m.input_current_rms_a);
+        row(
+            &mut o,
+            "switch node",
+            format!(
+                "{} to {}",
+                eng(m.switch_node_min_v, "V"),
+                eng(m.switch_node_max_v, "V")
+            ),
+        );
+
+        let _ = writeln!(o, "\nModel");
+        let fit = |err: Option<f64>, n: usize| match err {
+            Some(e) => format!("within {} ({n} straight segments)", eng(e, "V")),
+            None => "exact (linear model)".to_string(),
+        };
+        row(
+            &mut o,
+            "LED curve fit error",
+            fit(self.fit.led_max_error_v, self.fit.led_segments),
+        );
+        row(
+            &mut o,
+            "diode curve fit error",
+            fit(self.fit.diode_max_error_v, self.fit.diode_segments),
+        );
+        row(
+            &mut o,
+            "energy balance residual",
+            format!("{} of the input energy", sci(m.energy_balance_residual)),
+        );
+        row(
+            &mut o,
+            "steady state after",
+            format!(
+                "{} cycles ({} simulated)",
+                self.steady_state.cycles_to_settle,
+                eng(self.steady_state.time_to_settle_s, "s")
+            ),
+        );
+        if self.steady_state.orbit_period_cycles > 1 {
+            row(
+                &mut o,
+                "orbit period",
+                format!("{} switching cycles", self.steady_state.orbit_period_cycles),
+            );
+        }
+        row(
+            &mut o,
+            "measured over",
+            format!("{} cycles", m.cycles_measured),
+        );
+
+        let _ = writeln!(o, "\nWarnings");
+        if self.warnings.is_empty() {
+            let _ = writeln!(o, "  none");
+        }
+        for w in &self.warnings {
+            let _ = writeln!(o, "  ! {w}");
+        }
+        let _ = writeln!(o, "\nCautions");
+        for c in &self.cautions {
+            let _ = writeln!(o, "  * {c}");
+        }
+        o
+    }
+}
+
+/// The inductor valley current with round-off below a millionth of the
+/// peak shown as zero (in DCM the valley is zero up to round-off), A.
+pub fn clean_valley(m: &Metrics) -> f64 {
+    let v = m.inductor_current_valley_a;
+    if v.abs() < 1e-6 * m.inductor_current_peak_a.abs() {
+        0.0
+    } else {
+        v
+    }
+}
+
+/// Loss elements with their names, W and % of input; elements that a
+/// design does not have (zero loss) are left out.
+fn loss_rows(w: &LossEnergies, p: &LossEnergies) -> Vec<(&'static str, f64, f64)> {
+    [
+        (
+            "switch conduction",
+            w.switch_conduction,
+            p.switch_conduction,
+        ),
+        ("diode conduction", w.diode_conduction, p.diode_conduction),
+        ("inductor winding (DCR)", w.inductor_dcr, p.inductor_dcr),
+        (
+            "supply resistance",
+            w.source_resistance,
+            p.source_resistance,
+        ),
+        (
+            "input capacitor ESR",
+            w.input_capacitor_esr,
+            p.input_capacitor_esr,
+        ),
+        (
+            "output capacitor ESR",
+            w.output_capacitor_esr,
+            p.output_capacitor_esr,
+        ),
+        (
+            "reverse-current clamp",
+            w.reverse_current_clamp,
+            p.reverse_current_clamp,
+        ),
+    ]
+    .into_iter()
+    .filter(|r| r.1 != 0.0)
+    .collect()
+}
+
+/// Safety cautions for a design: always the general one, plus voltage,
+/// heat and brightness cautions where they apply.
+pub fn cautions(s: &Scenario, m: &Metrics) -> Vec<String> {
+    let mut c = Vec::new();
+    let v_max = s
+        .supply
+        .input_range_v
+        .map_or(s.supply.voltage_v, |r| r.max_v.max(s.supply.voltage_v));
+    if v_max > SELV_LIMIT_V {
+        c.push(format!(
+            "HIGH VOLTAGE: the supply reaches {}, above the usual {} DC safety-extra-low-voltage \
+             limit (from memory). Contact can injure or kill: work de-energised, insulate, use \
+             an isolated supply, and have the design built and checked by qualified people under \
+             local electrical codes.",
+            eng(v_max, "V"),
+            eng(SELV_LIMIT_V, "V")
+        ));
+    }
+    if m.total_loss_w > HOT_PARTS_LOSS_W {
+        c.push(format!(
+            "HOT PARTS: {} is lost as heat in the driver; the switch, diode and inductor can \
+             get hot enough to burn. Check their temperatures on the bench.",
+            eng(m.total_loss_w, "W")
+        ));
+    }
+    if m.led_power_w > BRIGHT_LED_POWER_W {
+        c.push(format!(
+            "BRIGHT LIGHT: {} into the LEDs. Do not look into them at close range; use a \
+             diffuser or filter when testing.",
+            eng(m.led_power_w, "W")
+        ));
+    }
+    c.push(
+        "A simulation is no substitute for bench measurement and certification. Follow local \
+         codes and licensed practice."
+            .into(),
+    );
+    c
+}
