@@ -1,1 +1,3 @@
 //! Cross-crate tests.
+
+mod reference;
