@@ -324,3 +324,38 @@ fn reference_reports_an_unreachable_peak() {
         other => panic!("expected IntervalTooLong, got {other:?}"),
     }
 }
+
+// The recorded reference waveform is consistent with its own measurements
+// and with the exact LED curve: time runs forward, the inductor current
+// never exceeds the measured peak, and every sample's LED voltage is the
+// exponential curve's voltage at its LED current (no output capacitor, so
+// the two are tied by v = count·(n·Vt·ln(1 + i/Is) + Rs·i)).
+#[test]
+fn reference_waveform_follows_the_exponential_curve() {
+    use sim_core::devices::ExpDevice;
+    use sim_core::record::{COL_IL, COL_ILED, COL_SWITCH, COL_TIME, COL_VLED};
+    let s = circuits::ccm_constant_off_time();
+    let r = run(&s, EngineKind::Reference);
+    let w = &r.waveform;
+    assert!(w.len() > 100, "{} samples", w.len());
+    let t = w.column(COL_TIME);
+    assert!(t.windows(2).into_iter().all(|p| p[1] >= p[0]));
+    let peak = r.metrics.inductor_current_peak_a;
+    let il = w.column(COL_IL);
+    assert!(il.iter().all(|&i| i <= peak + 1e-9 * peak));
+    assert!(
+        il.iter().any(|&i| i > peak - 1e-6 * peak),
+        "peak {peak} not sampled"
+    );
+    let dev = ExpDevice::from_load(&s.load).expect("exponential load");
+    for row in w.data.rows() {
+        assert!(row[COL_SWITCH] == 0.0 || row[COL_SWITCH] == 1.0);
+        let v = dev.voltage_v(row[COL_ILED]);
+        assert!(
+            (row[COL_VLED] - v).abs() < 1e-9 * v,
+            "{} V at {} A",
+            row[COL_VLED],
+            row[COL_ILED]
+        );
+    }
+}

@@ -39,6 +39,7 @@ use crate::scenario::{Diode, Load, Scenario};
 use crate::simulate::{state_scales, CycleEngine, RunStats};
 use nalgebra::SVector;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
+use ode_solvers::dop_shared::IntegrationError;
 use ode_solvers::{Dopri5, OutputType, System};
 
 /// Relative tolerance of the integrator.
@@ -753,7 +754,13 @@ impl ReferenceEngine {
         );
         let res = stepper.integrate_with_continuous_output_model(&mut dense);
         let stats = res.map_err(|e| SimError::Integrator {
-            time_s: self.t,
+            time_s: self.t
+                + ctx.t_s
+                    * match e {
+                        IntegrationError::MaxNumStepReached { x, .. }
+                        | IntegrationError::StepSizeUnderflow { x }
+                        | IntegrationError::StiffnessDetected { x } => x,
+                    },
             reason: format!(
                 "{e} (topology {}, time in units of {:.3e} s)",
                 mode.name(),
