@@ -179,44 +179,46 @@ struct Sig {
 
 impl Model {
     fn from_scenario(s: &Scenario, floor_a: f64) -> Model {
-        let led = match s.load {
-            Load::LedExponential { .. } => {
-                Curve::Exp(ExpDevice::from_load(&s.load).unwrap_or(ExpDevice {
-                    count: 1.0,
-                    saturation_current_a: 1e-18,
-                    n_vt_v: 0.05,
-                    series_resistance_ohm: 0.0,
-                }))
-            }
-            Load::LedKnee {
-                count,
-                knee_voltage_v,
-                dynamic_resistance_ohm,
-            } => Curve::Line {
+        let led = match (ExpDevice::from_load(&s.load), s.load) {
+            (Some(d), _) => Curve::Exp(d),
+            (
+                None,
+                Load::LedKnee {
+                    count,
+                    knee_voltage_v,
+                    dynamic_resistance_ohm,
+                },
+            ) => Curve::Line {
                 knee_v: f64::from(count) * knee_voltage_v,
                 r_ohm: f64::from(count) * dynamic_resistance_ohm,
             },
-            Load::Resistor { resistance_ohm } => Curve::Line {
+            (None, Load::Resistor { resistance_ohm }) => Curve::Line {
                 knee_v: 0.0,
                 r_ohm: resistance_ohm,
             },
+            // `from_load` gives a curve for every exponential load.
+            (None, Load::LedExponential { .. }) => Curve::Line {
+                knee_v: 0.0,
+                r_ohm: 0.0,
+            },
         };
-        let diode = match s.diode {
-            Diode::FixedDrop {
-                forward_voltage_v,
-                series_resistance_ohm,
-            } => Curve::Line {
+        let diode = match (ExpDevice::from_diode(&s.diode), s.diode) {
+            (Some(d), _) => Curve::Exp(d),
+            (
+                None,
+                Diode::FixedDrop {
+                    forward_voltage_v,
+                    series_resistance_ohm,
+                },
+            ) => Curve::Line {
                 knee_v: forward_voltage_v,
                 r_ohm: series_resistance_ohm,
             },
-            Diode::Shockley { .. } => {
-                Curve::Exp(ExpDevice::from_diode(&s.diode).unwrap_or(ExpDevice {
-                    count: 1.0,
-                    saturation_current_a: 1e-9,
-                    n_vt_v: 0.026,
-                    series_resistance_ohm: 0.0,
-                }))
-            }
+            // `from_diode` gives a curve for every Shockley diode.
+            (None, Diode::Shockley { .. }) => Curve::Line {
+                knee_v: 0.0,
+                r_ohm: 0.0,
+            },
         };
         // A capacitor with no ESR straight on an ideal source does nothing
         // (same rule as the exact engine).
@@ -631,7 +633,9 @@ impl ReferenceEngine {
         }
     }
 
-    /// Runs one switching cycle: from this turn-on to the next.
+    /// Runs one switching cycle: from this turn-on to the next. Integrals,
+    /// energies and extremes go into `totals` and samples into `rec` when
+    /// given.
     pub fn run_cycle(
         &mut self,
         mut totals: Option<&mut Totals>,
@@ -1253,5 +1257,35 @@ mod tests {
             (0.4 + 0.021) * 0.7,
             max_relative = 1e-12
         );
+    }
+    #[test]
+    fn knee_crossing_is_located_on_the_dense_output() {
+        // Illustrative: 24 V into five 2.7 V knees behind a 1 µF, 50 mΩ
+        // capacitor; from power-on the output node rises through 13.5 V.
+        let mut s = template();
+        s.supply.voltage_v = 24.0;
+        s.load = Load::LedKnee {
+            count: 5,
+            knee_voltage_v: 2.7,
+            dynamic_resistance_ohm: 0.4,
+        };
+        s.output_capacitor = Some(Capacitor {
+            capacitance_f: 1e-6,
+            esr_ohm: 0.05,
+        });
+        let mut e = ReferenceEngine::new(&s);
+        let (evs, n, _) = e.events();
+        let knee: Vec<Event> = evs[..n]
+            .iter()
+            .copied()
+            .filter(|ev| matches!(ev.kind, EventKind::Knee { .. }))
+            .collect();
+        assert_eq!(knee.len(), 1);
+        let seg = e.integrate(&knee, 100.0).unwrap();
+        assert_eq!(seg.fired, Some(0));
+        let sig = e.ctx.sig(e.mode, &seg.y);
+        assert!((sig.vo_open - 13.5).abs() < 1e-9, "{}", sig.vo_open);
+        // The crossing lies inside the last accepted step, not at its end.
+        assert!(seg.points.len() > 2);
     }
 }

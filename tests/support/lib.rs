@@ -160,8 +160,9 @@ pub fn shockley_diode_dcm() -> Scenario {
     validated(s)
 }
 
-/// A linear (knee) LED string with an output capacitor: the output node
-/// crosses the knee every cycle, so the LED conducts only part of it.
+/// A linear (knee) LED string with an output capacitor: the piecewise
+/// LED current behind the ESR, and at start-up the output node rising
+/// through the knee (in steady state the string conducts throughout).
 pub fn knee_string_with_output_capacitor() -> Scenario {
     let mut s = ccm_constant_off_time();
     s.name = "knee-output-cap".into();
@@ -219,6 +220,25 @@ pub fn ideal_constant_off_time(
         off_time_s,
         delay_s: 0.0,
         min_on_time_s: 0.0,
+    };
+    validated(s)
+}
+
+/// Open-loop fixed duty (200 kHz, 45 %) into a 12 Ω resistor from 24 V
+/// with a 2.2 µF output capacitor: the linear-load path of both engines.
+pub fn fixed_duty_resistor() -> Scenario {
+    let mut s = ccm_constant_off_time();
+    s.name = "fixed-duty-resistor".into();
+    s.load = Load::Resistor {
+        resistance_ohm: 12.0,
+    };
+    s.output_capacitor = Some(Capacitor {
+        capacitance_f: 2.2e-6,
+        esr_ohm: 0.03,
+    });
+    s.controller = ControllerSpec::FixedDuty {
+        frequency_hz: 200e3,
+        duty: 0.45,
     };
     validated(s)
 }
