@@ -2,4 +2,5 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod reference;
 mod textbook;

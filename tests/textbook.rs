@@ -329,8 +329,16 @@ fn event_times_of_a_lossy_buck_to_a_picosecond() {
     let (a_off, tau_off) = (-(v_f + v_knee) / r_off, l / r_off);
     let i_v = a_off + (i_pk - a_off) * (-t_off / tau_off).exp();
     let t_on = tau_on * ((a_on - i_v) / (a_on - i_pk)).ln();
-    assert!((m.on_time_s - t_on).abs() < 1e-12, "on-time {} vs {t_on}", m.on_time_s);
-    assert!((m.period_s - (t_on + t_off)).abs() < 1e-12, "period {}", m.period_s);
+    assert!(
+        (m.on_time_s - t_on).abs() < 1e-12,
+        "on-time {} vs {t_on}",
+        m.on_time_s
+    );
+    assert!(
+        (m.period_s - (t_on + t_off)).abs() < 1e-12,
+        "period {}",
+        m.period_s
+    );
     assert_relative_eq!(m.inductor_current_valley_a, i_v, max_relative = 1e-10);
     assert_relative_eq!(m.inductor_current_peak_a, i_pk, max_relative = 1e-12);
 }

@@ -37,7 +37,7 @@ pub mod error;
 pub mod metrics;
 pub mod propagate;
 pub mod record;
-// pub mod reference;
+pub mod reference;
 pub mod scenario;
 pub mod simulate;
 pub mod spectral;

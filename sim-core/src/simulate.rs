@@ -195,9 +195,8 @@ pub fn simulate_with_progress(
             Ok(r)
         }
         EngineKind::Reference => {
-            // REFERENCE-WIRING
-            let _ = progress;
-            todo!()
+            let mut e = crate::reference::ReferenceEngine::new(s);
+            drive(&mut e, s, opts, progress)
         }
     }
 }

@@ -1,11 +1,13 @@
 //! Reference circuits shared by the cross-crate tests and the benchmarks.
 //!
-//! Each builder returns a validated-shape [`Scenario`] whose part values are
-//! illustrative (chosen to exercise one behaviour), not a real product.
+//! Every part value here is **illustrative**: plausible for small LED
+//! drivers, chosen to exercise one behaviour each, not taken from any
+//! particular product or datasheet.
 #![allow(missing_docs)] // Builders are self-describing test fixtures.
 
 use sim_core::scenario::{
-    Capacitor, ControllerSpec, Diode, Inductor, Load, Scenario, SimSettings, Supply, Switch,
+    template, Capacitor, ControllerSpec, Diode, Inductor, Load, Scenario, SimSettings, Supply,
+    Switch,
 };
 
 /// A lossless buck: no source, switch, diode, winding or capacitor
@@ -141,4 +143,242 @@ pub fn realistic_set() -> Vec<Scenario> {
         lamp_12v_hysteretic(),
         lamp_12v_shockley(),
     ]
+}
+
+// ---------------------------------------------------------------------------
+// Fixtures of the exact-vs-reference cross-check.
+
+/// A string of `count` white LEDs on the exponential model (illustrative
+/// junction values: Is 1e-18 A, n 2.2, Rs 0.3 Ω, 70 °C junction).
+pub fn white_leds(count: u32) -> Load {
+    Load::LedExponential {
+        count,
+        saturation_current_a: 1e-18,
+        emission_coefficient: 2.2,
+        series_resistance_ohm: 0.3,
+        junction_temperature_c: 70.0,
+    }
+}
+
+/// An illustrative small Schottky diode on the Shockley model
+/// (Is 5 µA, n 1.05, Rs 30 mΩ, 70 °C).
+pub fn schottky() -> Diode {
+    Diode::Shockley {
+        saturation_current_a: 5e-6,
+        emission_coefficient: 1.05,
+        series_resistance_ohm: 0.03,
+        temperature_c: 70.0,
+    }
+}
+
+/// Checks a built scenario the way a loaded one is checked.
+fn validated(s: Scenario) -> Scenario {
+    if let Err(e) = s.validate() {
+        panic!("reference circuit {} does not validate: {e}", s.name);
+    }
+    s
+}
+
+/// CCM constant off-time with five exponential LEDs from 24 V, no output
+/// capacitor, no delays.
+pub fn ccm_constant_off_time() -> Scenario {
+    let mut s = template();
+    s.name = "ccm-cot".into();
+    s.supply = Supply {
+        voltage_v: 24.0,
+        source_resistance_ohm: 0.05,
+        input_range_v: None,
+    };
+    s.switch = Switch {
+        on_resistance_ohm: 0.1,
+    };
+    s.diode = Diode::FixedDrop {
+        forward_voltage_v: 0.45,
+        series_resistance_ohm: 0.05,
+    };
+    s.inductor = Inductor {
+        inductance_h: 47e-6,
+        dcr_ohm: 0.12,
+        saturation_current_a: None,
+    };
+    s.load = white_leds(5);
+    s.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: 1.0,
+        off_time_s: 1.5e-6,
+        delay_s: 0.0,
+        min_on_time_s: 0.0,
+    };
+    validated(s)
+}
+
+/// DCM: a small inductor and a long off-time, three exponential LEDs from
+/// 12 V; the current rests at zero for most of the off-time.
+pub fn dcm_long_off_time() -> Scenario {
+    let mut s = template();
+    s.name = "dcm-cot".into();
+    s.inductor = Inductor {
+        inductance_h: 10e-6,
+        dcr_ohm: 0.05,
+        saturation_current_a: None,
+    };
+    s.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: 0.9,
+        off_time_s: 6e-6,
+        delay_s: 0.0,
+        min_on_time_s: 0.0,
+    };
+    validated(s)
+}
+
+/// The starter design with a 4.7 µF, 20 mΩ capacitor across the LEDs
+/// (constant off-time with the template's delay and minimum on-time).
+pub fn with_output_capacitor() -> Scenario {
+    let mut s = template();
+    s.name = "cot-output-cap".into();
+    s.output_capacitor = Some(Capacitor {
+        capacitance_f: 4.7e-6,
+        esr_ohm: 0.02,
+    });
+    validated(s)
+}
+
+/// Hysteretic control between 0.6 A and 0.8 A with a 100 ns turn-off
+/// delay, five exponential LEDs from 24 V.
+pub fn hysteretic() -> Scenario {
+    let mut s = ccm_constant_off_time();
+    s.name = "hysteretic".into();
+    s.inductor = Inductor {
+        inductance_h: 100e-6,
+        dcr_ohm: 0.2,
+        saturation_current_a: None,
+    };
+    s.controller = ControllerSpec::Hysteretic {
+        upper_current_a: 0.8,
+        lower_current_a: 0.6,
+        turn_off_delay_s: 100e-9,
+        turn_on_delay_s: 0.0,
+    };
+    validated(s)
+}
+
+/// Constant off-time where the minimum on-time (700 ns) outlasts the
+/// natural on-time (about 0.5 µs), plus a 100 ns turn-off delay: the
+/// comparator trips at the end of blanking.
+pub fn delay_and_min_on_time() -> Scenario {
+    let mut s = ccm_constant_off_time();
+    s.name = "delay-min-on".into();
+    s.inductor = Inductor {
+        inductance_h: 22e-6,
+        dcr_ohm: 0.06,
+        saturation_current_a: None,
+    };
+    s.load = white_leds(3);
+    s.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: 0.8,
+        off_time_s: 1e-6,
+        delay_s: 100e-9,
+        min_on_time_s: 700e-9,
+    };
+    validated(s)
+}
+
+/// The starter design with a Shockley (Schottky) freewheel diode.
+pub fn shockley_diode() -> Scenario {
+    let mut s = template();
+    s.name = "shockley-ccm".into();
+    s.diode = schottky();
+    validated(s)
+}
+
+/// The DCM design with a Shockley diode: with an exponential LED string
+/// and no output capacitor the diode current only tends to zero
+/// asymptotically in the reference engine (its current floor ends it).
+pub fn shockley_diode_dcm() -> Scenario {
+    let mut s = dcm_long_off_time();
+    s.name = "shockley-dcm".into();
+    s.diode = schottky();
+    validated(s)
+}
+
+/// A linear (knee) LED string with an output capacitor: the piecewise
+/// LED current behind the ESR, and at start-up the output node rising
+/// through the knee (in steady state the string conducts throughout).
+pub fn knee_string_with_output_capacitor() -> Scenario {
+    let mut s = ccm_constant_off_time();
+    s.name = "knee-output-cap".into();
+    s.load = Load::LedKnee {
+        count: 5,
+        knee_voltage_v: 2.7,
+        dynamic_resistance_ohm: 0.4,
+    };
+    s.output_capacitor = Some(Capacitor {
+        capacitance_f: 1e-6,
+        esr_ohm: 0.05,
+    });
+    validated(s)
+}
+
+/// An ideal constant off-time buck: ideal source, no input capacitor,
+/// lossless switch, diode and inductor, a constant-voltage LED string
+/// (`count` × `knee_v`, zero dynamic resistance), no output capacitor.
+pub fn ideal_constant_off_time(
+    supply_v: f64,
+    count: u32,
+    knee_v: f64,
+    inductance_h: f64,
+    peak_a: f64,
+    off_time_s: f64,
+) -> Scenario {
+    let mut s = template();
+    s.name = "ideal-cot".into();
+    s.supply = Supply {
+        voltage_v: supply_v,
+        source_resistance_ohm: 0.0,
+        input_range_v: None,
+    };
+    s.input_capacitor = None;
+    s.switch = Switch {
+        on_resistance_ohm: 0.0,
+    };
+    s.diode = Diode::FixedDrop {
+        forward_voltage_v: 0.0,
+        series_resistance_ohm: 0.0,
+    };
+    s.inductor = Inductor {
+        inductance_h,
+        dcr_ohm: 0.0,
+        saturation_current_a: None,
+    };
+    s.output_capacitor = None;
+    s.load = Load::LedKnee {
+        count,
+        knee_voltage_v: knee_v,
+        dynamic_resistance_ohm: 0.0,
+    };
+    s.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: peak_a,
+        off_time_s,
+        delay_s: 0.0,
+        min_on_time_s: 0.0,
+    };
+    validated(s)
+}
+
+/// Open-loop fixed duty (200 kHz, 45 %) into a 12 Ω resistor from 24 V
+/// with a 2.2 µF output capacitor: the linear-load path of both engines.
+pub fn fixed_duty_resistor() -> Scenario {
+    let mut s = ccm_constant_off_time();
+    s.name = "fixed-duty-resistor".into();
+    s.load = Load::Resistor {
+        resistance_ohm: 12.0,
+    };
+    s.output_capacitor = Some(Capacitor {
+        capacitance_f: 2.2e-6,
+        esr_ohm: 0.03,
+    });
+    s.controller = ControllerSpec::FixedDuty {
+        frequency_hz: 200e3,
+        duty: 0.45,
+    };
+    validated(s)
 }
