@@ -65,6 +65,9 @@ pub struct Report {
     pub warnings: Vec<String>,
     /// Safety cautions for building and testing this design.
     pub cautions: Vec<String>,
+    /// The controller in words (text layout only).
+    #[serde(skip)]
+    controller: String,
     /// Whether the design has an input capacitor (text layout only).
     #[serde(skip)]
     has_input_capacitor: bool,
@@ -79,16 +82,7 @@ impl Report {
         let m = r.metrics;
         let input = m.input_power_w;
         let k = if input > 0.0 { 100.0 / input } else { 0.0 };
-        let l = m.losses_w;
-        let losses_pct = LossEnergies {
-            source_resistance: l.source_resistance * k,
-            input_capacitor_esr: l.input_capacitor_esr * k,
-            switch_conduction: l.switch_conduction * k,
-            diode_conduction: l.diode_conduction * k,
-            inductor_dcr: l.inductor_dcr * k,
-            output_capacitor_esr: l.output_capacitor_esr * k,
-            reverse_current_clamp: l.reverse_current_clamp * k,
-        };
+        let losses_pct = m.losses_w.scaled(k);
         let startup_peak = r.startup.as_ref().filter(|w| !w.is_empty()).map(|w| {
             w.column(COL_IL)
                 .iter()
@@ -127,6 +121,7 @@ impl Report {
             recorded_cycles: r.waveform.cycle_starts_s.len(),
             warnings,
             cautions: cautions(scenario, &m),
+            controller: controller_words(&scenario.controller),
             has_input_capacitor: scenario.input_capacitor.is_some(),
             has_output_capacitor: scenario.output_capacitor.is_some(),
         }
@@ -146,14 +141,11 @@ impl Report {
             EngineKind::Reference => "reference",
         };
         let _ = writeln!(o, "{} — steady state ({engine} engine)", self.scenario);
-        let target = self
-            .target_current_a
-            .map(|t| format!(", controller target {}", eng(t, "A")))
-            .unwrap_or_default();
         let _ = writeln!(
             o,
-            "supply {}{target}, LED string {} average",
+            "supply {}, {}, LED string {} average",
             eng(self.supply_voltage_v, "V"),
+            self.controller,
             eng(m.led_voltage_avg_v, "V")
         );
         let row = |o: &mut String, label: &str, value: String| {
@@ -303,7 +295,11 @@ impl Report {
 
         let _ = writeln!(o, "\nModel");
         let fit = |err: Option<f64>, n: usize| match err {
-            Some(e) => format!("within {} ({n} straight segments)", eng(e, "V")),
+            Some(e) => format!(
+                "within {} ({n} straight segment{})",
+                eng(e, "V"),
+                if n == 1 { "" } else { "s" }
+            ),
             None => "exact (linear model)".to_string(),
         };
         row(
@@ -444,4 +440,34 @@ pub fn cautions(s: &Scenario, m: &Metrics) -> Vec<String> {
             .into(),
     );
     c
+}
+
+/// The controller and its settings in a few words.
+fn controller_words(c: &sim_core::scenario::ControllerSpec) -> String {
+    use sim_core::scenario::ControllerSpec as C;
+    match *c {
+        C::ConstantOffTime {
+            peak_current_a,
+            off_time_s,
+            ..
+        } => format!(
+            "constant off-time {} with peak threshold {}",
+            eng(off_time_s, "s"),
+            eng(peak_current_a, "A")
+        ),
+        C::Hysteretic {
+            upper_current_a,
+            lower_current_a,
+            ..
+        } => format!(
+            "hysteretic between {} and {}",
+            eng(lower_current_a, "A"),
+            eng(upper_current_a, "A")
+        ),
+        C::FixedDuty { frequency_hz, duty } => format!(
+            "fixed duty {} at {}",
+            pct(duty),
+            eng(frequency_hz, "Hz")
+        ),
+    }
 }

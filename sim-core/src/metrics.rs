@@ -120,7 +120,8 @@ impl LossEnergies {
             + self.reverse_current_clamp
     }
 
-    fn scaled(&self, k: f64) -> LossEnergies {
+    /// Every entry multiplied by `k` (e.g. 1/time for watts).
+    pub fn scaled(&self, k: f64) -> LossEnergies {
         LossEnergies {
             source_resistance: self.source_resistance * k,
             input_capacitor_esr: self.input_capacitor_esr * k,
