@@ -464,10 +464,8 @@ fn controller_words(c: &sim_core::scenario::ControllerSpec) -> String {
             eng(lower_current_a, "A"),
             eng(upper_current_a, "A")
         ),
-        C::FixedDuty { frequency_hz, duty } => format!(
-            "fixed duty {} at {}",
-            pct(duty),
-            eng(frequency_hz, "Hz")
-        ),
+        C::FixedDuty { frequency_hz, duty } => {
+            format!("fixed duty {} at {}", pct(duty), eng(frequency_hz, "Hz"))
+        }
     }
 }

@@ -1,39 +1,25 @@
-//! Quick look at one run and the per-cycle cost (development aid).
+//! Development aid: per-cycle cost of the exact engine on a few designs.
 use sim_core::engine::ExactEngine;
-use sim_core::scenario::template;
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::scenario::{template, Capacitor, ControllerSpec};
+
 fn main() {
-    let mut s = template();
-    s.inductor.inductance_h = 68e-6;
-    let r = simulate(&s, &RunOptions::default()).unwrap();
-    println!("{:#?}", r.metrics);
-    println!("{:#?} {:#?} {:#?}", r.steady, r.fit, r.stats);
-    {
-        let mut e = ExactEngine::new(&s);
-        for _ in 0..50 {
-            e.run_cycle(None, None).unwrap();
-        }
-        let c = e.circuit.led;
-        let d = e.circuit.led_exact.unwrap();
-        println!(
-            "segments {} v0 {:?} r {:?} up {:?}",
-            c.segments,
-            &c.v0_v[..c.segments],
-            &c.r_ohm[..c.segments],
-            &c.upper_a[..c.segments]
-        );
-        for k in 0..=20 {
-            let i = 0.5 + 0.02 * k as f64;
-            println!("  i {i:.3} err {:+.3e}", c.voltage_v(i) - d.voltage_v(i));
-        }
-    }
+    let s = template();
     let mut variants = vec![("template", s.clone())];
     let mut co = s.clone();
-    co.output_capacitor = Some(sim_core::scenario::Capacitor {
+    co.output_capacitor = Some(Capacitor {
         capacitance_f: 2.2e-6,
         esr_ohm: 0.01,
     });
     variants.push(("with cout", co));
+    let mut dcm = s.clone();
+    dcm.inductor.inductance_h = 6.8e-6;
+    dcm.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: 0.8,
+        off_time_s: 3e-6,
+        delay_s: 0.0,
+        min_on_time_s: 0.0,
+    };
+    variants.push(("dcm", dcm));
     for (name, s) in variants {
         let mut e = ExactEngine::new(&s);
         for _ in 0..100 {
@@ -47,12 +33,12 @@ fn main() {
         }
         let dt = t.elapsed().as_secs_f64() / n as f64;
         println!(
-            "{name}: {:.2} us/cycle, {:.1} exps/cycle, {:.1} intervals/cycle",
+            "{name}: {:.2} us/cycle, {:.1} exps/cycle, {:.1} intervals/cycle, {} segments, {} refits",
             dt * 1e6,
             (e.work.exponentials - x0) as f64 / n as f64,
-            (e.intervals - i0) as f64 / n as f64
+            (e.intervals - i0) as f64 / n as f64,
+            e.circuit.led.segments,
+            e.refits
         );
     }
 }
-#[allow(dead_code)]
-fn debug_fit() {}

@@ -214,27 +214,27 @@ impl ExactEngine {
         }
     }
 
-    /// The linear model of a region, and its decomposition, from the cache.
-    fn model(&mut self, region: Region) -> (Linear, Option<Spectral>) {
+    /// The cache slot holding a region's linear model and decomposition,
+    /// filling it if needed.
+    fn model_slot(&mut self, region: Region) -> usize {
         let generation = self.refits;
-        if let Some(e) = self
-            .cache
-            .iter()
-            .flatten()
-            .find(|e| e.region == region && e.generation == generation)
-        {
-            return (e.lin, e.spectral);
+        if let Some(k) = self.cache.iter().position(|e| {
+            e.as_ref()
+                .is_some_and(|e| e.region == region && e.generation == generation)
+        }) {
+            return k;
         }
         let lin = self.circuit.linearize(region);
         let spectral = Spectral::new(&lin.m);
-        self.cache[self.cache_next] = Some(CacheEntry {
+        let k = self.cache_next;
+        self.cache[k] = Some(CacheEntry {
             region,
             generation,
             lin,
             spectral,
         });
         self.cache_next = (self.cache_next + 1) % CACHE_SIZE;
-        (lin, spectral)
+        k
     }
 
     /// Simulates up to the next event; returns whether the switch turned on.
@@ -243,11 +243,33 @@ impl ExactEngine {
         totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
+        let slot = self.model_slot(self.region);
+        // Borrow the cached model without copying it: the cache is moved
+        // out for the interval (an empty Vec allocates nothing) and back.
+        let cache = std::mem::take(&mut self.cache);
+        let result = match &cache[slot] {
+            Some(entry) => self.interval_with(&entry.lin, entry.spectral.as_ref(), totals, rec),
+            None => {
+                let lin = self.circuit.linearize(self.region);
+                self.interval_with(&lin, None, totals, rec)
+            }
+        };
+        self.cache = cache;
+        result
+    }
+
+    /// [`Self::interval`] with the region's model at hand.
+    fn interval_with(
+        &mut self,
+        lin: &Linear,
+        spectral: Option<&Spectral>,
+        totals: Option<&mut Totals>,
+        rec: Option<&mut Recorder>,
+    ) -> Result<bool, SimError> {
         let region = self.region;
-        let (lin, spectral) = self.model(region);
         let flow = Flow {
             m: &lin.m,
-            spectral: spectral.as_ref(),
+            spectral,
         };
         let z0 = aug(&self.x);
         let one = {
@@ -267,25 +289,25 @@ impl ExactEngine {
                 one * w.level_a - il_row
             };
             threshold_slot = Some(n);
-            Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::Controller);
+            Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Controller);
         }
         let has_co = self.circuit.output_cap.is_some();
         let led = self.circuit.led;
         let diode = self.circuit.diode;
         if region.conducting {
             if !region.switch_on {
-                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, &lin, Action::DiodeOff);
+                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, lin, Action::DiodeOff);
                 let k = region.diode_segment as usize;
                 if k > 0 {
                     let row = one * diode.upper_a[k - 1] - il_row;
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::DiodeDown);
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::DiodeDown);
                 }
                 if k + 1 < diode.segments {
                     let row = il_row - one * diode.upper_a[k];
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::DiodeUp);
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::DiodeUp);
                 }
             } else if !has_co {
-                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, &lin, Action::Block);
+                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, lin, Action::Block);
             }
         } else if region.switch_on && !has_co {
             let cond = Region {
@@ -299,7 +321,7 @@ impl ExactEngine {
                 row[j] = lc.m[(X_IL, j)];
             }
             row[X_IL] = 0.0;
-            Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::Unblock);
+            Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Unblock);
         }
         let i_led_row = lin.row(Signal::LedCurrent);
         match (has_co, region.led_segment) {
@@ -307,22 +329,22 @@ impl ExactEngine {
                 let k = k as usize;
                 if k > 0 {
                     let row = one * led.upper_a[k - 1] - il_row;
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedDown);
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
                 }
                 if k + 1 < led.segments {
                     let row = il_row - one * led.upper_a[k];
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedUp);
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedUp);
                 }
             }
             (true, None) => {
                 let row = lin.row(Signal::LedVoltage) - one * led.knee_v();
-                Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedOn);
+                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedOn);
             }
             (true, Some(k)) => {
                 let k = k as usize;
                 if k > 0 {
                     let row = one * led.upper_a[k - 1] - i_led_row;
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedDown);
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
                 } else {
                     Self::push_event(
                         &mut evs,
@@ -335,7 +357,7 @@ impl ExactEngine {
                 }
                 if k + 1 < led.segments {
                     let row = i_led_row - one * led.upper_a[k];
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, &lin, Action::LedUp);
+                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedUp);
                 }
             }
             _ => {}
@@ -419,11 +441,11 @@ impl ExactEngine {
 
         if dt > 0.0 {
             if let Some(tot) = totals {
-                self.accumulate(&flow, tot, &lin, region, &z0, &z1, dt);
+                self.accumulate(&flow, tot, lin, region, &z0, &z1, dt);
             }
             if let Some(r) = rec {
                 if r.wants_interval() {
-                    self.record(r, &flow, &lin, &z0, dt);
+                    self.record(r, &flow, lin, &z0, dt);
                 }
             }
         }

@@ -21,6 +21,16 @@ pub struct Spectral {
     lambda: CVector,
     v: CMatrix,
     w: CMatrix,
+    /// The same in real arithmetic when every eigenvalue is real.
+    real: Option<RealSpectral>,
+}
+
+/// A diagonalization with real eigenvalues and eigenvectors.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct RealSpectral {
+    lambda: [f64; N_AUG],
+    v: AugMatrix,
+    w: AugMatrix,
 }
 
 impl Spectral {
@@ -89,12 +99,27 @@ impl Spectral {
         if err.is_nan() || err > 1e-11 * norm {
             return None;
         }
-        Some(Spectral { lambda, v, w })
+        let real = (lambda.iter().all(|l| l.im == 0.0)
+            && v.iter().all(|c| c.im == 0.0)
+            && w.iter().all(|c| c.im == 0.0))
+        .then(|| RealSpectral {
+            lambda: [lambda[0].re, lambda[1].re, lambda[2].re, lambda[3].re],
+            v: v.map(|c| c.re),
+            w: w.map(|c| c.re),
+        });
+        Some(Spectral { lambda, v, w, real })
     }
 
     /// `e^{M t} z`.
     #[inline]
     pub fn advance(&self, t: f64, z: &Aug) -> Aug {
+        if let Some(r) = &self.real {
+            let mut c = r.w * z;
+            for k in 0..N_AUG {
+                c[k] *= (r.lambda[k] * t).exp();
+            }
+            return r.v * c;
+        }
         let zc: CVector = z.map(|x| Complex::new(x, 0.0));
         let mut c = self.w * zc;
         for k in 0..N_AUG {
