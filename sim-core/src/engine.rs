@@ -351,7 +351,7 @@ impl ExactEngine {
                         &mut acts,
                         &mut n,
                         -i_led_row,
-                        &lin,
+                        lin,
                         Action::LedOff,
                     );
                 }
