@@ -7,30 +7,16 @@
 //! a one-run ratio (reference time / exact time, same binary, same
 //! scenario, back to back) is printed for each scenario.
 
+use chopwave_suite::{allocations, CountingAlloc};
 use criterion::{criterion_group, criterion_main, Criterion};
 use sim_core::engine::ExactEngine;
 use sim_core::reference::ReferenceEngine;
 use sim_core::simulate::CycleEngine;
-use std::alloc::{GlobalAlloc, Layout, System};
 use std::hint::black_box;
-use std::sync::atomic::{AtomicU64, Ordering};
 use std::time::{Duration, Instant};
 
-struct Counting;
-static ALLOCS: AtomicU64 = AtomicU64::new(0);
-
-unsafe impl GlobalAlloc for Counting {
-    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        ALLOCS.fetch_add(1, Ordering::Relaxed);
-        unsafe { System.alloc(layout) }
-    }
-    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
-        unsafe { System.dealloc(ptr, layout) }
-    }
-}
-
 #[global_allocator]
-static GLOBAL: Counting = Counting;
+static GLOBAL: CountingAlloc = CountingAlloc;
 
 fn settled<E: CycleEngine>(mut e: E, cycles: usize) -> E {
     for _ in 0..cycles {
@@ -40,11 +26,11 @@ fn settled<E: CycleEngine>(mut e: E, cycles: usize) -> E {
 }
 
 fn allocations_per_cycle<E: CycleEngine>(e: &mut E, cycles: u64) -> f64 {
-    let before = ALLOCS.load(Ordering::Relaxed);
+    let before = allocations();
     for _ in 0..cycles {
         e.run_cycle(None, None).expect("cycle");
     }
-    (ALLOCS.load(Ordering::Relaxed) - before) as f64 / cycles as f64
+    (allocations() - before) as f64 / cycles as f64
 }
 
 fn per_cycle(c: &mut Criterion) {

@@ -4,28 +4,10 @@
 //! allocations interfere) counts heap allocations while the engine runs
 //! cycles after warm-up.
 
-use std::alloc::{GlobalAlloc, Layout, System};
-use std::sync::atomic::{AtomicU64, Ordering};
-
-struct Counting;
-static ALLOCS: AtomicU64 = AtomicU64::new(0);
-
-unsafe impl GlobalAlloc for Counting {
-    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        ALLOCS.fetch_add(1, Ordering::Relaxed);
-        unsafe { System.alloc(layout) }
-    }
-    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
-        unsafe { System.dealloc(ptr, layout) }
-    }
-    unsafe fn realloc(&self, ptr: *mut u8, layout: Layout, new_size: usize) -> *mut u8 {
-        ALLOCS.fetch_add(1, Ordering::Relaxed);
-        unsafe { System.realloc(ptr, layout, new_size) }
-    }
-}
+use chopwave_suite::{allocations, CountingAlloc};
 
 #[global_allocator]
-static GLOBAL: Counting = Counting;
+static GLOBAL: CountingAlloc = CountingAlloc;
 
 #[test]
 fn exact_engine_cycles_allocate_nothing() {
@@ -37,18 +19,15 @@ fn exact_engine_cycles_allocate_nothing() {
             e.run_cycle(None, None).unwrap();
         }
         let mut totals = Totals::new();
-        let before = ALLOCS.load(Ordering::Relaxed);
+        let before = allocations();
         for _ in 0..500 {
             e.run_cycle(None, None).unwrap();
             e.run_cycle(Some(&mut totals), None).unwrap();
         }
-        let after = ALLOCS.load(Ordering::Relaxed);
+        let after = allocations();
         // The counter itself works: a Vec does allocate.
         let probe: Vec<u8> = Vec::with_capacity(16);
-        assert!(
-            ALLOCS.load(Ordering::Relaxed) > after,
-            "counting allocator inactive"
-        );
+        assert!(allocations() > after, "counting allocator inactive");
         drop(probe);
         assert_eq!(
             after - before,

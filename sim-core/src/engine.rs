@@ -20,6 +20,7 @@ use crate::metrics::Totals;
 use crate::propagate::{first_event, gramian, EventFn, Flow, WorkCounts, MAX_EVENTS};
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
+use crate::simulate::ChatterGuard;
 use crate::spectral::Spectral;
 use nalgebra::SVector;
 
@@ -37,9 +38,6 @@ enum Action {
     LedOff,
     LedOn,
 }
-
-/// Zero-length intervals in a row before the run is stopped as chattering.
-const MAX_ZERO_INTERVALS: u32 = 64;
 
 /// Regions remembered with their matrices and eigen-decompositions.
 const CACHE_SIZE: usize = 64;
@@ -75,7 +73,7 @@ pub struct ExactEngine {
     pub intervals: u64,
     /// Cycles completed.
     pub cycles: u64,
-    zero_run: u32,
+    chatter: ChatterGuard,
     led_range: (f64, f64),
     diode_range: (f64, f64),
     /// Freeze the curve fits (no refit at cycle starts).
@@ -122,7 +120,7 @@ impl ExactEngine {
             work: WorkCounts::default(),
             intervals: 0,
             cycles: 0,
-            zero_run: 0,
+            chatter: ChatterGuard::default(),
             led_range: (f64::INFINITY, f64::NEG_INFINITY),
             diode_range: (f64::INFINITY, f64::NEG_INFINITY),
             freeze_fits: false,
@@ -346,14 +344,7 @@ impl ExactEngine {
                     let row = one * led.upper_a[k - 1] - i_led_row;
                     Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
                 } else {
-                    Self::push_event(
-                        &mut evs,
-                        &mut acts,
-                        &mut n,
-                        -i_led_row,
-                        lin,
-                        Action::LedOff,
-                    );
+                    Self::push_event(&mut evs, &mut acts, &mut n, -i_led_row, lin, Action::LedOff);
                 }
                 if k + 1 < led.segments {
                     let row = i_led_row - one * led.upper_a[k];
@@ -413,18 +404,7 @@ impl ExactEngine {
             });
         }
         self.intervals += 1;
-        if dt == 0.0 {
-            self.zero_run += 1;
-            if self.zero_run > MAX_ZERO_INTERVALS {
-                return Err(SimError::Chattering {
-                    count: self.zero_run,
-                    time_s: self.t,
-                    topology: region.name(),
-                });
-            }
-        } else {
-            self.zero_run = 0;
-        }
+        self.chatter.note(dt, self.t, || region.name())?;
 
         // Track the visited current ranges for the next refit.
         let i_led0 = (i_led_row * z0)[0];

@@ -36,6 +36,7 @@ use crate::error::SimError;
 use crate::metrics::Totals;
 use crate::record::{Recorder, Sample};
 use crate::scenario::{Diode, Load, Scenario};
+use crate::simulate::ChatterGuard;
 use crate::simulate::{state_scales, CycleEngine, RunStats};
 use nalgebra::SVector;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
@@ -68,9 +69,6 @@ pub const EXTREME_TIME_TOL_S: f64 = 1e-17;
 
 /// Most accepted integrator steps in one interval between events.
 const MAX_STEPS_PER_INTERVAL: u32 = 2_000_000;
-
-/// Zero-length intervals in a row before the run is stopped as chattering.
-const MAX_ZERO_INTERVALS: u32 = 64;
 
 /// Tolerance on a scaled event function for "already due at the start".
 const DUE_TOL: f64 = 1e-12;
@@ -581,7 +579,7 @@ pub struct ReferenceEngine {
     cycles: u64,
     intervals: u64,
     steps: u64,
-    zero_run: u32,
+    chatter: ChatterGuard,
     clamped_energy_j: f64,
 }
 
@@ -609,7 +607,7 @@ impl ReferenceEngine {
             cycles: 0,
             intervals: 0,
             steps: 0,
-            zero_run: 0,
+            chatter: ChatterGuard::default(),
             clamped_energy_j: 0.0,
         };
         e.mode.conducting = e.conducting_for(cmd.switch_on);
@@ -888,18 +886,7 @@ impl ReferenceEngine {
             });
         }
         self.intervals += 1;
-        if dt == 0.0 {
-            self.zero_run += 1;
-            if self.zero_run > MAX_ZERO_INTERVALS {
-                return Err(SimError::Chattering {
-                    count: self.zero_run,
-                    time_s: self.t,
-                    topology: mode.name(),
-                });
-            }
-        } else {
-            self.zero_run = 0;
-        }
+        self.chatter.note(dt, self.t, || mode.name())?;
 
         if let Some(s) = &seg {
             if dt > 0.0 {

@@ -96,6 +96,41 @@ impl CycleEngine for ExactEngine {
     }
 }
 
+/// Zero-length intervals in a row before a run is stopped as chattering.
+pub const MAX_ZERO_INTERVALS: u32 = 64;
+
+/// Counts zero-length intervals in a row (events with no time between
+/// them) and stops a run that chatters; shared by both engines.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct ChatterGuard {
+    zero_run: u32,
+}
+
+impl ChatterGuard {
+    /// Notes an interval of length `dt` ending at `time_s` in the named
+    /// topology; errors after [`MAX_ZERO_INTERVALS`] zero-length ones in a row.
+    pub fn note(
+        &mut self,
+        dt: f64,
+        time_s: f64,
+        topology: impl FnOnce() -> String,
+    ) -> Result<(), SimError> {
+        if dt != 0.0 {
+            self.zero_run = 0;
+            return Ok(());
+        }
+        self.zero_run += 1;
+        if self.zero_run > MAX_ZERO_INTERVALS {
+            return Err(SimError::Chattering {
+                count: self.zero_run,
+                time_s,
+                topology: topology(),
+            });
+        }
+        Ok(())
+    }
+}
+
 /// Work done by a run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 pub struct RunStats {

@@ -5,6 +5,9 @@
 //! particular product or datasheet.
 #![allow(missing_docs)] // Builders are self-describing test fixtures.
 
+use std::alloc::{GlobalAlloc, Layout, System};
+use std::sync::atomic::{AtomicU64, Ordering};
+
 use sim_core::scenario::{
     template, Capacitor, ControllerSpec, Diode, Inductor, Load, Scenario, SimSettings, Supply,
     Switch,
@@ -381,4 +384,34 @@ pub fn fixed_duty_resistor() -> Scenario {
         duty: 0.45,
     };
     validated(s)
+}
+
+// ---------------------------------------------------------------------------
+// Counting allocator for allocation checks (install it with
+// `#[global_allocator]` in a binary of its own).
+
+/// Heap allocations (and reallocations) made through [`CountingAlloc`].
+pub static ALLOCATIONS: AtomicU64 = AtomicU64::new(0);
+
+/// The system allocator, counting every allocation in [`ALLOCATIONS`].
+pub struct CountingAlloc;
+
+// SAFETY: forwards every call to the system allocator unchanged.
+unsafe impl GlobalAlloc for CountingAlloc {
+    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
+        ALLOCATIONS.fetch_add(1, Ordering::Relaxed);
+        unsafe { System.alloc(layout) }
+    }
+    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
+        unsafe { System.dealloc(ptr, layout) }
+    }
+    unsafe fn realloc(&self, ptr: *mut u8, layout: Layout, new_size: usize) -> *mut u8 {
+        ALLOCATIONS.fetch_add(1, Ordering::Relaxed);
+        unsafe { System.realloc(ptr, layout, new_size) }
+    }
+}
+
+/// Allocations so far.
+pub fn allocations() -> u64 {
+    ALLOCATIONS.load(Ordering::Relaxed)
 }
