@@ -2,5 +2,6 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod properties;
 mod reference;
 mod textbook;

@@ -376,8 +376,10 @@ impl Scenario {
             // Tagged parts (diode, load, controller) are read as a whole, so
             // the path stops at the part: find the field inside it.
             if let Ok(root) = serde_json::from_str::<serde_json::Value>(text) {
+                let tagged = ["diode", "load", "controller"].contains(&path.as_str());
                 if let Some(field) = root
                     .get(&path)
+                    .filter(|_| tagged)
                     .and_then(|v| field_in(v, &inner.to_string()))
                 {
                     path = format!("{path}.{field}");
@@ -704,23 +706,27 @@ impl Scenario {
 
     fn check_operating_point(&self, c: &mut Checker) {
         let vs = self.supply.voltage_v;
-        let Some(target) = self.target_current_a() else {
-            return;
+        // Without a regulated current (fixed duty), "lit" means 1 mA.
+        let (lit_current, what) = match self.target_current_a() {
+            Some(t) => (0.01 * t, "1 % of the target current"),
+            None => (1e-3, "1 mA"),
         };
-        let lit = self.load_voltage_v(0.01 * target);
+        let lit = self.load_voltage_v(lit_current);
         if !matches!(self.load, Load::Resistor { .. }) && vs <= lit {
             c.push(
                 "supply.voltage_v",
                 &fmt_num(vs),
                 &format!(
-                    "the supply is below the LED string's forward voltage ({} V at 1 % of the \
-                     target current): the LEDs never light, and a buck converter cannot raise \
-                     the voltage",
+                    "the supply is below the LED string's forward voltage ({} V at {what}): \
+                     the LEDs never light, and a buck converter cannot raise the voltage",
                     fmt_num(lit)
                 ),
             );
             return;
         }
+        let Some(_) = self.target_current_a() else {
+            return;
+        };
         // With the switch held on, the current settles where the supply
         // equals the load voltage plus the drop across the series path.
         let r_series = self.supply.source_resistance_ohm
@@ -797,6 +803,7 @@ fn syntax(e: serde_json::Error, path: &str) -> ScenarioError {
         Some(i) => message[..i].to_string(),
         None => message,
     };
+    let message = explain(&message);
     ScenarioError::Syntax {
         path: if path == "." {
             String::new()
@@ -807,6 +814,72 @@ fn syntax(e: serde_json::Error, path: &str) -> ScenarioError {
         line: e.line(),
         column: e.column(),
     }
+}
+
+/// Adds what a reader needs to a serde message: the nearest known field
+/// for an unknown one, the unit of a missing one.
+fn explain(message: &str) -> String {
+    let quoted = |after: &str| -> Option<String> {
+        let i = message.find(after)? + after.len();
+        let rest = &message[i..];
+        rest.find('`').map(|j| rest[..j].to_string())
+    };
+    if let Some(name) = quoted("unknown field `").or_else(|| quoted("unknown variant `")) {
+        let known: Vec<&str> = message
+            .split("expected one of ")
+            .nth(1)
+            .or_else(|| message.split("expected ").nth(1))
+            .map(|list| list.split(", ").map(|k| k.trim_matches('`')).collect())
+            .unwrap_or_default();
+        if let Some(best) = known
+            .iter()
+            .filter(|k| !k.is_empty())
+            .min_by_key(|k| edit_distance(&name, k))
+            .filter(|k| edit_distance(&name, k) <= name.len().max(3) / 2)
+        {
+            return format!("{message}; did you mean `{best}`?");
+        }
+        return message.to_string();
+    }
+    if let Some(name) = quoted("missing field `") {
+        if let Some(unit) = unit_of(&name) {
+            return format!("{message} (a value in {unit})");
+        }
+    }
+    message.to_string()
+}
+
+/// The unit a field's name ends in, in words.
+pub fn unit_of(field: &str) -> Option<&'static str> {
+    let suffixes = [
+        ("_v", "volts, e.g. 12 or \"12V\""),
+        ("_a", "amperes, e.g. 0.7 or \"700m\""),
+        ("_ohm", "ohms, e.g. 0.05 or \"50m\""),
+        ("_h", "henries, e.g. 4.7e-5 or \"47u\""),
+        ("_f", "farads, e.g. 1e-5 or \"10u\""),
+        ("_s", "seconds, e.g. 2e-6 or \"2u\""),
+        ("_hz", "hertz, e.g. 4e5 or \"400k\""),
+        ("_c", "degrees Celsius"),
+    ];
+    suffixes
+        .iter()
+        .find(|(suffix, _)| field.ends_with(suffix))
+        .map(|(_, unit)| *unit)
+}
+
+/// Levenshtein distance between two short names.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, cb) in b.iter().enumerate() {
+            let cost = usize::from(ca != *cb);
+            cur[j + 1] = (prev[j] + cost).min(prev[j + 1] + 1).min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
 }
 
 fn fmt_num(v: f64) -> String {
@@ -1045,6 +1118,17 @@ mod tests {
         v["inductor"]["inductanse_h"] = 1.0.into();
         let err = Scenario::from_json_str(&v.to_string()).unwrap_err();
         assert!(err.to_string().contains("inductanse_h"), "{err}");
+        assert!(
+            err.to_string().contains("did you mean `inductance_h`?"),
+            "{err}"
+        );
+        let mut v = template_json();
+        v["inductor"]
+            .as_object_mut()
+            .unwrap()
+            .remove("inductance_h");
+        let err = Scenario::from_json_str(&v.to_string()).unwrap_err();
+        assert!(err.to_string().contains("henries"), "{err}");
     }
 
     #[test]

@@ -1,0 +1,158 @@
+//! Property tests: random designs never crash the engine, give finite
+//! figures and close the energy balance; random and mutated text never
+//! crashes the loader.
+
+use proptest::prelude::*;
+use sim_core::scenario::{Capacitor, ControllerSpec, Diode, Load, Scenario};
+use sim_core::simulate::{simulate, RunOptions};
+
+/// A random design over wide but physical ranges (illustrative values).
+fn design() -> impl Strategy<Value = Scenario> {
+    (
+        (
+            4.0f64..60.0,
+            0.0f64..0.3,
+            prop::option::of((1e-6f64..47e-6, 0.0f64..0.05)),
+        ),
+        (0.0f64..0.5, 0.0f64..0.8, 0.0f64..0.1, any::<bool>()),
+        (2e-6f64..470e-6, 0.0f64..0.5),
+        prop::option::of((0.1e-6f64..22e-6, 0.0f64..0.1)),
+        (1u32..6, 0u8..3),
+        (
+            0u8..3,
+            0.05f64..2.0,
+            0.2e-6f64..10e-6,
+            0.0f64..200e-9,
+            0.0f64..1.0,
+        ),
+    )
+        .prop_map(|(sup, sw, ind, co, led, ctl)| {
+            let mut s = sim_core::scenario::template();
+            s.name = "random".into();
+            s.supply.voltage_v = sup.0;
+            s.supply.source_resistance_ohm = sup.1;
+            s.supply.input_range_v = None;
+            s.input_capacitor = sup.2.map(|(c, esr)| Capacitor {
+                capacitance_f: c,
+                esr_ohm: esr,
+            });
+            s.switch.on_resistance_ohm = sw.0;
+            s.diode = if sw.3 {
+                Diode::FixedDrop {
+                    forward_voltage_v: sw.1,
+                    series_resistance_ohm: sw.2,
+                }
+            } else {
+                Diode::Shockley {
+                    saturation_current_a: 1e-6,
+                    emission_coefficient: 1.1,
+                    series_resistance_ohm: sw.2,
+                    temperature_c: 40.0,
+                }
+            };
+            s.inductor.inductance_h = ind.0;
+            s.inductor.dcr_ohm = ind.1;
+            s.output_capacitor = co.map(|(c, esr)| Capacitor {
+                capacitance_f: c,
+                esr_ohm: esr,
+            });
+            s.load = match led.1 {
+                0 => Load::LedExponential {
+                    count: led.0,
+                    saturation_current_a: 1e-18,
+                    emission_coefficient: 2.2,
+                    series_resistance_ohm: 0.3,
+                    junction_temperature_c: 60.0,
+                },
+                1 => Load::LedKnee {
+                    count: led.0,
+                    knee_voltage_v: 2.7,
+                    dynamic_resistance_ohm: 0.4,
+                },
+                _ => Load::Resistor {
+                    resistance_ohm: 2.0 * f64::from(led.0),
+                },
+            };
+            s.controller = match ctl.0 {
+                0 => ControllerSpec::ConstantOffTime {
+                    peak_current_a: ctl.1,
+                    off_time_s: ctl.2,
+                    delay_s: ctl.3,
+                    min_on_time_s: ctl.3,
+                },
+                1 => ControllerSpec::Hysteretic {
+                    upper_current_a: ctl.1,
+                    lower_current_a: ctl.1 * (0.3 + 0.6 * ctl.4),
+                    turn_off_delay_s: ctl.3,
+                    turn_on_delay_s: ctl.3,
+                },
+                _ => ControllerSpec::FixedDuty {
+                    frequency_hz: 1.0 / (2.0 * ctl.2),
+                    duty: 0.05 + 0.9 * ctl.4,
+                },
+            };
+            s.simulation.max_cycles = 20_000;
+            s.simulation.record_cycles = 2;
+            s.simulation.samples_per_interval = 2;
+            s
+        })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 96, failure_persistence: None, ..ProptestConfig::default() })]
+
+    #[test]
+    fn random_designs_never_panic_and_close_the_energy_balance(s in design()) {
+        // Invalid designs must be refused with named fields; valid ones run.
+        match s.validate() {
+            Err(e) => prop_assert!(e.problems().iter().all(|p| !p.path.is_empty())),
+            Ok(()) => match simulate(&s, &RunOptions::default()) {
+                // A design that does not settle in the cycle cap, or waits
+                // too long on a threshold, is reported, not crashed.
+                Err(e) => prop_assert!(!e.to_string().is_empty()),
+                Ok(r) => {
+                    let m = serde_json::to_value(r.metrics).unwrap();
+                    for (k, v) in m.as_object().unwrap() {
+                        if let Some(x) = v.as_f64() {
+                            prop_assert!(x.is_finite(), "{} = {}", k, x);
+                        }
+                    }
+                    // The residual is relative to the input energy; a design
+                    // that barely conducts (under 1 mW) leaves only round-off
+                    // of the stored energy, so it is not judged there.
+                    if r.metrics.input_power_w > 1e-3 {
+                        prop_assert!(r.metrics.energy_balance_residual.abs() < 1e-6,
+                            "residual {}", r.metrics.energy_balance_residual);
+                    }
+                    prop_assert!(r.metrics.efficiency <= 1.0 + 1e-9);
+                }
+            },
+        }
+    }
+
+    #[test]
+    fn random_bytes_never_panic_the_loader(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
+        let text = String::from_utf8_lossy(&bytes);
+        let _ = Scenario::from_json_str(&text);
+    }
+
+    #[test]
+    fn mutated_files_never_panic_the_loader(
+        cut in 0usize..2000,
+        pos in 0usize..2000,
+        insert in "[0-9a-zA-Z\\.\\-\":,{}\\[\\] µ%]{0,6}",
+    ) {
+        let good = serde_json::to_string_pretty(&sim_core::scenario::template()).unwrap();
+        let mut chars: Vec<char> = good.chars().collect();
+        let p = pos % chars.len();
+        let c = (p + cut % 8).min(chars.len());
+        chars.splice(p..c, insert.chars());
+        let text: String = chars.into_iter().collect();
+        if let Ok(s) = Scenario::from_json_str(&text) {
+            // Whatever parses is valid and runs or reports an error.
+            let mut s = s;
+            s.simulation.max_cycles = s.simulation.max_cycles.min(20_000);
+            let _ = simulate(&s, &RunOptions::default());
+        }
+    }
+}
