@@ -390,28 +390,42 @@ pub fn fixed_duty_resistor() -> Scenario {
 // Counting allocator for allocation checks (install it with
 // `#[global_allocator]` in a binary of its own).
 
-/// Heap allocations (and reallocations) made through [`CountingAlloc`].
+/// Heap allocations (and reallocations) made through [`CountingAlloc`],
+/// all threads.
 pub static ALLOCATIONS: AtomicU64 = AtomicU64::new(0);
 
-/// The system allocator, counting every allocation in [`ALLOCATIONS`].
+thread_local! {
+    /// The same, counted per thread, so a check is not disturbed by the
+    /// test harness allocating on its own threads meanwhile.
+    static THREAD_ALLOCATIONS: std::cell::Cell<u64> = const { std::cell::Cell::new(0) };
+}
+
+fn count_one() {
+    ALLOCATIONS.fetch_add(1, Ordering::Relaxed);
+    // `try_with`: the slot may already be gone while a thread shuts down.
+    let _ = THREAD_ALLOCATIONS.try_with(|c| c.set(c.get() + 1));
+}
+
+/// The system allocator, counting every allocation in [`ALLOCATIONS`] and
+/// per thread.
 pub struct CountingAlloc;
 
 // SAFETY: forwards every call to the system allocator unchanged.
 unsafe impl GlobalAlloc for CountingAlloc {
     unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        ALLOCATIONS.fetch_add(1, Ordering::Relaxed);
+        count_one();
         unsafe { System.alloc(layout) }
     }
     unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
         unsafe { System.dealloc(ptr, layout) }
     }
     unsafe fn realloc(&self, ptr: *mut u8, layout: Layout, new_size: usize) -> *mut u8 {
-        ALLOCATIONS.fetch_add(1, Ordering::Relaxed);
+        count_one();
         unsafe { System.realloc(ptr, layout, new_size) }
     }
 }
 
-/// Allocations so far.
+/// Allocations made so far by the calling thread.
 pub fn allocations() -> u64 {
-    ALLOCATIONS.load(Ordering::Relaxed)
+    THREAD_ALLOCATIONS.with(|c| c.get())
 }
