@@ -312,6 +312,13 @@ fn describe_sim_error(name: &str, e: &SimError) -> String {
 
 fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     let mut s = load(&args.file, &args.overrides)?;
+    // An output that cannot be written is reported before simulating.
+    if let Some(path) = &args.csv {
+        output::check_writable(output::parent_dir(path)).map_err(io_failure)?;
+    }
+    if let Some(dir) = &args.plot {
+        output::check_writable(dir).map_err(io_failure)?;
+    }
     // Always record the start-up: the plots need it, and the summary
     // reports its inductor peak (it costs little next to the run).
     s.simulation.record_startup = true;

@@ -89,6 +89,25 @@ pub fn ensure_dir(dir: &Path) -> Result<()> {
     fs::create_dir_all(dir).with_context(|| format!("cannot create folder {}", dir.display()))
 }
 
+/// Checks before any work that files can be written into `dir` (creating
+/// it if needed): writes and removes a probe file.
+pub fn check_writable(dir: &Path) -> Result<()> {
+    ensure_dir(dir)?;
+    let probe = dir.join(format!(".chopwave-probe.{}.tmp", std::process::id()));
+    std::fs::write(&probe, b"")
+        .with_context(|| format!("cannot write into folder {}", dir.display()))?;
+    let _ = std::fs::remove_file(&probe);
+    Ok(())
+}
+
+/// The folder a file will be written into (`.` for a bare name).
+pub fn parent_dir(path: &Path) -> &Path {
+    match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    }
+}
+
 /// A scenario name made safe for a file name: letters, digits, `-` and
 /// `_` kept, anything else turned into `-`.
 pub fn file_stem(name: &str) -> String {
