@@ -107,3 +107,21 @@ fn print_messages() {
         println!("{path} = {value}\n    {err}");
     }
 }
+
+#[test]
+fn regression_fuzz_stalled_event_scan() {
+    // Found by the loader fuzz target: a 1 F input capacitor charging for
+    // milliseconds made the event scan creep towards a zero it approached
+    // only asymptotically (each predicted step smaller than the last). The
+    // run must end promptly with a result or a clear error.
+    let text = include_str!("../fuzz/regressions/stalled-scan-1F-input-cap.json");
+    let mut s = Scenario::from_json_str(text).unwrap();
+    s.simulation.max_cycles = 2_000;
+    s.simulation.max_time_s = 1e-2;
+    let t = std::time::Instant::now();
+    let r = sim_core::simulate(&s, &sim_core::RunOptions::default());
+    assert!(t.elapsed().as_secs_f64() < 5.0, "took {:?}", t.elapsed());
+    if let Err(e) = r {
+        assert!(!e.to_string().is_empty());
+    }
+}

@@ -198,6 +198,13 @@ impl EventFn {
     }
 }
 
+/// Prediction-led steps in one scan before it falls back to even steps.
+const PREDICTED_STEPS: u32 = 200;
+
+/// A function within this many round-off units of zero has reached it (an
+/// asymptotic approach or a grazing touch counts as the event).
+const TOUCH_ULPS: f64 = 1e4;
+
 /// Most events watched at once.
 pub const MAX_EVENTS: usize = 8;
 
@@ -265,7 +272,11 @@ pub fn first_event(
     // Step cap after a suspected double crossing, and retries at this point.
     let mut cap = f64::INFINITY;
     let mut retries = 0u32;
+    // Steps taken; past PREDICTED_STEPS the predictions are ignored so a
+    // function creeping towards zero cannot stall the scan (Zeno steps).
+    let mut steps = 0u32;
     loop {
+        steps += 1;
         let remaining = t_limit - t_a;
         if remaining <= 0.0 {
             return ScanResult {
@@ -275,8 +286,15 @@ pub fn first_event(
             };
         }
         let mut step = remaining.min(max_step).min(cap);
+        if steps > PREDICTED_STEPS {
+            // Fall back to even steps over what is left (the Hermite test
+            // still catches a crossing inside one).
+            step = step
+                .min(remaining.max(t_a) / 64.0)
+                .max(remaining.min(1e-12));
+        }
         for j in 0..n {
-            if h_a[j] < 0.0 {
+            if h_a[j] < 0.0 && steps <= PREDICTED_STEPS {
                 let c = events[j].curvature(&z_a);
                 if let Some(tau) = predict_zero(h_a[j], d_a[j], c) {
                     // Aim a hair past the prediction so a good one brackets.
@@ -298,7 +316,7 @@ pub fn first_event(
         for j in 0..n {
             h_b[j] = events[j].value(&z_b);
             d_b[j] = events[j].slope(&z_b);
-            if h_a[j] < 0.0 && h_b[j] >= -events[j].zero_tol(&z_b) {
+            if h_a[j] < 0.0 && h_b[j] >= -TOUCH_ULPS * events[j].zero_tol(&z_b) {
                 // Crossed. A step aimed a hair past a good prediction lands
                 // within a few 1e-9 of the step after the root: accept it
                 // there (the event time is then off by well under 1e-12 s).
