@@ -2,5 +2,6 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod parts;
 mod reference;
 mod textbook;

@@ -261,7 +261,7 @@ impl ExactEngine {
         &mut self,
         lin: &Linear,
         spectral: Option<&Spectral>,
-        totals: Option<&mut Totals>,
+        mut totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
         let region = self.region;
@@ -420,7 +420,7 @@ impl ExactEngine {
         }
 
         if dt > 0.0 {
-            if let Some(tot) = totals {
+            if let Some(tot) = totals.as_deref_mut() {
                 self.accumulate(&flow, tot, lin, region, &z0, &z1, dt);
             }
             if let Some(r) = rec {
@@ -456,7 +456,23 @@ impl ExactEngine {
                 self.cmd = new;
                 if changed {
                     self.switch_changed_t = self.t;
+                    let pre = lin.signals * aug(&self.x);
+                    let il = self.x[X_IL];
+                    let diode_on = !region.switch_on && region.conducting && il > 0.0;
                     self.switch_transition(new.switch_on);
+                    if let Some(tot) = totals {
+                        // The switch's blocked voltage on the open side of
+                        // the edge, for the post-processed switching losses.
+                        let post = self.circuit.linearize(self.region).signals * aug(&self.x);
+                        let (vin, vsw) = (Signal::InputNode as usize, Signal::SwitchNode as usize);
+                        let blocked = if new.switch_on {
+                            pre[vin] - pre[vsw]
+                        } else {
+                            post[vin] - post[vsw]
+                        };
+                        let recovery = (new.switch_on && diode_on).then_some(post[vsw]);
+                        tot.edges.note(new.switch_on, il, blocked, recovery);
+                    }
                 }
             }
             Action::DiodeOff | Action::Block => {

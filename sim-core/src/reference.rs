@@ -821,7 +821,7 @@ impl ReferenceEngine {
     /// Simulates up to the next event; returns whether the switch turned on.
     fn interval(
         &mut self,
-        totals: Option<&mut Totals>,
+        mut totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
         let ctx = self.ctx;
@@ -890,7 +890,7 @@ impl ReferenceEngine {
 
         if let Some(s) = &seg {
             if dt > 0.0 {
-                if let Some(tot) = totals {
+                if let Some(tot) = totals.as_deref_mut() {
                     self.accumulate(tot, s, dt);
                 }
                 if let Some(r) = rec {
@@ -935,7 +935,22 @@ impl ReferenceEngine {
                 self.cmd = new;
                 if changed {
                     self.switch_changed_t = self.t;
+                    let pre = ctx.sig(self.mode, &self.scaled_state());
+                    let il = self.x[0];
+                    let diode_on = !mode.switch_on && mode.conducting && il > 0.0;
                     self.switch_transition(new.switch_on);
+                    if let Some(tot) = totals {
+                        // As in the exact engine: the blocked voltage on the
+                        // open side of the edge.
+                        let post = ctx.sig(self.mode, &self.scaled_state());
+                        let blocked = if new.switch_on {
+                            pre.vin - pre.vsw
+                        } else {
+                            post.vin - post.vsw
+                        };
+                        let recovery = (new.switch_on && diode_on).then_some(post.vsw);
+                        tot.edges.note(new.switch_on, il, blocked, recovery);
+                    }
                 }
             }
             Some(EventKind::DiodeOff { .. }) | Some(EventKind::Block { .. }) => {

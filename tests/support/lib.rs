@@ -50,6 +50,7 @@ pub fn ideal_buck(
         },
         controller,
         simulation: SimSettings::default(),
+        parts: Default::default(),
     }
 }
 
