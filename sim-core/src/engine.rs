@@ -37,6 +37,8 @@ enum Action {
     LedUp,
     LedOff,
     LedOn,
+    SatDown,
+    SatUp,
 }
 
 /// Regions remembered with their matrices and eigen-decompositions.
@@ -321,6 +323,18 @@ impl ExactEngine {
             row[X_IL] = 0.0;
             Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Unblock);
         }
+        // A saturating inductor: the current crossing a segment boundary.
+        if let (Some(sat), true) = (self.circuit.saturation.as_ref(), region.conducting) {
+            let k = region.l_segment as usize;
+            if k > 0 {
+                let row = one * sat.upper_a[k - 1] - il_row;
+                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatDown);
+            }
+            if k + 1 < sat.segments {
+                let row = il_row - one * sat.upper_a[k];
+                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatUp);
+            }
+        }
         let i_led_row = lin.row(Signal::LedCurrent);
         match (has_co, region.led_segment) {
             (false, Some(k)) if region.conducting => {
@@ -478,6 +492,7 @@ impl ExactEngine {
             Action::DiodeOff | Action::Block => {
                 self.x[X_IL] = 0.0;
                 self.region.conducting = false;
+                self.region.l_segment = 0;
                 if !has_co {
                     self.region.led_segment = None;
                 }
@@ -496,6 +511,8 @@ impl ExactEngine {
             }
             Action::LedOff => self.region.led_segment = None,
             Action::LedOn => self.region.led_segment = Some(0),
+            Action::SatDown => self.region.l_segment -= 1,
+            Action::SatUp => self.region.l_segment += 1,
         }
         Ok(turned_on)
     }
@@ -520,9 +537,10 @@ impl ExactEngine {
             // A reverse current is cut off at turn-off (the switch's body
             // diode returns it to the input within nanoseconds); count its
             // energy as a loss of its own.
-            self.clamped_energy_j += 0.5 * self.circuit.inductance_h * il * il;
+            self.clamped_energy_j += self.circuit.inductor_energy_j(il);
             self.x[X_IL] = 0.0;
             self.region.conducting = false;
+            self.region.l_segment = 0;
             if self.circuit.output_cap.is_none() {
                 self.region.led_segment = None;
             }

@@ -441,10 +441,16 @@ pub struct DiodeData {
     pub thermal: Option<Thermal>,
 }
 
-/// Inductor core and ratings.
-#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+/// Inductor core, saturation curve and ratings.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
 #[serde(default, deny_unknown_fields)]
 pub struct InductorData {
+    /// Incremental inductance versus current from the part's data (2 to 8
+    /// points, currents rising from 0 or above): when given it replaces
+    /// `inductor.inductance_h`, straight lines between the points, held
+    /// beyond them. Both engines simulate it (see `devices::InductanceCurve`).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub saturation_curve: Vec<InductancePoint>,
     /// The core, for the Steinmetz core loss.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub core: Option<Core>,
@@ -454,6 +460,18 @@ pub struct InductorData {
     /// Thermal path.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub thermal: Option<Thermal>,
+}
+
+/// One point of an inductance-versus-current curve.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct InductancePoint {
+    /// Inductor current, A.
+    #[serde(deserialize_with = "de_a")]
+    pub current_a: f64,
+    /// Incremental inductance there, H.
+    #[serde(deserialize_with = "de_h")]
+    pub inductance_h: f64,
 }
 
 /// An inductor core: geometry, turns and the material's Steinmetz
@@ -726,6 +744,36 @@ impl PartData {
             "A",
         );
         c.thermal("parts.inductor.thermal", l.thermal);
+        let curve = &l.saturation_curve;
+        if !curve.is_empty() {
+            if curve.len() < 2 || curve.len() > crate::devices::MAX_L_POINTS {
+                c.push(
+                    "parts.inductor.saturation_curve",
+                    &format!("{} points", curve.len()),
+                    &format!("give 2 to {} points", crate::devices::MAX_L_POINTS),
+                );
+            }
+            let mut last = -1.0;
+            for (k, pt) in curve.iter().enumerate() {
+                let at = format!("parts.inductor.saturation_curve[{k}]");
+                c.range(&format!("{at}.current_a"), pt.current_a, 0.0, 1e4, "A");
+                c.range(
+                    &format!("{at}.inductance_h"),
+                    pt.inductance_h,
+                    1e-9,
+                    10.0,
+                    "H",
+                );
+                if pt.current_a <= last {
+                    c.push(
+                        &format!("{at}.current_a"),
+                        &fmt_num(pt.current_a),
+                        "currents must be strictly rising",
+                    );
+                }
+                last = pt.current_a;
+            }
+        }
         for (name, cap) in [
             ("input_capacitor", &p.input_capacitor),
             ("output_capacitor", &p.output_capacitor),

@@ -118,7 +118,7 @@ fn fit_params(points: &[(f64, f64)], free_rs: bool) -> Option<(f64, f64, f64)> {
     }
     let x = n.lu().solve(&b)?;
     let (mut a, c, mut rs) = (x[0], x[1], x[2]);
-    if !(a > 0.0) {
+    if a.is_nan() || a <= 0.0 {
         return None;
     }
     let mut ln_is = -c / a;
@@ -186,7 +186,7 @@ pub fn fit_led(
         });
     }
     let mut fit = fit_params(points, true);
-    if fit.map_or(true, |(_, _, rs)| rs < 0.0) {
+    if !matches!(fit, Some((_, _, rs)) if rs >= 0.0) {
         fit = fit_params(points, false);
     }
     let Some((a, ln_is, rs)) = fit else {

@@ -24,11 +24,13 @@
 //!   diode (none in DCM, where the diode has already stopped; zero for a
 //!   Schottky, Q_rr = 0);
 //! - core: the Steinmetz equation P_v = k·f^α·B̂^β (Steinmetz 1892) at the
-//!   switching frequency with B̂ = L·ΔI/(2·N·A_e) from the simulated ripple:
+//!   switching frequency with B̂ = L·ΔI/(2·N·A_e) from the simulated ripple
+//!   (with a saturation curve, B̂ = (ψ(i_max) − ψ(i_min))/(2·N·A_e)):
 //!   sinusoidal-excitation coefficients applied to a triangular current,
 //!   the classical estimate;
 //! - quiescent: V_supply·I_q.
 
+use crate::devices::InductanceCurve;
 use crate::metrics::{LossEnergies, Totals};
 use crate::scenario::Scenario;
 
@@ -80,12 +82,19 @@ pub fn part_loss_energies(s: &Scenario, t: &Totals) -> LossEnergies {
     if let Some(core) = p.inductor.core {
         if time > 0.0 && t.cycles > 0 {
             let f = t.cycles as f64 / time;
-            let b = flux_peak_t(
-                s.inductor.inductance_h,
-                t.il_max - t.il_min.max(0.0),
-                core.turns,
-                core.area_m2,
-            );
+            let (lo, hi) = (t.il_min.max(0.0), t.il_max);
+            let curve = &p.inductor.saturation_curve;
+            let b = if curve.is_empty() {
+                flux_peak_t(s.inductor.inductance_h, hi - lo, core.turns, core.area_m2)
+            } else {
+                // A saturating core: half the flux swing ψ(hi) − ψ(lo).
+                let pts: Vec<(f64, f64)> = curve
+                    .iter()
+                    .map(|p| (p.current_a, p.inductance_h))
+                    .collect();
+                let c = InductanceCurve::new(&pts);
+                (c.flux_wb(hi) - c.flux_wb(lo)) / (2.0 * f64::from(core.turns) * core.area_m2)
+            };
             let pv = steinmetz_w_per_m3(
                 core.steinmetz_k,
                 core.steinmetz_alpha,
