@@ -64,7 +64,8 @@ enum Command {
         #[arg(long, value_enum, default_value_t = EngineArg::Exact)]
         engine: EngineArg,
     },
-    /// Print a complete, valid starter scenario with every field.
+    /// Print a complete, valid starter scenario with every field (including
+    /// the illustrative `parts` section).
     Template,
     /// Fit the per-LED exponential model (Is, n, Rs) to datasheet points
     /// and print the scenario fragment to paste.
@@ -240,7 +241,7 @@ fn dispatch(cli: Cli) -> Result<(), Failure> {
         Command::Check { file, overrides } => check(&file, &overrides),
         Command::Demo { out, engine } => demo(&out, engine.into(), quiet),
         Command::Template => {
-            let text = serde_json::to_string_pretty(&sim_core::scenario::template())
+            let text = serde_json::to_string_pretty(&sim_core::scenario::template_with_parts())
                 .map_err(|e| Failure::Run(e.to_string()))?;
             println!("{text}");
             Ok(())

@@ -128,7 +128,8 @@ fn fit_led_prints_the_model_and_a_fragment_that_loads() {
     assert!(o.status.success(), "{}", text(&o.stderr));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     let n = j["fit"]["emission_coefficient"].as_f64().unwrap();
-    assert!((n / 2.5 - 1.0).abs() < 1e-3, "{j}");
+    // Voltages rounded to 0.1 mV move n by about 0.1 %.
+    assert!((n / 2.5 - 1.0).abs() < 1e-2, "{j}");
     assert!((j["fit"]["tempco_v_per_k"].as_f64().unwrap() + 2e-3).abs() < 1e-12);
     for r in j["fit"]["residuals_v"].as_array().unwrap() {
         assert!(r.as_f64().unwrap().abs() < 1e-4);
@@ -151,5 +152,31 @@ fn fit_led_prints_the_model_and_a_fragment_that_loads() {
         "{}",
         text(&o.stderr)
     );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn the_template_carries_every_part_field_and_runs_with_its_checks() {
+    let o = run(&["template"]);
+    assert!(o.status.success());
+    let t: Value = serde_json::from_slice(&o.stdout).unwrap();
+    for k in [
+        "switch",
+        "diode",
+        "inductor",
+        "input_capacitor",
+        "led",
+        "controller",
+    ] {
+        assert!(t["parts"].get(k).is_some(), "parts.{k}");
+    }
+    let dir = scratch("template");
+    let f = dir.join("t.json");
+    std::fs::write(&f, &o.stdout).unwrap();
+    let o = run(&["run", "--strict", "--json", f.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_ne!(v["design_verdict"], "fail", "{}", v["design_checks"]);
+    assert!(v["energy_balance_residual"].as_f64().unwrap().abs() < 1e-8);
     let _ = std::fs::remove_dir_all(&dir);
 }

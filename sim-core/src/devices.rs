@@ -401,11 +401,10 @@ impl InductanceCurve {
             let l = if lo.is_finite() && hi.is_finite() {
                 (c.flux_wb(hi) - c.flux_wb(lo)) / (hi - lo)
             } else if hi.is_finite() {
-                // Reverse currents and below the first point: from 0 (or
-                // the first point) to the first bound.
-                let a = c.point_a[0].min(0.0).max(0.0);
-                if hi > a {
-                    (c.flux_wb(hi) - c.flux_wb(a)) / (hi - a)
+                // Reverse currents and up to the first bound: the chord
+                // from zero current.
+                if hi > 0.0 {
+                    c.flux_wb(hi) / hi
                 } else {
                     c.point_h[0]
                 }

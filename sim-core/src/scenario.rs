@@ -1627,9 +1627,94 @@ pub fn template() -> Scenario {
     }
 }
 
+/// [`template`] with a complete `parts` section: every real-part field,
+/// with illustrative values (not a particular part's data).
+pub fn template_with_parts() -> Scenario {
+    let mut s = template();
+    s.description.push_str(
+        " The parts section (switching times, charges, core, ratings, dielectrics, thermal \
+         paths, controller limits) is illustrative as well.",
+    );
+    let thermal = |r: f64, t: f64| {
+        Some(Thermal {
+            resistance_c_per_w: r,
+            max_temperature_c: t,
+        })
+    };
+    let cap = |d: Dielectric, v: f64, ripple: f64| CapacitorData {
+        dielectric: d,
+        tolerance_pct: 10.0,
+        voltage_rating_v: Some(v),
+        ripple_current_rating_a: Some(ripple),
+        bias_curve: Vec::new(),
+        thermal: None,
+    };
+    s.parts = PartData {
+        ambient_temperature_c: 25.0,
+        intended_mode: IntendedMode::Ccm,
+        current_accuracy_pct: Some(10.0),
+        led_current_target_a: Some(0.7),
+        switch: SwitchData {
+            rise_time_s: 10e-9,
+            fall_time_s: 15e-9,
+            gate_charge_c: 5e-9,
+            gate_drive_v: 5.0,
+            output_capacitance_f: 50e-12,
+            voltage_rating_v: Some(30.0),
+            peak_current_rating_a: Some(3.0),
+            rms_current_rating_a: Some(2.0),
+            thermal: thermal(150.0, 150.0),
+        },
+        diode: DiodeData {
+            reverse_recovery_charge_c: 0.0,
+            voltage_rating_v: Some(30.0),
+            peak_current_rating_a: Some(3.0),
+            rms_current_rating_a: Some(1.0),
+            thermal: thermal(120.0, 150.0),
+        },
+        inductor: InductorData {
+            saturation_curve: Vec::new(),
+            core: Some(Core {
+                turns: 30,
+                area_m2: 1.2e-5,
+                volume_m3: 4e-7,
+                steinmetz_k: 1.5,
+                steinmetz_alpha: 1.4,
+                steinmetz_beta: 2.5,
+            }),
+            rms_current_rating_a: Some(1.2),
+            thermal: thermal(60.0, 125.0),
+        },
+        input_capacitor: cap(Dielectric::X7r, 25.0, 2.0),
+        output_capacitor: CapacitorData::default(),
+        led: Some(LedThermal {
+            resistance_c_per_w: 25.0,
+            max_junction_temperature_c: 125.0,
+            forward_voltage_tempco_v_per_k: -2e-3,
+            heat_fraction: 0.7,
+        }),
+        controller: ControllerIc {
+            quiescent_current_a: 1e-3,
+            min_frequency_hz: Some(20e3),
+            max_frequency_hz: Some(1e6),
+            min_on_time_s: Some(100e-9),
+        },
+    };
+    s
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn template_with_parts_round_trips_and_validates() {
+        let t = template_with_parts();
+        let text = serde_json::to_string_pretty(&t).unwrap();
+        assert!(text.contains("\"parts\""));
+        let s = Scenario::from_json_str(&text).unwrap();
+        assert_eq!(s, t);
+    }
 
     fn template_json() -> serde_json::Value {
         serde_json::to_value(template()).unwrap()

@@ -274,7 +274,11 @@ pub fn design_checks(
     }
     // Temperatures.
     for t in temps {
-        let name = t.part.replace('_', " ");
+        let name = if t.part == "led" {
+            "LED junction".to_string()
+        } else {
+            t.part.replace('_', " ")
+        };
         upper(
             &mut c,
             &format!("{name} temperature vs maximum"),
