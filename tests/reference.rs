@@ -371,3 +371,20 @@ fn reference_waveform_follows_the_exponential_curve() {
         );
     }
 }
+
+#[test]
+fn cross_check_saturating_inductor() {
+    // The exact engine's constant-L chord segments (flux exact at every
+    // boundary) against the reference engine's continuous L(i).
+    let s = circuits::lamp_12v_saturating();
+    let (e, r) = cross_check(&s, ConductionMode::Ccm);
+    let d_pk = rel(e.inductor_current_peak_a, r.inductor_current_peak_a);
+    let d_rip = rel(e.inductor_ripple_pp_a, r.inductor_ripple_pp_a);
+    println!("saturating: peak rel {d_pk:.2e}, inductor ripple rel {d_rip:.2e}");
+    assert!(d_pk < 2e-3, "peak {d_pk}");
+    assert!(d_rip < 1e-2, "ripple {d_rip}");
+    // Saturation widens the ripple against the unsaturated part.
+    let plain = run(&circuits::lamp_12v(), EngineKind::Exact).metrics;
+    assert!(e.inductor_ripple_pp_a > 1.15 * plain.inductor_ripple_pp_a);
+    assert!(r.inductor_ripple_pp_a > 1.15 * plain.inductor_ripple_pp_a);
+}

@@ -4,7 +4,8 @@
 //! The binary is glue: it turns arguments into a validated
 //! [`sim_core::Scenario`], calls [`sim_core::simulate`], and renders the
 //! result as text, JSON, CSV and PNG. Exit codes: 0 success, 1 the
-//! simulation failed (or an output could not be written), 2 bad input.
+//! simulation failed (or an output could not be written), 2 bad input,
+//! 3 a design check failed under `run --strict`.
 
 mod bundled;
 mod format;
@@ -16,7 +17,9 @@ use anyhow::{Context, Result};
 use clap::{Parser, Subcommand, ValueEnum};
 use indicatif::{ProgressBar, ProgressStyle};
 use report::Report;
-use sim_core::simulate::{simulate_with_progress, Progress};
+use sim_core::parts::assess::{assess_with_progress, AssessOptions, Assessment};
+use sim_core::parts::checks::{worst, Status};
+use sim_core::simulate::Progress;
 use sim_core::{EngineKind, RunOptions, Scenario, ScenarioError, SimError, SimResult};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -29,7 +32,8 @@ use std::time::{Duration, Instant};
 #[command(name = "chopwave", version)]
 #[command(
     after_help = "Exit codes: 0 success, 1 simulation failed or an output could not be \
-                        written, 2 bad input (scenario file, field or option)."
+                        written, 2 bad input (scenario file, field or option), 3 a design check \
+                        failed (only with `run --strict`)."
 )]
 struct Cli {
     /// No progress bar and no notes on standard error (errors still print).
@@ -60,8 +64,48 @@ enum Command {
         #[arg(long, value_enum, default_value_t = EngineArg::Exact)]
         engine: EngineArg,
     },
-    /// Print a complete, valid starter scenario with every field.
+    /// Print a complete, valid starter scenario with every field (including
+    /// the illustrative `parts` section).
     Template,
+    /// Fit the per-LED exponential model (Is, n, Rs) to datasheet points
+    /// and print the scenario fragment to paste.
+    FitLed(FitLedArgs),
+}
+
+#[derive(Debug, clap::Args)]
+struct FitLedArgs {
+    /// A point on one LED's forward curve, `CURRENT,VOLTAGE` (A, V;
+    /// engineering notation allowed, e.g. `350m,2.95`); three or more.
+    #[arg(long = "point", value_name = "I,V", value_parser = parse_point, required = true)]
+    points: Vec<(f64, f64)>,
+    /// Junction temperature the points were taken at, °C.
+    #[arg(
+        long = "temp",
+        value_name = "T",
+        default_value_t = 25.0,
+        allow_hyphen_values = true
+    )]
+    temp_c: f64,
+    /// Forward-voltage temperature coefficient per LED, mV/K (e.g. -2).
+    #[arg(
+        long = "tempco-mv",
+        value_name = "MV_PER_K",
+        allow_hyphen_values = true
+    )]
+    tempco_mv_per_k: Option<f64>,
+    /// A point at the second temperature `--hot-temp`, to fit the
+    /// temperature coefficient from (repeatable).
+    #[arg(long = "hot-point", value_name = "I,V", value_parser = parse_point)]
+    hot_points: Vec<(f64, f64)>,
+    /// Junction temperature of the `--hot-point` points, °C.
+    #[arg(long = "hot-temp", value_name = "T")]
+    hot_temp_c: Option<f64>,
+    /// LEDs in the string, for the fragment.
+    #[arg(long, default_value_t = 1)]
+    count: u32,
+    /// Print the fit as JSON.
+    #[arg(long)]
+    json: bool,
 }
 
 #[derive(Debug, clap::Args)]
@@ -85,6 +129,10 @@ struct RunArgs {
     /// (repeatable; values may use engineering notation such as `4.7u`).
     #[arg(long = "set", value_name = "PATH=VALUE", value_parser = parse_override)]
     overrides: Vec<(String, String)>,
+    /// Exit with code 3 when any design check fails (the summary is still
+    /// printed and the files written).
+    #[arg(long)]
+    strict: bool,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -104,6 +152,16 @@ impl From<EngineArg> for EngineKind {
     }
 }
 
+fn parse_point(s: &str) -> Result<(f64, f64), String> {
+    let bad = || format!("`{s}` is not CURRENT,VOLTAGE (for example 350m,2.95)");
+    let (i, v) = s.split_once(',').ok_or_else(bad)?;
+    let i = sim_core::units::parse_quantity(i.trim(), sim_core::units::Unit::Ampere)
+        .map_err(|e| format!("current in `{s}`: {e}"))?;
+    let v = sim_core::units::parse_quantity(v.trim(), sim_core::units::Unit::Volt)
+        .map_err(|e| format!("voltage in `{s}`: {e}"))?;
+    Ok((i, v))
+}
+
 fn parse_override(s: &str) -> Result<(String, String), String> {
     match s.split_once('=') {
         Some((p, v)) if !p.trim().is_empty() => Ok((p.trim().to_string(), v.trim().to_string())),
@@ -120,6 +178,8 @@ enum Failure {
     Input(String),
     /// The simulation failed or output could not be written: exit 1.
     Run(String),
+    /// A design check failed under `--strict`: exit 3.
+    Checks(String),
 }
 
 impl Failure {
@@ -127,11 +187,12 @@ impl Failure {
         match self {
             Failure::Input(_) => 2,
             Failure::Run(_) => 1,
+            Failure::Checks(_) => 3,
         }
     }
     fn message(&self) -> &str {
         match self {
-            Failure::Input(m) | Failure::Run(m) => m,
+            Failure::Input(m) | Failure::Run(m) | Failure::Checks(m) => m,
         }
     }
 }
@@ -180,12 +241,107 @@ fn dispatch(cli: Cli) -> Result<(), Failure> {
         Command::Check { file, overrides } => check(&file, &overrides),
         Command::Demo { out, engine } => demo(&out, engine.into(), quiet),
         Command::Template => {
-            let text = serde_json::to_string_pretty(&sim_core::scenario::template())
+            let text = serde_json::to_string_pretty(&sim_core::scenario::template_with_parts())
                 .map_err(|e| Failure::Run(e.to_string()))?;
             println!("{text}");
             Ok(())
         }
+        Command::FitLed(args) => fit_led(&args),
     }
+}
+
+fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
+    use sim_core::parts::fit::fit_led as fit;
+    if !(-60.0..=250.0).contains(&a.temp_c) {
+        return Err(Failure::Input(format!(
+            "--temp {}: outside -60 to 250 °C",
+            a.temp_c
+        )));
+    }
+    if a.count == 0 {
+        return Err(Failure::Input("--count must be at least 1".into()));
+    }
+    let f = fit(
+        &a.points,
+        a.temp_c,
+        a.tempco_mv_per_k.map(|t| t * 1e-3),
+        &a.hot_points,
+        a.hot_temp_c,
+    )
+    .map_err(|e| Failure::Input(format!("fit-led: {e}")))?;
+    let load = serde_json::json!({
+        "kind": "led_exponential",
+        "count": a.count,
+        "saturation_current_a": f.saturation_current_a,
+        "emission_coefficient": f.emission_coefficient,
+        "series_resistance_ohm": f.series_resistance_ohm,
+        "junction_temperature_c": f.temperature_c,
+    });
+    if a.json {
+        let out = serde_json::json!({ "fit": f, "load": load });
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&out).map_err(|e| Failure::Run(e.to_string()))?
+        );
+        return Ok(());
+    }
+    println!(
+        "Per-LED model v = n·Vt·ln(1 + i/Is) + Rs·i at {:.1} °C (least squares):",
+        f.temperature_c
+    );
+    println!("  Is = {:.6e} A", f.saturation_current_a);
+    println!("  n  = {:.6}", f.emission_coefficient);
+    println!("  Rs = {:.6} Ω", f.series_resistance_ohm);
+    println!(
+        "\n  {:>12}{:>12}{:>12}{:>14}",
+        "current", "datasheet", "model", "residual"
+    );
+    for (&(i, v), r) in a.points.iter().zip(&f.residuals_v) {
+        println!(
+            "  {:>12}{:>12}{:>12}{:>14}",
+            format::eng(i, "A"),
+            format!("{v:.4} V"),
+            format!("{:.4} V", v + r),
+            format!("{:+.2} mV", 1e3 * r)
+        );
+    }
+    if let Some(tc) = f.tempco_v_per_k {
+        let how = if a.tempco_mv_per_k.is_some() {
+            "given"
+        } else {
+            "fitted"
+        };
+        println!(
+            "\n  forward-voltage tempco {:+.3} mV/K per LED ({how})",
+            1e3 * tc
+        );
+        if let Some(th) = a.hot_temp_c {
+            for (&(i, v), r) in a.hot_points.iter().zip(&f.hot_residuals_v) {
+                println!(
+                    "  at {th:.1} °C: {} {v:.4} V, model {:.4} V ({:+.2} mV)",
+                    format::eng(i, "A"),
+                    v + r,
+                    1e3 * r
+                );
+            }
+        }
+    }
+    let mut fragment = serde_json::json!({ "load": load });
+    if let Some(tc) = f.tempco_v_per_k {
+        fragment["parts"] = serde_json::json!({
+            "led": {
+                "resistance_c_per_w": "(your LED's junction-to-ambient °C/W)",
+                "max_junction_temperature_c": "(from the datasheet)",
+                "forward_voltage_tempco_v_per_k": tc,
+            }
+        });
+    }
+    println!("\nScenario fragment to paste (fill in the thermal data where shown):");
+    println!(
+        "{}",
+        serde_json::to_string_pretty(&fragment).map_err(|e| Failure::Run(e.to_string()))?
+    );
+    Ok(())
 }
 
 /// Reads and validates a scenario file, with overrides.
@@ -259,8 +415,9 @@ fn summary_line(s: &Scenario) -> String {
     )
 }
 
-/// Runs the simulation with a progress display on a terminal.
-fn simulate_scenario(s: &Scenario, engine: EngineKind, quiet: bool) -> Result<SimResult, Failure> {
+/// Runs the real-part simulation (bias and temperature iteration, checks,
+/// alternatives) with a progress display on a terminal.
+fn simulate_scenario(s: &Scenario, engine: EngineKind, quiet: bool) -> Result<Assessment, Failure> {
     let show = !quiet && std::io::stderr().is_terminal();
     let start = Instant::now();
     let mut bar: Option<ProgressBar> = None;
@@ -284,11 +441,15 @@ fn simulate_scenario(s: &Scenario, engine: EngineKind, quiet: bool) -> Result<Si
             ));
         }
     };
-    let opts = RunOptions {
-        engine,
-        ..RunOptions::default()
+    let opts = AssessOptions {
+        run: RunOptions {
+            engine,
+            ..RunOptions::default()
+        },
+        // The alternatives are for LED strings.
+        alternatives: !matches!(s.load, sim_core::scenario::Load::Resistor { .. }),
     };
-    let result = simulate_with_progress(s, &opts, &mut on_progress);
+    let result = assess_with_progress(s, &opts, &mut on_progress);
     if let Some(b) = bar {
         b.finish_and_clear();
     }
@@ -322,15 +483,16 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     // Always record the start-up: the plots need it, and the summary
     // reports its inductor peak (it costs little next to the run).
     s.simulation.record_startup = true;
-    let r = simulate_scenario(&s, args.engine.into(), quiet)?;
-    let report = Report::new(&s, &r);
+    let a = simulate_scenario(&s, args.engine.into(), quiet)?;
+    let r = &a.result;
+    let report = Report::new(&s, &a);
     let mut written = Vec::new();
     if let Some(path) = &args.csv {
         output::write_csv(path, &r.waveform).map_err(io_failure)?;
         written.push(path.clone());
     }
     if let Some(dir) = &args.plot {
-        written.extend(write_plots(&s, &r, dir, &output::file_stem(&s.name)).map_err(io_failure)?);
+        written.extend(write_plots(&s, &a, dir, &output::file_stem(&s.name)).map_err(io_failure)?);
     }
     if args.json {
         println!("{}", report.to_json());
@@ -342,16 +504,37 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
             eprintln!("wrote {}", p.display());
         }
     }
+    if args.strict && worst(&a.checks) == Status::Fail {
+        let failed: Vec<&str> = a
+            .checks
+            .iter()
+            .filter(|c| c.status == Status::Fail)
+            .map(|c| c.check.as_str())
+            .collect();
+        return Err(Failure::Checks(format!(
+            "{} design check{} failed (--strict): {}",
+            failed.len(),
+            if failed.len() == 1 { "" } else { "s" },
+            failed.join("; ")
+        )));
+    }
     Ok(())
 }
 
-fn write_plots(s: &Scenario, r: &SimResult, dir: &Path, stem: &str) -> Result<Vec<PathBuf>> {
+fn write_plots(s: &Scenario, a: &Assessment, dir: &Path, stem: &str) -> Result<Vec<PathBuf>> {
+    let r: &SimResult = &a.result;
     output::ensure_dir(dir)?;
     let steady = dir.join(format!("{stem}-steady.png"));
     plot::steady_png(s, r, &steady).context("steady-state plot")?;
     let startup = dir.join(format!("{stem}-startup.png"));
     plot::startup_png(s, r, &startup).context("start-up plot")?;
-    Ok(vec![steady, startup])
+    let mut out = vec![steady, startup];
+    if a.comparison.is_some() {
+        let cmp = dir.join(format!("{stem}-alternatives.png"));
+        plot::alternatives_png(a, &cmp).context("alternatives plot")?;
+        out.push(cmp);
+    }
+    Ok(out)
 }
 
 fn mode_name(m: sim_core::metrics::ConductionMode) -> &'static str {
@@ -378,8 +561,8 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
         };
         s.simulation.record_startup = true;
         let started = Instant::now();
-        let r = match simulate_scenario(&s, engine, quiet) {
-            Ok(r) => r,
+        let a = match simulate_scenario(&s, engine, quiet) {
+            Ok(a) => a,
             Err(f) => {
                 failures.push(f.message().to_string());
                 continue;
@@ -387,7 +570,8 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
         };
         let elapsed = started.elapsed();
         let stem = b.stem();
-        let report = Report::new(&s, &r);
+        let report = Report::new(&s, &a);
+        let r = &a.result;
         let files = (|| -> Result<Vec<PathBuf>> {
             let mut f = Vec::new();
             let scenario_copy = out.join(format!("{stem}.scenario.json"));
@@ -399,7 +583,7 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
             let json = out.join(format!("{stem}.json"));
             output::write_text(&json, &(report.to_json() + "\n"))?;
             f.push(json);
-            f.extend(write_plots(&s, &r, out, &stem)?);
+            f.extend(write_plots(&s, &a, out, &stem)?);
             Ok(f)
         })();
         match files {

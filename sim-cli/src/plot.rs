@@ -13,6 +13,8 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::FontStyle;
 use sim_core::metrics::ConductionMode;
+use sim_core::parts::alternatives::{self, OperatingPoint};
+use sim_core::parts::assess::Assessment;
 use sim_core::record::Waveform;
 use sim_core::record::{COL_IL, COL_ILED, COL_TIME, COL_VIN, COL_VLED, COL_VSW};
 use sim_core::{Scenario, SimResult};
@@ -409,6 +411,129 @@ fn operating_point(s: &Scenario, r: &SimResult) -> String {
         mode,
         pct(m.efficiency)
     )
+}
+
+/// Writes the comparison plot: LED current, efficiency and driver loss
+/// versus supply voltage for the switching design (its simulated points)
+/// and the resistor and linear alternatives (drawn densely from their
+/// closed forms).
+pub fn alternatives_png(a: &Assessment, path: &Path) -> Result<()> {
+    let cmp = a
+        .comparison
+        .as_ref()
+        .ok_or_else(|| anyhow!("no alternatives were computed"))?;
+    let s = &a.effective;
+    let (v0, v1) = (
+        cmp.supply_v.first().copied().unwrap_or(s.supply.voltage_v),
+        cmp.supply_v.last().copied().unwrap_or(s.supply.voltage_v),
+    );
+    let (v0, v1) = if v1 > v0 {
+        (v0, v1)
+    } else {
+        (0.9 * v0, 1.1 * v0)
+    };
+    let dense: Vec<f64> = (0..=80).map(|k| v0 + (v1 - v0) * k as f64 / 80.0).collect();
+    let res: Vec<OperatingPoint> = cmp
+        .resistor_ohm
+        .map(|r| {
+            dense
+                .iter()
+                .map(|&v| alternatives::resistor_point(s, r, v))
+                .collect()
+        })
+        .unwrap_or_default();
+    let lin: Vec<OperatingPoint> = dense
+        .iter()
+        .map(|&v| alternatives::linear_point(s, cmp.target_current_a, cmp.linear_headroom_v, v))
+        .collect();
+    let sw: Vec<OperatingPoint> = cmp
+        .drivers
+        .iter()
+        .find(|d| d.driver == "switching")
+        .map(|d| d.points.iter().flatten().copied().collect())
+        .unwrap_or_default();
+    let col = |pts: &[OperatingPoint], f: fn(&OperatingPoint) -> f64| -> Vec<(f64, f64)> {
+        pts.iter().map(|p| (p.supply_v, f(p))).collect()
+    };
+    let series: [(&[OperatingPoint], &str, RGBColor); 3] = [
+        (&sw, "switching design (simulated points)", INDUCTOR),
+        (&res, "series resistor", LED),
+        (&lin, "linear regulator", VLED),
+    ];
+    let cur: Vec<Vec<(f64, f64)>> = series
+        .iter()
+        .map(|x| col(x.0, |p| p.led_current_a))
+        .collect();
+    let eff: Vec<Vec<(f64, f64)>> = series
+        .iter()
+        .map(|x| col(x.0, |p| 100.0 * p.efficiency))
+        .collect();
+    let loss: Vec<Vec<(f64, f64)>> = series
+        .iter()
+        .map(|x| col(x.0, |p| p.dissipation_w))
+        .collect();
+    fn traces<'a>(
+        series: &[(&[OperatingPoint], &str, RGBColor); 3],
+        data: &'a [Vec<(f64, f64)>],
+    ) -> Vec<Trace<'a>> {
+        series
+            .iter()
+            .zip(data)
+            .filter(|(_, d)| !d.is_empty())
+            .map(|(x, d)| Trace {
+                label: x.1.to_string(),
+                color: x.2,
+                width: 3,
+                points: d,
+            })
+            .collect()
+    }
+    let panels = [
+        Panel {
+            quantity: "LED current",
+            unit: "A",
+            traces: traces(&series, &cur),
+            markers: vec![Marker {
+                label: format!("target {}", eng(cmp.target_current_a, "A")),
+                color: LED_AVG,
+                y: cmp.target_current_a,
+            }],
+        },
+        Panel {
+            quantity: "efficiency",
+            unit: "%",
+            traces: traces(&series, &eff),
+            markers: vec![],
+        },
+        Panel {
+            quantity: "driver loss",
+            unit: "W",
+            traces: traces(&series, &loss),
+            markers: vec![],
+        },
+    ];
+    let subtitle = format!(
+        "same LED string, supply {} to {}   ·   resistor sized at {}   ·   linear headroom {}",
+        eng(v0, "V"),
+        eng(v1, "V"),
+        eng(s.supply.voltage_v, "V"),
+        eng(cmp.linear_headroom_v, "V")
+    );
+    let x_axis = Axis::for_magnitude(v1.abs());
+    render(path, |root| {
+        draw_stack(
+            root,
+            &format!(
+                "{} — switching vs resistor vs linear",
+                a.result.scenario_name
+            ),
+            &subtitle,
+            &format!("supply voltage ({}V)", x_axis.prefix),
+            (v0, v1),
+            &x_axis,
+            &panels,
+        )
+    })
 }
 
 /// Writes the steady-state plot of the last [`CYCLES_SHOWN`] recorded

@@ -5,6 +5,10 @@
 use crate::format::{eng, pct, sci};
 use serde::Serialize;
 use sim_core::metrics::{ConductionMode, LossEnergies, Metrics};
+use sim_core::parts::alternatives::Comparison;
+use sim_core::parts::assess::{Assessment, IterationInfo};
+use sim_core::parts::checks::{worst, CapacitorState, Check, Status};
+use sim_core::parts::thermal::PartTemperature;
 use sim_core::record::COL_IL;
 use sim_core::simulate::{FitReport, RunStats, SteadyInfo, SELV_LIMIT_V};
 use sim_core::{EngineKind, Scenario, SimResult};
@@ -21,7 +25,7 @@ pub const BRIGHT_LED_POWER_W: f64 = 0.5;
 pub const HOT_PARTS_LOSS_W: f64 = 1.0;
 
 /// Version of the JSON layout; bumped when a field changes meaning.
-pub const JSON_SCHEMA: &str = "chopwave-run-1";
+pub const JSON_SCHEMA: &str = "chopwave-run-2";
 
 /// Everything `chopwave run` reports about one steady-state run.
 #[derive(Debug, Clone, Serialize)]
@@ -65,6 +69,22 @@ pub struct Report {
     pub warnings: Vec<String>,
     /// Safety cautions for building and testing this design.
     pub cautions: Vec<String>,
+    /// The design-check table.
+    pub design_checks: Vec<Check>,
+    /// The worst status in the table (`--strict` exits 3 on `fail`).
+    pub design_verdict: Status,
+    /// What each capacitor saw (effective capacitance under DC bias).
+    pub capacitors: Vec<CapacitorState>,
+    /// Estimated part temperatures.
+    pub temperatures: Vec<PartTemperature>,
+    /// The capacitor-bias / LED-temperature iteration.
+    pub iteration: IterationInfo,
+    /// The resistor and linear alternatives beside the switching design.
+    pub alternatives: Option<Comparison>,
+    /// Whether any part data for the post-processed losses was given
+    /// (text layout only).
+    #[serde(skip)]
+    has_part_losses: bool,
     /// The controller in words (text layout only).
     #[serde(skip)]
     controller: String,
@@ -77,8 +97,9 @@ pub struct Report {
 }
 
 impl Report {
-    /// Builds the report of a run of `scenario`.
-    pub fn new(scenario: &Scenario, r: &SimResult) -> Report {
+    /// Builds the report of a real-part run of `scenario`.
+    pub fn new(scenario: &Scenario, a: &Assessment) -> Report {
+        let r: &SimResult = &a.result;
         let m = r.metrics;
         let input = m.input_power_w;
         let k = if input > 0.0 { 100.0 / input } else { 0.0 };
@@ -124,6 +145,30 @@ impl Report {
             controller: controller_words(&scenario.controller),
             has_input_capacitor: scenario.input_capacitor.is_some(),
             has_output_capacitor: scenario.output_capacitor.is_some(),
+            design_verdict: worst(&a.checks),
+            design_checks: a.checks.clone(),
+            capacitors: a.capacitors.clone(),
+            temperatures: a.temperatures.clone(),
+            iteration: IterationInfo {
+                runs: a.iterations,
+                converged: a.converged,
+                led_junction_c: a
+                    .temperatures
+                    .iter()
+                    .find(|t| t.part == "led")
+                    .map(|t| t.temperature_c),
+            },
+            alternatives: a.comparison.clone(),
+            has_part_losses: {
+                let p = &scenario.parts;
+                p.switch.rise_time_s > 0.0
+                    || p.switch.fall_time_s > 0.0
+                    || p.switch.gate_charge_c > 0.0
+                    || p.switch.output_capacitance_f > 0.0
+                    || p.diode.reverse_recovery_charge_c > 0.0
+                    || p.inductor.core.is_some()
+                    || p.controller.quiescent_current_a > 0.0
+            },
         }
     }
 
@@ -231,11 +276,19 @@ impl Report {
             eng(m.total_loss_w, "W"),
             total_pct
         );
-        let _ = writeln!(
-            o,
-            "  (conduction losses only: switching, gate-drive, diode-recovery and core losses \
-             are not modelled)"
-        );
+        if self.has_part_losses {
+            let _ = writeln!(
+                o,
+                "  (switching-edge, gate, output-capacitance, recovery, core and quiescent losses \
+                 are estimates from the simulated edges and ripple, drawn from the supply)"
+            );
+        } else {
+            let _ = writeln!(
+                o,
+                "  (conduction losses only: give parts.switch, parts.diode, parts.inductor.core \
+                 and parts.controller data for switching, recovery, core and quiescent losses)"
+            );
+        }
 
         let _ = writeln!(o, "\n  {:<24}{:>10}{:>10}", "part stresses", "peak", "RMS");
         let stress = |o: &mut String, name: &str, peak: Option<f64>, rms: f64| {
@@ -292,6 +345,112 @@ impl Report {
                 eng(m.switch_node_max_v, "V")
             ),
         );
+
+        if !self.capacitors.is_empty() {
+            let _ = writeln!(
+                o,
+                "\n  {:<24}{:>10}{:>11}{:>10}{:>10}",
+                "capacitors", "nominal", "effective", "avg V", "ripple"
+            );
+            for c in &self.capacitors {
+                let _ = writeln!(
+                    o,
+                    "  {:<24}{:>10}{:>11}{:>10}{:>10}",
+                    c.part.replace('_', " "),
+                    eng(c.nominal_f, "F"),
+                    eng(c.effective_f, "F"),
+                    eng(c.average_v, "V"),
+                    eng(c.ripple_rms_a, "A")
+                );
+            }
+        }
+        if !self.temperatures.is_empty() {
+            let _ = writeln!(
+                o,
+                "\n  {:<24}{:>10}{:>10}{:>10}",
+                "temperatures", "heat", "estimate", "maximum"
+            );
+            for t in &self.temperatures {
+                let _ = writeln!(
+                    o,
+                    "  {:<24}{:>10}{:>8.0} °C{:>7.0} °C",
+                    if t.part == "led" {
+                        "LED junction (each)".to_string()
+                    } else {
+                        t.part.replace('_', " ")
+                    },
+                    eng(t.dissipation_w, "W"),
+                    t.temperature_c,
+                    t.max_temperature_c
+                );
+            }
+        }
+
+        let _ = writeln!(o, "\nDesign checks");
+        for c in &self.design_checks {
+            let status = match c.status {
+                Status::Ok => "ok",
+                Status::Warn => "WARN",
+                Status::Fail => "FAIL",
+            };
+            let value = check_value(c.value, c.unit);
+            let limit = c.limit.map_or("—".to_string(), |l| check_value(l, c.unit));
+            let _ = writeln!(
+                o,
+                "  {status:<5} {:<48}{value:>11} (limit {limit})",
+                c.check
+            );
+            let _ = writeln!(o, "        {}", c.source);
+        }
+        if let Some(cmp) = &self.alternatives {
+            let _ = writeln!(
+                o,
+                "\nAlternatives for the same LEDs at {} target",
+                eng(cmp.target_current_a, "A")
+            );
+            let head: Vec<String> = cmp.supply_v.iter().map(|v| eng(*v, "V")).collect();
+            let _ = writeln!(
+                o,
+                "  {:<12}{:>32}  {}",
+                "driver",
+                "LED current / efficiency / loss at",
+                head.join(", ")
+            );
+            for d in &cmp.drivers {
+                let cells: Vec<String> = d
+                    .points
+                    .iter()
+                    .map(|p| match p {
+                        Some(p) => format!(
+                            "{} {} {}",
+                            eng(p.led_current_a, "A"),
+                            pct(p.efficiency),
+                            eng(p.dissipation_w, "W")
+                        ),
+                        None => "does not run".to_string(),
+                    })
+                    .collect();
+                let var = d
+                    .current_variation_pct
+                    .map_or(String::new(), |v| format!("  (current varies {v:.1} %)"));
+                let _ = writeln!(o, "  {:<12}{}{var}", d.driver, cells.join(" | "));
+            }
+            if let (Some(r), Some(k)) = (cmp.resistor_ohm, cmp.resistor_sensitivity_a_per_v) {
+                let _ = writeln!(
+                    o,
+                    "  resistor {}: 1 V more supply gives {} more LED current \
+                     (1/(R + r_d), LED dynamic resistance r_d = {})",
+                    eng(r, "Ω"),
+                    eng(k, "A"),
+                    eng(cmp.led_dynamic_resistance_ohm, "Ω")
+                );
+            }
+            let _ = writeln!(
+                o,
+                "  linear regulator assumed to need {} headroom (common practice)",
+                eng(cmp.linear_headroom_v, "V")
+            );
+        }
 
         let _ = writeln!(o, "\nModel");
         let fit = |err: Option<f64>, n: usize| match err {
@@ -354,6 +513,16 @@ impl Report {
     }
 }
 
+/// A check's value in engineering notation (or plain for % and °C).
+fn check_value(v: f64, unit: &str) -> String {
+    match unit {
+        "%" => format!("{v:.1} %"),
+        "°C" => format!("{v:.0} °C"),
+        "" => format!("{v:.3}"),
+        u => eng(v, u),
+    }
+}
+
 /// The inductor valley current with round-off below a millionth of the
 /// peak shown as zero (in DCM the valley is zero up to round-off), A.
 pub fn clean_valley(m: &Metrics) -> f64 {
@@ -395,6 +564,28 @@ fn loss_rows(w: &LossEnergies, p: &LossEnergies) -> Vec<(&'static str, f64, f64)
             "reverse-current clamp",
             w.reverse_current_clamp,
             p.reverse_current_clamp,
+        ),
+        (
+            "switch transitions",
+            w.switch_transition,
+            p.switch_transition,
+        ),
+        ("gate drive", w.switch_gate_drive, p.switch_gate_drive),
+        (
+            "switch output capacitance",
+            w.switch_output_capacitance,
+            p.switch_output_capacitance,
+        ),
+        (
+            "diode reverse recovery",
+            w.diode_reverse_recovery,
+            p.diode_reverse_recovery,
+        ),
+        ("inductor core", w.inductor_core, p.inductor_core),
+        (
+            "controller quiescent",
+            w.controller_quiescent,
+            p.controller_quiescent,
         ),
     ]
     .into_iter()

@@ -472,10 +472,12 @@ fn demo_writes_everything_it_claims() {
         .map(|p| d.join(p.trim()))
         .collect();
     let n = bundled_files().len();
+    // Every bundled scenario drives LEDs, so each also gets the
+    // alternatives plot: six files per scenario and an index.
     assert_eq!(
         claimed.len(),
-        5 * n + 1,
-        "five files per scenario and an index:\n{text}"
+        6 * n + 1,
+        "six files per scenario and an index:\n{text}"
     );
     for p in &claimed {
         assert!(p.is_file(), "claimed but missing: {}", p.display());
@@ -488,6 +490,7 @@ fn demo_writes_everything_it_claims() {
         .unwrap();
         assert_eq!(j["scenario"], stem);
         assert_readable_png(&out.join(format!("{stem}-steady.png")));
+        assert_readable_png(&out.join(format!("{stem}-alternatives.png")));
     }
 }
 

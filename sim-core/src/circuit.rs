@@ -15,7 +15,7 @@
 //! ([`Linear::signals`]). [`Circuit::linearize`] builds both by evaluating
 //! the (affine) circuit equations at `z = e_j`.
 
-use crate::devices::{ExpDevice, PwlCurve};
+use crate::devices::{ExpDevice, InductanceCurve, PwlCurve};
 use crate::scenario::{Diode, Load, Scenario};
 use nalgebra::{SMatrix, SVector};
 
@@ -80,6 +80,8 @@ pub struct Region {
     pub diode_segment: u8,
     /// LED segment, or `None` below the knee.
     pub led_segment: Option<u8>,
+    /// Inductance segment of a saturating inductor (0 without one).
+    pub l_segment: u8,
 }
 
 impl Region {
@@ -90,6 +92,11 @@ impl Region {
             (true, false) => "on-blocked".to_string(),
             (false, true) => format!("off/diode[{}]", self.diode_segment),
             (false, false) => "idle".to_string(),
+        };
+        let sw = if self.l_segment > 0 {
+            format!("{sw}/L[{}]", self.l_segment)
+        } else {
+            sw
         };
         match self.led_segment {
             Some(k) => format!("{sw}/led[{k}]"),
@@ -125,8 +132,10 @@ pub struct Circuit {
     pub input_cap: Option<(f64, f64)>,
     /// Switch on-resistance, ohms.
     pub switch_ohm: f64,
-    /// Inductance, H.
+    /// Inductance, H (the value at zero current with a saturation curve).
     pub inductance_h: f64,
+    /// The soft-saturation curve, when the part gives one.
+    pub saturation: Option<InductanceCurve>,
     /// Inductor DCR, ohms.
     pub dcr_ohm: f64,
     /// Output capacitance, F, and ESR, ohms.
@@ -206,12 +215,23 @@ impl Circuit {
                 Some((c.capacitance_f, c.esr_ohm))
             }
         });
+        let saturation = (!s.parts.inductor.saturation_curve.is_empty()).then(|| {
+            let pts: Vec<(f64, f64)> = s
+                .parts
+                .inductor
+                .saturation_curve
+                .iter()
+                .map(|p| (p.current_a, p.inductance_h))
+                .collect();
+            InductanceCurve::new(&pts)
+        });
         Circuit {
             supply_v: s.supply.voltage_v,
             source_ohm: s.supply.source_resistance_ohm,
             input_cap,
             switch_ohm: s.switch.on_resistance_ohm,
-            inductance_h: s.inductor.inductance_h,
+            inductance_h: saturation.map_or(s.inductor.inductance_h, |c| c.inductance_h(0.0)),
+            saturation,
             dcr_ohm: s.inductor.dcr_ohm,
             output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
             diode,
@@ -228,7 +248,7 @@ impl Circuit {
 
     /// Energy stored in the inductor and capacitors, J.
     pub fn stored_energy_j(&self, x: &SVector<f64, N_STATES>) -> f64 {
-        let mut e = 0.5 * self.inductance_h * x[X_IL] * x[X_IL];
+        let mut e = self.inductor_energy_j(x[X_IL]);
         if let Some((c, _)) = self.output_cap {
             e += 0.5 * c * x[X_VCO] * x[X_VCO];
         }
@@ -238,12 +258,40 @@ impl Circuit {
         e
     }
 
+    /// Energy in the inductor at current `i`, J (segment by segment for a
+    /// saturating inductor).
+    pub fn inductor_energy_j(&self, i: f64) -> f64 {
+        match &self.saturation {
+            Some(c) => c.energy_segmented_j(i),
+            None => 0.5 * self.inductance_h * i * i,
+        }
+    }
+
+    /// The inductance segment for current `i` (0 without saturation).
+    pub fn l_segment_for(&self, i: f64) -> u8 {
+        self.saturation
+            .as_ref()
+            .map_or(0, |c| c.segment_for(i) as u8)
+    }
+
+    /// The inductance in a region, H.
+    pub fn inductance_in(&self, region: Region) -> f64 {
+        match &self.saturation {
+            Some(c) => c.seg_h[(region.l_segment as usize).min(c.segments - 1)],
+            None => self.inductance_h,
+        }
+    }
+
     /// A bound on the highest natural angular frequency of the circuit,
     /// rad/s: the inductor against the series combination of the capacitors.
     pub fn max_angular_frequency(&self) -> f64 {
         let inv_c: f64 =
             self.input_cap.map_or(0.0, |c| 1.0 / c.0) + self.output_cap.map_or(0.0, |c| 1.0 / c.0);
-        (inv_c / self.inductance_h).sqrt()
+        let l_min = self
+            .saturation
+            .as_ref()
+            .map_or(self.inductance_h, |c| c.min_h());
+        (inv_c / l_min).sqrt()
     }
 
     /// The input-node voltage and the source and input-capacitor currents
@@ -330,7 +378,7 @@ impl Circuit {
             (vo, 0.0, 0.0)
         };
         let dil = if region.conducting {
-            (v_sw - self.dcr_ohm * il - vo) / self.inductance_h
+            (v_sw - self.dcr_ohm * il - vo) / self.inductance_in(region)
         } else {
             0.0
         };
@@ -388,6 +436,7 @@ impl Circuit {
                             conducting,
                             diode_segment,
                             led_segment: Some(k as u8),
+                            l_segment: 0,
                         };
                         let z = [x[0], x[1], x[2], 1.0];
                         let i_led = self.eval(r, &z).sig[Signal::LedCurrent as usize];
@@ -416,6 +465,7 @@ impl Circuit {
                         conducting: true,
                         diode_segment,
                         led_segment: Some(0),
+                        l_segment: 0,
                     };
                     self.derivative_il(r, x) > 0.0
                 }
@@ -428,6 +478,11 @@ impl Circuit {
             conducting,
             diode_segment,
             led_segment: led_for(conducting, diode_segment),
+            l_segment: if conducting {
+                self.l_segment_for(il)
+            } else {
+                0
+            },
         };
         // At the knee with a capacitor: decide by the direction of travel.
         if let (Some(_), Some(0)) = (self.output_cap, region.led_segment) {

@@ -37,6 +37,8 @@ enum Action {
     LedUp,
     LedOff,
     LedOn,
+    SatDown,
+    SatUp,
 }
 
 /// Regions remembered with their matrices and eigen-decompositions.
@@ -261,7 +263,7 @@ impl ExactEngine {
         &mut self,
         lin: &Linear,
         spectral: Option<&Spectral>,
-        totals: Option<&mut Totals>,
+        mut totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
         let region = self.region;
@@ -320,6 +322,18 @@ impl ExactEngine {
             }
             row[X_IL] = 0.0;
             Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Unblock);
+        }
+        // A saturating inductor: the current crossing a segment boundary.
+        if let (Some(sat), true) = (self.circuit.saturation.as_ref(), region.conducting) {
+            let k = region.l_segment as usize;
+            if k > 0 {
+                let row = one * sat.upper_a[k - 1] - il_row;
+                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatDown);
+            }
+            if k + 1 < sat.segments {
+                let row = il_row - one * sat.upper_a[k];
+                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatUp);
+            }
         }
         let i_led_row = lin.row(Signal::LedCurrent);
         match (has_co, region.led_segment) {
@@ -420,7 +434,7 @@ impl ExactEngine {
         }
 
         if dt > 0.0 {
-            if let Some(tot) = totals {
+            if let Some(tot) = totals.as_deref_mut() {
                 self.accumulate(&flow, tot, lin, region, &z0, &z1, dt);
             }
             if let Some(r) = rec {
@@ -456,12 +470,29 @@ impl ExactEngine {
                 self.cmd = new;
                 if changed {
                     self.switch_changed_t = self.t;
+                    let pre = lin.signals * aug(&self.x);
+                    let il = self.x[X_IL];
+                    let diode_on = !region.switch_on && region.conducting && il > 0.0;
                     self.switch_transition(new.switch_on);
+                    if let Some(tot) = totals {
+                        // The switch's blocked voltage on the open side of
+                        // the edge, for the post-processed switching losses.
+                        let post = self.circuit.linearize(self.region).signals * aug(&self.x);
+                        let (vin, vsw) = (Signal::InputNode as usize, Signal::SwitchNode as usize);
+                        let blocked = if new.switch_on {
+                            pre[vin] - pre[vsw]
+                        } else {
+                            post[vin] - post[vsw]
+                        };
+                        let recovery = (new.switch_on && diode_on).then_some(post[vsw]);
+                        tot.edges.note(new.switch_on, il, blocked, recovery);
+                    }
                 }
             }
             Action::DiodeOff | Action::Block => {
                 self.x[X_IL] = 0.0;
                 self.region.conducting = false;
+                self.region.l_segment = 0;
                 if !has_co {
                     self.region.led_segment = None;
                 }
@@ -480,6 +511,8 @@ impl ExactEngine {
             }
             Action::LedOff => self.region.led_segment = None,
             Action::LedOn => self.region.led_segment = Some(0),
+            Action::SatDown => self.region.l_segment -= 1,
+            Action::SatUp => self.region.l_segment += 1,
         }
         Ok(turned_on)
     }
@@ -504,9 +537,10 @@ impl ExactEngine {
             // A reverse current is cut off at turn-off (the switch's body
             // diode returns it to the input within nanoseconds); count its
             // energy as a loss of its own.
-            self.clamped_energy_j += 0.5 * self.circuit.inductance_h * il * il;
+            self.clamped_energy_j += self.circuit.inductor_energy_j(il);
             self.x[X_IL] = 0.0;
             self.region.conducting = false;
+            self.region.l_segment = 0;
             if self.circuit.output_cap.is_none() {
                 self.region.led_segment = None;
             }

@@ -35,6 +35,7 @@ pub mod devices;
 pub mod engine;
 pub mod error;
 pub mod metrics;
+pub mod parts;
 pub mod propagate;
 pub mod record;
 pub mod reference;

@@ -70,6 +70,55 @@ pub struct Totals {
     pub vsw_min: f64,
     /// Highest LED voltage, V.
     pub vled_max: f64,
+    /// The switching edges seen (for the post-processed switching losses).
+    pub edges: EdgeTotals,
+    /// Energy the part losses computed after the run draw from the supply
+    /// (transition, gate, output capacitance, recovery, core, quiescent),
+    /// J; included in `e_in` and in `loss`.
+    pub e_parts: f64,
+}
+
+/// Sums over the switching edges of the measured cycles, filled by both
+/// engines at each change of the switch state.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct EdgeTotals {
+    /// Turn-on edges.
+    pub turn_ons: u64,
+    /// Turn-off edges.
+    pub turn_offs: u64,
+    /// Σ V·I at turn-on: the voltage the switch blocked just before and the
+    /// current it takes over, V·A.
+    pub on_vi: f64,
+    /// Σ V·I at turn-off: the current it carried and the voltage it blocks
+    /// just after, V·A.
+    pub off_vi: f64,
+    /// Σ V² of the blocked voltage at turn-on (output-capacitance loss), V².
+    pub on_v2: f64,
+    /// Σ of the diode's reverse voltage just after each turn-on that cut off
+    /// a conducting diode (reverse recovery), V.
+    pub recovery_v: f64,
+}
+
+impl EdgeTotals {
+    /// Notes one edge. `on`: turn-on; `current_a`: inductor current at the
+    /// edge; `blocked_v`: voltage across the open switch (before turn-on or
+    /// after turn-off); `recovery_v`: the diode's reverse voltage after a
+    /// turn-on that cut off diode conduction.
+    pub fn note(&mut self, on: bool, current_a: f64, blocked_v: f64, recovery_v: Option<f64>) {
+        let i = current_a.max(0.0);
+        let v = blocked_v.max(0.0);
+        if on {
+            self.turn_ons += 1;
+            self.on_vi += v * i;
+            self.on_v2 += v * v;
+            if let Some(vr) = recovery_v {
+                self.recovery_v += vr.max(0.0);
+            }
+        } else {
+            self.turn_offs += 1;
+            self.off_vi += v * i;
+        }
+    }
 }
 
 impl Totals {
@@ -106,6 +155,18 @@ pub struct LossEnergies {
     /// Energy dropped when a reverse inductor current was cut off at
     /// turn-off (only with an output capacitor charged above the input).
     pub reverse_current_clamp: f64,
+    /// Switch turn-on and turn-off transitions (linear-ramp estimate).
+    pub switch_transition: f64,
+    /// Gate drive, Q_g·V_drive per cycle.
+    pub switch_gate_drive: f64,
+    /// Switch output capacitance discharged at each turn-on, ½·C_oss·V².
+    pub switch_output_capacitance: f64,
+    /// Diode reverse recovery, Q_rr·V per turn-on.
+    pub diode_reverse_recovery: f64,
+    /// Inductor core (Steinmetz equation).
+    pub inductor_core: f64,
+    /// Controller quiescent current from the supply.
+    pub controller_quiescent: f64,
 }
 
 impl LossEnergies {
@@ -118,6 +179,12 @@ impl LossEnergies {
             + self.inductor_dcr
             + self.output_capacitor_esr
             + self.reverse_current_clamp
+            + self.switch_transition
+            + self.switch_gate_drive
+            + self.switch_output_capacitance
+            + self.diode_reverse_recovery
+            + self.inductor_core
+            + self.controller_quiescent
     }
 
     /// Every entry multiplied by `k` (e.g. 1/time for watts).
@@ -130,6 +197,12 @@ impl LossEnergies {
             inductor_dcr: self.inductor_dcr * k,
             output_capacitor_esr: self.output_capacitor_esr * k,
             reverse_current_clamp: self.reverse_current_clamp * k,
+            switch_transition: self.switch_transition * k,
+            switch_gate_drive: self.switch_gate_drive * k,
+            switch_output_capacitance: self.switch_output_capacitance * k,
+            diode_reverse_recovery: self.diode_reverse_recovery * k,
+            inductor_core: self.inductor_core * k,
+            controller_quiescent: self.controller_quiescent * k,
         }
     }
 
@@ -142,6 +215,12 @@ impl LossEnergies {
         self.inductor_dcr += o.inductor_dcr;
         self.output_capacitor_esr += o.output_capacitor_esr;
         self.reverse_current_clamp += o.reverse_current_clamp;
+        self.switch_transition += o.switch_transition;
+        self.switch_gate_drive += o.switch_gate_drive;
+        self.switch_output_capacitance += o.switch_output_capacitance;
+        self.diode_reverse_recovery += o.diode_reverse_recovery;
+        self.inductor_core += o.inductor_core;
+        self.controller_quiescent += o.controller_quiescent;
     }
 }
 

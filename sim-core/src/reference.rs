@@ -31,7 +31,7 @@
 
 use crate::circuit::N_STATES;
 use crate::controller::{self, Cause, Command, Controller};
-use crate::devices::ExpDevice;
+use crate::devices::{ExpDevice, InductanceCurve};
 use crate::error::SimError;
 use crate::metrics::Totals;
 use crate::record::{Recorder, Sample};
@@ -127,6 +127,8 @@ struct Model {
     input_cap: Option<(f64, f64)>,
     switch_ohm: f64,
     inductance_h: f64,
+    /// Soft saturation: the continuous L(i) of the part's points.
+    saturation: Option<InductanceCurve>,
     dcr_ohm: f64,
     output_cap: Option<(f64, f64)>,
     led: Curve,
@@ -227,12 +229,23 @@ impl Model {
                 Some((c.capacitance_f, c.esr_ohm))
             }
         });
+        let saturation = (!s.parts.inductor.saturation_curve.is_empty()).then(|| {
+            let pts: Vec<(f64, f64)> = s
+                .parts
+                .inductor
+                .saturation_curve
+                .iter()
+                .map(|p| (p.current_a, p.inductance_h))
+                .collect();
+            InductanceCurve::new(&pts)
+        });
         Model {
             supply_v: s.supply.voltage_v,
             source_ohm: s.supply.source_resistance_ohm,
             input_cap,
             switch_ohm: s.switch.on_resistance_ohm,
-            inductance_h: s.inductor.inductance_h,
+            inductance_h: saturation.map_or(s.inductor.inductance_h, |c| c.inductance_h(0.0)),
+            saturation,
             dcr_ohm: s.inductor.dcr_ohm,
             output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
             led,
@@ -333,7 +346,7 @@ impl Model {
             (vo, 0.0, 0.0)
         };
         let dil = if mode.conducting {
-            (vsw - self.dcr_ohm * il - vo) / self.inductance_h
+            (vsw - self.dcr_ohm * il - vo) / self.l_at(il)
         } else {
             0.0
         };
@@ -377,8 +390,23 @@ impl Model {
         }
     }
 
+    /// Incremental inductance at current `il`, H.
+    fn l_at(&self, il: f64) -> f64 {
+        self.saturation
+            .as_ref()
+            .map_or(self.inductance_h, |c| c.inductance_h(il))
+    }
+
+    /// Energy in the inductor at current `il`, J (∫ i dψ).
+    fn inductor_energy_j(&self, il: f64) -> f64 {
+        match &self.saturation {
+            Some(c) => c.energy_continuous_j(il),
+            None => 0.5 * self.inductance_h * il * il,
+        }
+    }
+
     fn stored_energy_j(&self, x: &[f64; N_STATES]) -> f64 {
-        let mut e = 0.5 * self.inductance_h * x[0] * x[0];
+        let mut e = self.inductor_energy_j(x[0]);
         if let Some((c, _)) = self.output_cap {
             e += 0.5 * c * x[1] * x[1];
         }
@@ -821,7 +849,7 @@ impl ReferenceEngine {
     /// Simulates up to the next event; returns whether the switch turned on.
     fn interval(
         &mut self,
-        totals: Option<&mut Totals>,
+        mut totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
         let ctx = self.ctx;
@@ -890,7 +918,7 @@ impl ReferenceEngine {
 
         if let Some(s) = &seg {
             if dt > 0.0 {
-                if let Some(tot) = totals {
+                if let Some(tot) = totals.as_deref_mut() {
                     self.accumulate(tot, s, dt);
                 }
                 if let Some(r) = rec {
@@ -935,7 +963,22 @@ impl ReferenceEngine {
                 self.cmd = new;
                 if changed {
                     self.switch_changed_t = self.t;
+                    let pre = ctx.sig(self.mode, &self.scaled_state());
+                    let il = self.x[0];
+                    let diode_on = !mode.switch_on && mode.conducting && il > 0.0;
                     self.switch_transition(new.switch_on);
+                    if let Some(tot) = totals {
+                        // As in the exact engine: the blocked voltage on the
+                        // open side of the edge.
+                        let post = ctx.sig(self.mode, &self.scaled_state());
+                        let blocked = if new.switch_on {
+                            pre.vin - pre.vsw
+                        } else {
+                            post.vin - post.vsw
+                        };
+                        let recovery = (new.switch_on && diode_on).then_some(post.vsw);
+                        tot.edges.note(new.switch_on, il, blocked, recovery);
+                    }
                 }
             }
             Some(EventKind::DiodeOff { .. }) | Some(EventKind::Block { .. }) => {
@@ -964,7 +1007,7 @@ impl ReferenceEngine {
             // A reverse current is cut off at turn-off (returned to the
             // input by the switch's body diode); its energy is a loss of
             // its own, as in the exact engine.
-            self.clamped_energy_j += 0.5 * self.ctx.model.inductance_h * il * il;
+            self.clamped_energy_j += self.ctx.model.inductor_energy_j(il);
             self.x[0] = 0.0;
             self.mode.conducting = false;
         }

@@ -48,6 +48,11 @@ pub struct Scenario {
     /// Engine settings.
     #[serde(default)]
     pub simulation: SimSettings,
+    /// Datasheet data of the real parts: switching and core losses,
+    /// ratings, capacitor dielectrics, thermal resistances, controller
+    /// limits (all optional; see [`PartData`]).
+    #[serde(default, skip_serializing_if = "PartData::is_empty")]
+    pub parts: PartData,
 }
 
 /// The DC supply: an ideal source behind a series resistance.
@@ -284,6 +289,612 @@ impl Default for SimSettings {
     }
 }
 
+// ---------------------------------------------------------------------------
+// Real-part data (the `parts` section). Kept in its own block: every field
+// is optional and defaults to "not given", so files without it keep their
+// meaning exactly.
+
+/// Datasheet data of the real parts, the ambient and the design intent.
+///
+/// Everything defaults to "not given": no extra loss, no check. The
+/// switching, recovery, core and quiescent losses are computed from the
+/// simulated waveforms after each run (see `parts::losses`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct PartData {
+    /// Ambient air temperature around the parts, °C.
+    #[serde(default = "default_temp_c", deserialize_with = "de_c")]
+    pub ambient_temperature_c: f64,
+    /// The conduction mode the design is meant to run in.
+    pub intended_mode: IntendedMode,
+    /// Allowed deviation of the average LED current from its target, %
+    /// (None: no accuracy check).
+    #[serde(
+        deserialize_with = "de_opt_ratio",
+        skip_serializing_if = "Option::is_none"
+    )]
+    pub current_accuracy_pct: Option<f64>,
+    /// The average LED current the design is meant to deliver, A, for the
+    /// accuracy check (None: the controller's target).
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub led_current_target_a: Option<f64>,
+    /// Switch transition, gate and output-capacitance data, ratings.
+    pub switch: SwitchData,
+    /// Diode recovery data and ratings.
+    pub diode: DiodeData,
+    /// Inductor core and ratings.
+    pub inductor: InductorData,
+    /// Input capacitor dielectric and ratings.
+    pub input_capacitor: CapacitorData,
+    /// Output capacitor dielectric and ratings.
+    pub output_capacitor: CapacitorData,
+    /// LED string thermal data.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub led: Option<LedThermal>,
+    /// Controller IC data: quiescent current and its allowed ranges.
+    pub controller: ControllerIc,
+}
+
+impl Default for PartData {
+    fn default() -> Self {
+        PartData {
+            ambient_temperature_c: default_temp_c(),
+            intended_mode: IntendedMode::Either,
+            current_accuracy_pct: None,
+            led_current_target_a: None,
+            switch: SwitchData::default(),
+            diode: DiodeData::default(),
+            inductor: InductorData::default(),
+            input_capacitor: CapacitorData::default(),
+            output_capacitor: CapacitorData::default(),
+            led: None,
+            controller: ControllerIc::default(),
+        }
+    }
+}
+
+impl PartData {
+    /// True when nothing is given (the section is then left out of files).
+    pub fn is_empty(&self) -> bool {
+        *self == PartData::default()
+    }
+}
+
+/// The conduction mode a design is meant to run in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum IntendedMode {
+    /// No intent stated: no conduction-mode check.
+    #[default]
+    Either,
+    /// Continuous conduction intended: DCM or the boundary is flagged.
+    Ccm,
+    /// Discontinuous conduction intended: CCM is flagged.
+    Dcm,
+}
+
+/// A part's thermal path: resistance to ambient and the highest allowed
+/// temperature.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Thermal {
+    /// Thermal resistance from the part (junction or hot spot) to
+    /// ambient, °C/W (K/W).
+    #[serde(deserialize_with = "de_ratio")]
+    pub resistance_c_per_w: f64,
+    /// Highest allowed temperature, °C.
+    #[serde(deserialize_with = "de_c")]
+    pub max_temperature_c: f64,
+}
+
+/// Switch data beyond its on-resistance.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct SwitchData {
+    /// Current rise time at turn-on, s.
+    #[serde(deserialize_with = "de_s")]
+    pub rise_time_s: f64,
+    /// Current fall time at turn-off, s.
+    #[serde(deserialize_with = "de_s")]
+    pub fall_time_s: f64,
+    /// Total gate charge at the drive voltage, C.
+    #[serde(deserialize_with = "de_coulomb")]
+    pub gate_charge_c: f64,
+    /// Gate drive voltage, V.
+    #[serde(deserialize_with = "de_v")]
+    pub gate_drive_v: f64,
+    /// Output capacitance (drain-source), F.
+    #[serde(deserialize_with = "de_f")]
+    pub output_capacitance_f: f64,
+    /// Rated blocking voltage, V.
+    #[serde(deserialize_with = "de_opt_v", skip_serializing_if = "Option::is_none")]
+    pub voltage_rating_v: Option<f64>,
+    /// Rated peak (pulsed) current, A.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub peak_current_rating_a: Option<f64>,
+    /// Rated continuous (RMS) current, A.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub rms_current_rating_a: Option<f64>,
+    /// Thermal path.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub thermal: Option<Thermal>,
+}
+
+/// Diode data beyond its forward curve.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct DiodeData {
+    /// Reverse-recovery charge, C (0 for a Schottky diode).
+    #[serde(deserialize_with = "de_coulomb")]
+    pub reverse_recovery_charge_c: f64,
+    /// Rated repetitive reverse voltage, V.
+    #[serde(deserialize_with = "de_opt_v", skip_serializing_if = "Option::is_none")]
+    pub voltage_rating_v: Option<f64>,
+    /// Rated repetitive peak forward current, A.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub peak_current_rating_a: Option<f64>,
+    /// Rated RMS forward current, A.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub rms_current_rating_a: Option<f64>,
+    /// Thermal path.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub thermal: Option<Thermal>,
+}
+
+/// Inductor core, saturation curve and ratings.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct InductorData {
+    /// Incremental inductance versus current from the part's data (2 to 8
+    /// points, currents rising from 0 or above): when given it replaces
+    /// `inductor.inductance_h`, straight lines between the points, held
+    /// beyond them. Both engines simulate it (see `devices::InductanceCurve`).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub saturation_curve: Vec<InductancePoint>,
+    /// The core, for the Steinmetz core loss.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub core: Option<Core>,
+    /// Rated RMS (heating) current, A.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub rms_current_rating_a: Option<f64>,
+    /// Thermal path.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub thermal: Option<Thermal>,
+}
+
+/// One point of an inductance-versus-current curve.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct InductancePoint {
+    /// Inductor current, A.
+    #[serde(deserialize_with = "de_a")]
+    pub current_a: f64,
+    /// Incremental inductance there, H.
+    #[serde(deserialize_with = "de_h")]
+    pub inductance_h: f64,
+}
+
+/// An inductor core: geometry, turns and the material's Steinmetz
+/// coefficients, P_v = k·f^α·B̂^β (W/m³ with f in Hz and B̂ in T).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Core {
+    /// Number of turns.
+    pub turns: u32,
+    /// Effective core cross-section A_e, m².
+    #[serde(deserialize_with = "de_ratio")]
+    pub area_m2: f64,
+    /// Effective core volume V_e, m³.
+    #[serde(deserialize_with = "de_ratio")]
+    pub volume_m3: f64,
+    /// Steinmetz k, W/m³ at f = 1 Hz and B̂ = 1 T.
+    #[serde(deserialize_with = "de_ratio")]
+    pub steinmetz_k: f64,
+    /// Steinmetz frequency exponent α.
+    #[serde(deserialize_with = "de_ratio")]
+    pub steinmetz_alpha: f64,
+    /// Steinmetz flux exponent β.
+    #[serde(deserialize_with = "de_ratio")]
+    pub steinmetz_beta: f64,
+}
+
+/// Capacitor dielectric classes (EIA codes for ceramics).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Dielectric {
+    /// Not stated: capacitance as given, no class-specific derating.
+    #[default]
+    Unspecified,
+    /// Class 1 ceramic, C0G (NP0): no DC-bias loss.
+    C0g,
+    /// Class 2 ceramic, X7R.
+    X7r,
+    /// Class 2 ceramic, X5R.
+    X5r,
+    /// Class 2 ceramic, Y5V.
+    Y5v,
+    /// Aluminium electrolytic.
+    AluminiumElectrolytic,
+    /// Solid tantalum (MnO₂).
+    Tantalum,
+    /// Conductive-polymer (aluminium or tantalum).
+    Polymer,
+}
+
+impl Dielectric {
+    /// True for the ceramic classes.
+    pub fn is_ceramic(self) -> bool {
+        matches!(
+            self,
+            Dielectric::C0g | Dielectric::X7r | Dielectric::X5r | Dielectric::Y5v
+        )
+    }
+}
+
+/// One point of a capacitance-versus-DC-bias curve.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BiasPoint {
+    /// DC bias as a fraction of the rated voltage (0..1.5).
+    #[serde(deserialize_with = "de_ratio")]
+    pub bias_fraction: f64,
+    /// Remaining capacitance as a fraction of the nominal (0..1).
+    #[serde(deserialize_with = "de_ratio")]
+    pub capacitance_fraction: f64,
+}
+
+/// A capacitor's dielectric, tolerance and ratings.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct CapacitorData {
+    /// Dielectric class.
+    pub dielectric: Dielectric,
+    /// Capacitance tolerance, ± % (reported as the low end).
+    #[serde(deserialize_with = "de_ratio")]
+    pub tolerance_pct: f64,
+    /// Rated DC voltage, V (needed for the DC-bias curve and the voltage check).
+    #[serde(deserialize_with = "de_opt_v", skip_serializing_if = "Option::is_none")]
+    pub voltage_rating_v: Option<f64>,
+    /// Rated RMS ripple current, A.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub ripple_current_rating_a: Option<f64>,
+    /// The part's own capacitance-versus-bias curve (replaces the class's
+    /// typical curve), points in rising bias.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub bias_curve: Vec<BiasPoint>,
+    /// Thermal path.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub thermal: Option<Thermal>,
+}
+
+/// The LED string's thermal data.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LedThermal {
+    /// Thermal resistance from one LED's junction to ambient, °C/W.
+    #[serde(deserialize_with = "de_ratio")]
+    pub resistance_c_per_w: f64,
+    /// Highest allowed junction temperature, °C.
+    #[serde(deserialize_with = "de_c")]
+    pub max_junction_temperature_c: f64,
+    /// Per-LED forward-voltage temperature coefficient, V/K (typically
+    /// negative; 0: no feedback of temperature into the forward voltage).
+    #[serde(default, deserialize_with = "de_v")]
+    pub forward_voltage_tempco_v_per_k: f64,
+    /// Fraction of the electrical power that heats the junction (the rest
+    /// leaves as light); 1 is the conservative choice.
+    #[serde(default = "default_one", deserialize_with = "de_ratio")]
+    pub heat_fraction: f64,
+}
+
+/// The controller IC's data.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct ControllerIc {
+    /// Quiescent current drawn from the supply, A.
+    #[serde(deserialize_with = "de_a")]
+    pub quiescent_current_a: f64,
+    /// Lowest switching frequency the controller allows, Hz.
+    #[serde(
+        deserialize_with = "de_opt_hz",
+        skip_serializing_if = "Option::is_none"
+    )]
+    pub min_frequency_hz: Option<f64>,
+    /// Highest switching frequency the controller allows, Hz.
+    #[serde(
+        deserialize_with = "de_opt_hz",
+        skip_serializing_if = "Option::is_none"
+    )]
+    pub max_frequency_hz: Option<f64>,
+    /// Shortest on-time the controller can make, s.
+    #[serde(deserialize_with = "de_opt_s", skip_serializing_if = "Option::is_none")]
+    pub min_on_time_s: Option<f64>,
+}
+
+fn default_one() -> f64 {
+    1.0
+}
+
+impl PartData {
+    fn validate_into(&self, c: &mut Checker) {
+        let p = self;
+        c.range(
+            "parts.ambient_temperature_c",
+            p.ambient_temperature_c,
+            -60.0,
+            150.0,
+            "°C",
+        );
+        if let Some(a) = p.current_accuracy_pct {
+            c.range("parts.current_accuracy_pct", a, 1e-3, 100.0, "%");
+        }
+        c.opt_positive(
+            "parts.led_current_target_a",
+            p.led_current_target_a,
+            1e3,
+            "A",
+        );
+        let sw = &p.switch;
+        c.range("parts.switch.rise_time_s", sw.rise_time_s, 0.0, 1e-4, "s");
+        c.range("parts.switch.fall_time_s", sw.fall_time_s, 0.0, 1e-4, "s");
+        c.range(
+            "parts.switch.gate_charge_c",
+            sw.gate_charge_c,
+            0.0,
+            1e-5,
+            "C",
+        );
+        c.range("parts.switch.gate_drive_v", sw.gate_drive_v, 0.0, 30.0, "V");
+        c.range(
+            "parts.switch.output_capacitance_f",
+            sw.output_capacitance_f,
+            0.0,
+            1e-7,
+            "F",
+        );
+        c.opt_positive(
+            "parts.switch.voltage_rating_v",
+            sw.voltage_rating_v,
+            1e4,
+            "V",
+        );
+        c.opt_positive(
+            "parts.switch.peak_current_rating_a",
+            sw.peak_current_rating_a,
+            1e4,
+            "A",
+        );
+        c.opt_positive(
+            "parts.switch.rms_current_rating_a",
+            sw.rms_current_rating_a,
+            1e4,
+            "A",
+        );
+        c.thermal("parts.switch.thermal", sw.thermal);
+        let d = &p.diode;
+        c.range(
+            "parts.diode.reverse_recovery_charge_c",
+            d.reverse_recovery_charge_c,
+            0.0,
+            1e-5,
+            "C",
+        );
+        c.opt_positive("parts.diode.voltage_rating_v", d.voltage_rating_v, 1e4, "V");
+        c.opt_positive(
+            "parts.diode.peak_current_rating_a",
+            d.peak_current_rating_a,
+            1e4,
+            "A",
+        );
+        c.opt_positive(
+            "parts.diode.rms_current_rating_a",
+            d.rms_current_rating_a,
+            1e4,
+            "A",
+        );
+        c.thermal("parts.diode.thermal", d.thermal);
+        let l = &p.inductor;
+        if let Some(core) = l.core {
+            c.int_range(
+                "parts.inductor.core.turns",
+                u64::from(core.turns),
+                1,
+                100_000,
+            );
+            c.range(
+                "parts.inductor.core.area_m2",
+                core.area_m2,
+                1e-9,
+                1e-1,
+                "m²",
+            );
+            c.range(
+                "parts.inductor.core.volume_m3",
+                core.volume_m3,
+                1e-12,
+                1e-1,
+                "m³",
+            );
+            c.range(
+                "parts.inductor.core.steinmetz_k",
+                core.steinmetz_k,
+                0.0,
+                1e6,
+                "",
+            );
+            c.range(
+                "parts.inductor.core.steinmetz_alpha",
+                core.steinmetz_alpha,
+                0.5,
+                3.0,
+                "",
+            );
+            c.range(
+                "parts.inductor.core.steinmetz_beta",
+                core.steinmetz_beta,
+                1.0,
+                4.0,
+                "",
+            );
+        }
+        c.opt_positive(
+            "parts.inductor.rms_current_rating_a",
+            l.rms_current_rating_a,
+            1e4,
+            "A",
+        );
+        c.thermal("parts.inductor.thermal", l.thermal);
+        let curve = &l.saturation_curve;
+        if !curve.is_empty() {
+            if curve.len() < 2 || curve.len() > crate::devices::MAX_L_POINTS {
+                c.push(
+                    "parts.inductor.saturation_curve",
+                    &format!("{} points", curve.len()),
+                    &format!("give 2 to {} points", crate::devices::MAX_L_POINTS),
+                );
+            }
+            let mut last = -1.0;
+            for (k, pt) in curve.iter().enumerate() {
+                let at = format!("parts.inductor.saturation_curve[{k}]");
+                c.range(&format!("{at}.current_a"), pt.current_a, 0.0, 1e4, "A");
+                c.range(
+                    &format!("{at}.inductance_h"),
+                    pt.inductance_h,
+                    1e-9,
+                    10.0,
+                    "H",
+                );
+                if pt.current_a <= last {
+                    c.push(
+                        &format!("{at}.current_a"),
+                        &fmt_num(pt.current_a),
+                        "currents must be strictly rising",
+                    );
+                }
+                last = pt.current_a;
+            }
+        }
+        for (name, cap) in [
+            ("input_capacitor", &p.input_capacitor),
+            ("output_capacitor", &p.output_capacitor),
+        ] {
+            let pre = format!("parts.{name}");
+            c.range(
+                &format!("{pre}.tolerance_pct"),
+                cap.tolerance_pct,
+                0.0,
+                90.0,
+                "%",
+            );
+            c.opt_positive(
+                &format!("{pre}.voltage_rating_v"),
+                cap.voltage_rating_v,
+                1e4,
+                "V",
+            );
+            c.opt_positive(
+                &format!("{pre}.ripple_current_rating_a"),
+                cap.ripple_current_rating_a,
+                1e3,
+                "A",
+            );
+            c.thermal(&format!("{pre}.thermal"), cap.thermal);
+            let mut last = -1.0;
+            for (k, b) in cap.bias_curve.iter().enumerate() {
+                let at = format!("{pre}.bias_curve[{k}]");
+                c.range(
+                    &format!("{at}.bias_fraction"),
+                    b.bias_fraction,
+                    0.0,
+                    1.5,
+                    "",
+                );
+                c.range(
+                    &format!("{at}.capacitance_fraction"),
+                    b.capacitance_fraction,
+                    1e-3,
+                    1.0,
+                    "",
+                );
+                if b.bias_fraction <= last {
+                    c.push(
+                        &format!("{at}.bias_fraction"),
+                        &fmt_num(b.bias_fraction),
+                        "bias points must be in strictly rising order",
+                    );
+                }
+                last = b.bias_fraction;
+            }
+            if !cap.bias_curve.is_empty() && cap.voltage_rating_v.is_none() {
+                c.push(
+                    &format!("{pre}.bias_curve"),
+                    "",
+                    "a bias curve is given as fractions of the rated voltage: give voltage_rating_v too",
+                );
+            }
+        }
+        if let Some(led) = p.led {
+            c.range(
+                "parts.led.resistance_c_per_w",
+                led.resistance_c_per_w,
+                0.0,
+                1e4,
+                "°C/W",
+            );
+            c.range(
+                "parts.led.max_junction_temperature_c",
+                led.max_junction_temperature_c,
+                -60.0,
+                300.0,
+                "°C",
+            );
+            c.range(
+                "parts.led.forward_voltage_tempco_v_per_k",
+                led.forward_voltage_tempco_v_per_k,
+                -0.05,
+                0.05,
+                "V/K",
+            );
+            c.range("parts.led.heat_fraction", led.heat_fraction, 0.0, 1.0, "");
+        }
+        let ic = &p.controller;
+        c.range(
+            "parts.controller.quiescent_current_a",
+            ic.quiescent_current_a,
+            0.0,
+            1.0,
+            "A",
+        );
+        c.opt_positive(
+            "parts.controller.min_frequency_hz",
+            ic.min_frequency_hz,
+            1e9,
+            "Hz",
+        );
+        c.opt_positive(
+            "parts.controller.max_frequency_hz",
+            ic.max_frequency_hz,
+            1e9,
+            "Hz",
+        );
+        c.opt_positive(
+            "parts.controller.min_on_time_s",
+            ic.min_on_time_s,
+            1e-2,
+            "s",
+        );
+        if let (Some(lo), Some(hi)) = (ic.min_frequency_hz, ic.max_frequency_hz) {
+            if lo >= hi {
+                c.push(
+                    "parts.controller.min_frequency_hz",
+                    &fmt_num(lo),
+                    &format!("must be below max_frequency_hz ({} Hz)", fmt_num(hi)),
+                );
+            }
+        }
+    }
+}
+
 fn default_temp_c() -> f64 {
     25.0
 }
@@ -340,6 +951,7 @@ unit_de!(de_s, de_opt_s, Unit::Second);
 unit_de!(de_hz, de_opt_hz, Unit::Hertz);
 unit_de!(de_c, de_opt_c, Unit::Celsius);
 unit_de!(de_ratio, de_opt_ratio, Unit::Ratio);
+unit_de!(de_coulomb, de_opt_coulomb, Unit::Coulomb);
 
 // ---------------------------------------------------------------------------
 // Loading.
@@ -665,6 +1277,8 @@ impl Scenario {
             "s",
         );
 
+        s.parts.validate_into(&mut c);
+
         // Relations that need the individual values to be sound.
         if c.problems.is_empty() {
             s.check_operating_point(&mut c);
@@ -934,6 +1548,31 @@ impl Checker {
         }
     }
 
+    fn opt_positive(&mut self, path: &str, v: Option<f64>, hi: f64, unit: &str) {
+        if let Some(v) = v {
+            self.range(path, v, 1e-12, hi, unit);
+        }
+    }
+
+    fn thermal(&mut self, path: &str, t: Option<Thermal>) {
+        if let Some(t) = t {
+            self.range(
+                &format!("{path}.resistance_c_per_w"),
+                t.resistance_c_per_w,
+                0.0,
+                1e4,
+                "°C/W",
+            );
+            self.range(
+                &format!("{path}.max_temperature_c"),
+                t.max_temperature_c,
+                -60.0,
+                300.0,
+                "°C",
+            );
+        }
+    }
+
     fn int_range(&mut self, path: &str, v: u64, lo: u64, hi: u64) {
         if v < lo || v > hi {
             self.push(path, &v.to_string(), &format!("allowed {lo} to {hi}"));
@@ -1057,12 +1696,98 @@ pub fn template() -> Scenario {
             min_on_time_s: 150e-9,
         },
         simulation: SimSettings::default(),
+        parts: PartData::default(),
     }
+}
+
+/// [`template`] with a complete `parts` section: every real-part field,
+/// with illustrative values (not a particular part's data).
+pub fn template_with_parts() -> Scenario {
+    let mut s = template();
+    s.description.push_str(
+        " The parts section (switching times, charges, core, ratings, dielectrics, thermal \
+         paths, controller limits) is illustrative as well.",
+    );
+    let thermal = |r: f64, t: f64| {
+        Some(Thermal {
+            resistance_c_per_w: r,
+            max_temperature_c: t,
+        })
+    };
+    let cap = |d: Dielectric, v: f64, ripple: f64| CapacitorData {
+        dielectric: d,
+        tolerance_pct: 10.0,
+        voltage_rating_v: Some(v),
+        ripple_current_rating_a: Some(ripple),
+        bias_curve: Vec::new(),
+        thermal: None,
+    };
+    s.parts = PartData {
+        ambient_temperature_c: 25.0,
+        intended_mode: IntendedMode::Ccm,
+        current_accuracy_pct: Some(10.0),
+        led_current_target_a: Some(0.7),
+        switch: SwitchData {
+            rise_time_s: 10e-9,
+            fall_time_s: 15e-9,
+            gate_charge_c: 5e-9,
+            gate_drive_v: 5.0,
+            output_capacitance_f: 50e-12,
+            voltage_rating_v: Some(30.0),
+            peak_current_rating_a: Some(3.0),
+            rms_current_rating_a: Some(2.0),
+            thermal: thermal(150.0, 150.0),
+        },
+        diode: DiodeData {
+            reverse_recovery_charge_c: 0.0,
+            voltage_rating_v: Some(30.0),
+            peak_current_rating_a: Some(3.0),
+            rms_current_rating_a: Some(1.0),
+            thermal: thermal(120.0, 150.0),
+        },
+        inductor: InductorData {
+            saturation_curve: Vec::new(),
+            core: Some(Core {
+                turns: 30,
+                area_m2: 1.2e-5,
+                volume_m3: 4e-7,
+                steinmetz_k: 1.5,
+                steinmetz_alpha: 1.4,
+                steinmetz_beta: 2.5,
+            }),
+            rms_current_rating_a: Some(1.2),
+            thermal: thermal(60.0, 125.0),
+        },
+        input_capacitor: cap(Dielectric::X7r, 25.0, 2.0),
+        output_capacitor: CapacitorData::default(),
+        led: Some(LedThermal {
+            resistance_c_per_w: 25.0,
+            max_junction_temperature_c: 125.0,
+            forward_voltage_tempco_v_per_k: -2e-3,
+            heat_fraction: 0.7,
+        }),
+        controller: ControllerIc {
+            quiescent_current_a: 1e-3,
+            min_frequency_hz: Some(20e3),
+            max_frequency_hz: Some(1e6),
+            min_on_time_s: Some(100e-9),
+        },
+    };
+    s
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn template_with_parts_round_trips_and_validates() {
+        let t = template_with_parts();
+        let text = serde_json::to_string_pretty(&t).unwrap();
+        assert!(text.contains("\"parts\""));
+        let s = Scenario::from_json_str(&text).unwrap();
+        assert_eq!(s, t);
+    }
 
     fn template_json() -> serde_json::Value {
         serde_json::to_value(template()).unwrap()

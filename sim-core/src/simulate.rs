@@ -330,6 +330,7 @@ pub fn drive<E: CycleEngine>(
     }
     totals.stored_end_j = e.stored_energy_j();
     totals.loss.reverse_current_clamp = e.clamped_energy_j() - clamp0;
+    crate::parts::losses::apply(s, &mut totals);
     let metrics = Metrics::from_totals(&totals);
     let warnings = warnings(s, &metrics, order);
     Ok(SimResult {

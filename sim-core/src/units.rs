@@ -38,6 +38,8 @@ pub enum Unit {
     Hertz,
     /// Degrees Celsius.
     Celsius,
+    /// Coulombs (gate and recovery charge).
+    Coulomb,
     /// A dimensionless number (a `%` suffix divides by 100).
     Ratio,
 }
@@ -54,6 +56,7 @@ impl Unit {
             Unit::Second => &["s"],
             Unit::Hertz => &["Hz"],
             Unit::Celsius => &["degC", "°C"],
+            Unit::Coulomb => &["C"],
             Unit::Ratio => &[],
         }
     }

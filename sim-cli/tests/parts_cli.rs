@@ -1,0 +1,182 @@
+//! The real-part output of the `chopwave` binary: the design-check table,
+//! `--strict`, the alternatives and their plot, and `fit-led`.
+
+use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn run(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_chopwave"))
+        .env("RUST_BACKTRACE", "1")
+        .args(args)
+        .output()
+        .expect("the chopwave binary runs")
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+fn scenario(name: &str) -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../scenarios")
+        .join(name)
+        .display()
+        .to_string()
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("chopwave-parts-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+#[test]
+fn strict_exits_3_on_a_failed_check_and_0_on_a_passing_design() {
+    let bad = scenario("undersized-inductor-dcm.json");
+    let o = run(&["run", "--strict", &bad]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert!(out.contains("Design checks"), "{out}");
+    assert!(out.contains("FAIL  CCM intended"), "{out}");
+    assert!(
+        text(&o.stderr).contains("design check"),
+        "{}",
+        text(&o.stderr)
+    );
+    // Without --strict the same run succeeds.
+    assert_eq!(run(&["run", &bad]).status.code(), Some(0));
+    // A design whose checks pass (at most warnings) exits 0 under --strict.
+    let o = run(&["run", "--strict", &scenario("headlamp-4cell.json")]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+}
+
+#[test]
+fn json_has_the_checks_capacitors_temperatures_and_alternatives() {
+    let o = run(&["run", "--json", &scenario("grow-light-48v.json")]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["schema"], "chopwave-run-2");
+    let checks = v["design_checks"].as_array().unwrap();
+    assert!(checks.len() > 10);
+    for c in checks {
+        for k in ["check", "status", "value", "limit", "unit", "source"] {
+            assert!(c.get(k).is_some(), "{k} missing in {c}");
+        }
+    }
+    // The X7R output capacitor at ~35 V of a 50 V rating keeps under half
+    // its capacitance (class curve, from memory): a warning.
+    let bias = checks
+        .iter()
+        .find(|c| c["check"] == "output capacitor capacitance left under DC bias")
+        .unwrap();
+    assert_eq!(bias["status"], "warn");
+    let caps = v["capacitors"].as_array().unwrap();
+    let out = caps
+        .iter()
+        .find(|c| c["part"] == "output_capacitor")
+        .unwrap();
+    assert!(out["effective_f"].as_f64().unwrap() < 0.5 * out["nominal_f"].as_f64().unwrap());
+    assert!(v["losses_w"]["inductor_core"].as_f64().unwrap() > 0.0);
+    assert!(v["losses_w"]["switch_transition"].as_f64().unwrap() > 0.0);
+    assert!(v["energy_balance_residual"].as_f64().unwrap().abs() < 1e-8);
+    let t = v["temperatures"].as_array().unwrap();
+    assert!(t.iter().any(|t| t["part"] == "led"));
+    assert!(v["iteration"]["converged"].as_bool().unwrap());
+    let alt = &v["alternatives"];
+    let drivers = alt["drivers"].as_array().unwrap();
+    assert_eq!(drivers.len(), 3);
+    // The linear regulator holds the current over 44-52 V; the resistor does not.
+    let var = |k: usize| drivers[k]["current_variation_pct"].as_f64().unwrap();
+    assert!(var(1) > 10.0 * var(0).max(0.1), "{alt}");
+    assert!(var(2) < 1e-9, "{alt}");
+}
+
+#[test]
+fn plot_includes_the_comparison() {
+    let dir = scratch("plot");
+    let o = run(&[
+        "run",
+        &scenario("cabin-light-9-32v.json"),
+        "--plot",
+        dir.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let png = dir.join("cabin-light-9-32v-alternatives.png");
+    let bytes = std::fs::read(&png).unwrap();
+    assert!(bytes.starts_with(b"\x89PNG"), "{}", png.display());
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn fit_led_prints_the_model_and_a_fragment_that_loads() {
+    // Points from a known model (Is = 1e-18 A, n = 2.5, Rs = 0.5 Ω at
+    // 25 °C, Vt = kT/q with CODATA 2018 constants), to 0.1 mV.
+    let vt = 1.380_649e-23 * 298.15 / 1.602_176_634e-19;
+    let v = |i: f64| 2.5 * vt * (i / 1e-18_f64).ln_1p() + 0.5 * i;
+    let pts: Vec<String> = [0.05, 0.2, 0.5, 1.0]
+        .iter()
+        .map(|&i| format!("{i},{:.4}", v(i)))
+        .collect();
+    let mut args = vec!["fit-led", "--json", "--count", "4", "--tempco-mv", "-2"];
+    for p in &pts {
+        args.push("--point");
+        args.push(p);
+    }
+    let o = run(&args);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let n = j["fit"]["emission_coefficient"].as_f64().unwrap();
+    // Voltages rounded to 0.1 mV move n by about 0.1 %.
+    assert!((n / 2.5 - 1.0).abs() < 1e-2, "{j}");
+    assert!((j["fit"]["tempco_v_per_k"].as_f64().unwrap() + 2e-3).abs() < 1e-12);
+    for r in j["fit"]["residuals_v"].as_array().unwrap() {
+        assert!(r.as_f64().unwrap().abs() < 1e-4);
+    }
+    // The fragment's load drops into a scenario that validates.
+    let mut s: Value = serde_json::from_str(&text(&run(&["template"]).stdout)).unwrap();
+    s["load"] = j["load"].clone();
+    s["supply"]["voltage_v"] = 24.0.into();
+    s["supply"]["input_range_v"] = Value::Null;
+    let dir = scratch("fit");
+    let f = dir.join("fitted.json");
+    std::fs::write(&f, s.to_string()).unwrap();
+    let o = run(&["check", f.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    // Text output names the residuals; too few points is bad input (2).
+    let o = run(&["fit-led", "--point", "0.1,2.8", "--point", "0.3,3.0"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        text(&o.stderr).contains("at least three"),
+        "{}",
+        text(&o.stderr)
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn the_template_carries_every_part_field_and_runs_with_its_checks() {
+    let o = run(&["template"]);
+    assert!(o.status.success());
+    let t: Value = serde_json::from_slice(&o.stdout).unwrap();
+    for k in [
+        "switch",
+        "diode",
+        "inductor",
+        "input_capacitor",
+        "led",
+        "controller",
+    ] {
+        assert!(t["parts"].get(k).is_some(), "parts.{k}");
+    }
+    let dir = scratch("template");
+    let f = dir.join("t.json");
+    std::fs::write(&f, &o.stdout).unwrap();
+    let o = run(&["run", "--strict", "--json", f.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_ne!(v["design_verdict"], "fail", "{}", v["design_checks"]);
+    assert!(v["energy_balance_residual"].as_f64().unwrap().abs() < 1e-8);
+    let _ = std::fs::remove_dir_all(&dir);
+}

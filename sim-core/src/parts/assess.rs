@@ -1,0 +1,271 @@
+//! The real-part run: DC-bias capacitance and LED temperature iterated to
+//! convergence around [`crate::simulate::simulate`], then temperatures,
+//! the design checks and the alternatives.
+//!
+//! Iteration: the effective scenario starts with each ceramic capacitor at
+//! its capacitance at the expected bias (the supply for the input, the LED
+//! voltage at the target current for the output) and the LEDs at their
+//! model temperature; each run's measured average capacitor voltages and
+//! LED power give new capacitances and a new junction temperature, and the
+//! run repeats (warm-started from the last steady state) until the
+//! capacitances move by under 0.1 % and the junction by under 0.05 K, at
+//! most [`MAX_ITERATIONS`] runs. A scenario with neither gets one run.
+
+use super::alternatives::{self, Comparison, OperatingPoint};
+use super::bias;
+use super::checks::{self, CapacitorState, Check};
+use super::thermal::{self, PartTemperature};
+use crate::error::SimError;
+use crate::metrics::Metrics;
+use crate::scenario::Scenario;
+use crate::simulate::{simulate_with_progress, Progress, RunOptions, SimResult};
+use serde::Serialize;
+
+/// Most runs of the bias/temperature iteration.
+pub const MAX_ITERATIONS: u32 = 8;
+
+/// Everything the real-part run produces.
+#[derive(Debug, Clone)]
+pub struct Assessment {
+    /// The final run.
+    pub result: SimResult,
+    /// The scenario as finally simulated (effective capacitances, shifted
+    /// LED forward voltage).
+    pub effective: Scenario,
+    /// Runs of the bias/temperature iteration.
+    pub iterations: u32,
+    /// Whether the iteration settled.
+    pub converged: bool,
+    /// What each capacitor saw.
+    pub capacitors: Vec<CapacitorState>,
+    /// Estimated part temperatures.
+    pub temperatures: Vec<PartTemperature>,
+    /// The design-check table.
+    pub checks: Vec<Check>,
+    /// The resistor and linear alternatives beside the switching design.
+    pub comparison: Option<Comparison>,
+}
+
+/// The iteration's summary, for the JSON report.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct IterationInfo {
+    /// Runs made.
+    pub runs: u32,
+    /// Whether it settled.
+    pub converged: bool,
+    /// LED junction temperature used in the last run, °C.
+    pub led_junction_c: Option<f64>,
+}
+
+/// What to compute besides the run.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct AssessOptions {
+    /// The run options (engine, start state).
+    pub run: RunOptions,
+    /// Also compare with the resistor and linear alternatives (two more
+    /// runs of the switching design, at the ends of the supply range).
+    pub alternatives: bool,
+}
+
+/// Average voltages across the input and output capacitors in a run, V.
+fn capacitor_averages(s: &Scenario, m: &Metrics) -> (f64, f64) {
+    let vin = s.supply.voltage_v - s.supply.source_resistance_ohm * (m.input_current_avg_a);
+    (vin, m.led_voltage_avg_v)
+}
+
+/// The scenario with capacitances at biases `(v_in, v_out)` and LEDs at
+/// junction temperature `t_j`.
+fn effective_scenario(s: &Scenario, v_in: f64, v_out: f64, t_j: Option<f64>) -> Scenario {
+    let mut e = s.clone();
+    if let Some(c) = e.input_capacitor.as_mut() {
+        c.capacitance_f = bias::effective_capacitance_f(c, &s.parts.input_capacitor, v_in);
+    }
+    if let Some(c) = e.output_capacitor.as_mut() {
+        c.capacitance_f = bias::effective_capacitance_f(c, &s.parts.output_capacitor, v_out);
+    }
+    if let (Some(led), Some(tj)) = (s.parts.led, t_j) {
+        let dt = tj - thermal::model_temperature_c(&s.load);
+        e.load = thermal::shifted_load(&s.load, led.forward_voltage_tempco_v_per_k * dt);
+    }
+    e
+}
+
+fn capacitances(s: &Scenario) -> [f64; 2] {
+    [
+        s.input_capacitor.as_ref().map_or(0.0, |c| c.capacitance_f),
+        s.output_capacitor.as_ref().map_or(0.0, |c| c.capacitance_f),
+    ]
+}
+
+/// Runs a validated scenario with its real-part data.
+pub fn assess(s: &Scenario, opts: &AssessOptions) -> Result<Assessment, SimError> {
+    assess_with_progress(s, opts, &mut |_| {})
+}
+
+/// As [`assess`], calling `progress` during each run.
+pub fn assess_with_progress(
+    s: &Scenario,
+    opts: &AssessOptions,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Assessment, SimError> {
+    let p = &s.parts;
+    let iterate = bias::bias_dependent(&p.input_capacitor) && s.input_capacitor.is_some()
+        || bias::bias_dependent(&p.output_capacitor) && s.output_capacitor.is_some()
+        || p.led
+            .is_some_and(|l| l.forward_voltage_tempco_v_per_k != 0.0);
+    let target = s.target_current_a();
+    let (mut v_in, mut v_out) = (
+        s.supply.voltage_v,
+        target.map_or(0.0, |i| s.load_voltage_v(i)),
+    );
+    let mut t_j: Option<f64> = None;
+    let mut eff = effective_scenario(s, v_in, v_out, t_j);
+    let mut run = opts.run;
+    let mut iterations = 0;
+    let mut converged = !iterate;
+    let result = loop {
+        let r = simulate_with_progress(&eff, &run, progress)?;
+        iterations += 1;
+        if !iterate {
+            break r;
+        }
+        (v_in, v_out) = capacitor_averages(&eff, &r.metrics);
+        let tj_new = thermal::led_junction_c(s, &r.metrics);
+        let next = effective_scenario(s, v_in, v_out, tj_new);
+        let (c0, c1) = (capacitances(&eff), capacitances(&next));
+        let cap_settled = c0
+            .iter()
+            .zip(c1)
+            .all(|(a, b)| (a - b).abs() <= 1e-3 * a.abs().max(1e-30));
+        let t_settled = match (t_j, tj_new) {
+            (Some(a), Some(b)) => (a - b).abs() < 0.05,
+            (None, None) => true,
+            _ => false,
+        };
+        t_j = tj_new;
+        if (cap_settled && t_settled) || iterations >= MAX_ITERATIONS {
+            converged = cap_settled && t_settled;
+            break r;
+        }
+        eff = next;
+        run.initial_state = Some(r.steady.state_at_turn_on);
+    };
+    let mut result = result;
+    if !converged {
+        result.warnings.push(format!(
+            "the capacitor-bias / LED-temperature iteration did not settle in {iterations} runs: \
+             the figures are those of the last run"
+        ));
+    }
+    let m = result.metrics;
+    let (vin_avg, vout_avg) = capacitor_averages(&eff, &m);
+    let mut capacitors = Vec::new();
+    if let (Some(nom), Some(effc)) = (&s.input_capacitor, &eff.input_capacitor) {
+        capacitors.push(CapacitorState {
+            part: "input_capacitor",
+            nominal_f: nom.capacitance_f,
+            effective_f: effc.capacitance_f,
+            effective_min_f: effc.capacitance_f * (1.0 - p.input_capacitor.tolerance_pct / 100.0),
+            average_v: vin_avg,
+            peak_v: checks::max_supply_v(s),
+            ripple_rms_a: m.input_capacitor_ripple_rms_a,
+            esr_loss_w: m.losses_w.input_capacitor_esr,
+        });
+    }
+    if let (Some(nom), Some(effc)) = (&s.output_capacitor, &eff.output_capacitor) {
+        capacitors.push(CapacitorState {
+            part: "output_capacitor",
+            nominal_f: nom.capacitance_f,
+            effective_f: effc.capacitance_f,
+            effective_min_f: effc.capacitance_f * (1.0 - p.output_capacitor.tolerance_pct / 100.0),
+            average_v: vout_avg,
+            peak_v: m.led_voltage_max_v,
+            ripple_rms_a: m.output_capacitor_ripple_rms_a,
+            esr_loss_w: m.losses_w.output_capacitor_esr,
+        });
+    }
+    let temperatures = thermal::temperatures(s, &m);
+    let checks = checks::design_checks(s, &m, &temperatures, &capacitors);
+    for t in &temperatures {
+        if t.part != "led" && t.temperature_c > thermal::TOUCH_HOT_C {
+            result.warnings.push(format!(
+                "{} estimated at {:.0} °C: hot enough to burn a finger (above about 60 °C, \
+                 common practice); keep it out of reach or give it copper and airflow",
+                t.part.replace('_', " "),
+                t.temperature_c
+            ));
+        }
+    }
+    let comparison = if opts.alternatives {
+        Some(compare(&eff, &result, opts, progress)?)
+    } else {
+        None
+    };
+    Ok(Assessment {
+        result,
+        effective: eff,
+        iterations,
+        converged,
+        capacitors,
+        temperatures,
+        checks,
+        comparison,
+    })
+}
+
+fn switching_point(m: &Metrics, v: f64) -> OperatingPoint {
+    OperatingPoint {
+        supply_v: v,
+        led_current_a: m.led_current_avg_a,
+        led_voltage_v: m.led_voltage_avg_v,
+        efficiency: m.efficiency,
+        dissipation_w: m.input_power_w - m.led_power_w,
+    }
+}
+
+/// The comparison: the switching design at the ends of the supply range
+/// (the effective scenario with only the supply changed; a supply where
+/// the design is invalid or fails to run gives no point).
+fn compare(
+    eff: &Scenario,
+    nominal_run: &SimResult,
+    opts: &AssessOptions,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Comparison, SimError> {
+    let v_nom = eff.supply.voltage_v;
+    let mut supply = vec![v_nom];
+    let mut nominal = 0;
+    if let Some(r) = eff.supply.input_range_v {
+        if r.min_v < v_nom {
+            supply.insert(0, r.min_v);
+            nominal = 1;
+        }
+        if r.max_v > v_nom {
+            supply.push(r.max_v);
+        }
+    }
+    let run = RunOptions {
+        initial_state: None,
+        ..opts.run
+    };
+    let mut points = Vec::new();
+    for &v in &supply {
+        if (v - v_nom).abs() < 1e-12 {
+            points.push(Some(switching_point(&nominal_run.metrics, v)));
+            continue;
+        }
+        let mut sv = eff.clone();
+        sv.supply.voltage_v = v;
+        let point = match sv.validate() {
+            Ok(()) => simulate_with_progress(&sv, &run, progress)
+                .ok()
+                .map(|r| switching_point(&r.metrics, v)),
+            Err(_) => None,
+        };
+        points.push(point);
+    }
+    // Sized for the LED current the switching design delivers at the
+    // nominal supply, so all three drive the LEDs equally there.
+    let target = nominal_run.metrics.led_current_avg_a;
+    Ok(alternatives::compare(eff, target, &supply, nominal, points))
+}
