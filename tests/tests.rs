@@ -3,4 +3,5 @@
 
 mod bad_input;
 mod reference;
+mod study;
 mod textbook;

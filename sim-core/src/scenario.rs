@@ -48,6 +48,13 @@ pub struct Scenario {
     /// Engine settings.
     #[serde(default)]
     pub simulation: SimSettings,
+    /// Part tolerances for spread studies (optional; see
+    /// [`crate::study::spread`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tolerances: Option<crate::study::spread::Tolerances>,
+    /// Acceptance limits for spread studies (optional).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spec: Option<crate::study::spread::SpecLimits>,
 }
 
 /// The DC supply: an ideal source behind a series resistance.
@@ -663,6 +670,8 @@ impl Scenario {
             "s",
         );
 
+        // The study objects (tolerances, spec).
+        c.problems.extend(crate::study::spread::check(s));
         // Relations that need the individual values to be sound.
         if c.problems.is_empty() {
             s.check_operating_point(&mut c);
@@ -984,6 +993,8 @@ pub fn template() -> Scenario {
             min_on_time_s: 150e-9,
         },
         simulation: SimSettings::default(),
+        tolerances: None,
+        spec: None,
     }
 }
 

@@ -50,6 +50,8 @@ pub fn ideal_buck(
         },
         controller,
         simulation: SimSettings::default(),
+        tolerances: None,
+        spec: None,
     }
 }
 
