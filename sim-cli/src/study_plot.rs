@@ -963,6 +963,20 @@ fn histogram(
             Rectangle::new([(x0, 0.0), (x1, c as f64)], INDUCTOR.mix(0.75).filled())
         }))
         .map_err(de)?;
+    // White edges keep neighbouring bars of equal height apart.
+    chart
+        .draw_series(
+            counts
+                .iter()
+                .enumerate()
+                .filter(|(_, &c)| c > 0)
+                .map(|(b, &c)| {
+                    let x0 = (d0 + b as f64 * w) / ax.scale;
+                    let x1 = (d0 + (b + 1) as f64 * w) / ax.scale;
+                    Rectangle::new([(x0, 0.0), (x1, c as f64)], WHITE.stroke_width(1))
+                }),
+        )
+        .map_err(de)?;
     for m in marks {
         let x = m.x / ax.scale;
         chart

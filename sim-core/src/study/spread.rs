@@ -139,7 +139,7 @@ impl SpecLimits {
         let mut v: Vec<(String, RowTest<'_>)> = Vec::new();
         if let (Some(pct), Some(t)) = (self.current_within_pct, self.target_current_a) {
             v.push((
-                format!("LED current within ±{pct} % of {t} A"),
+                format!("LED current within ±{pct} % of {} A", sig4(t)),
                 Box::new(move |r| {
                     r.metric("led_current_avg_a")
                         .is_some_and(|i| (i - t).abs() <= pct / 100.0 * t)
@@ -166,6 +166,15 @@ impl SpecLimits {
         }
         v
     }
+}
+
+/// A number with four significant figures, for limit labels.
+fn sig4(v: f64) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return v.to_string();
+    }
+    let d = (3 - v.abs().log10().floor() as i32).clamp(0, 15) as usize;
+    format!("{v:.d$}")
 }
 
 // ---------------------------------------------------------------------------
