@@ -639,6 +639,21 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             println!("{}", serde_json::to_string_pretty(&b).unwrap_or_default());
         } else {
             print_boundary(&s, &b);
+            let top = if path == "supply.voltage_v" { hi } else { 0.0 };
+            let max_v = sim_core::study::max_supply_v(&s, [top]);
+            println!("\nCautions");
+            if max_v > SELV_LIMIT_V {
+                println!(
+                    "  * this search applies supplies up to {} — above the usual 60 V DC \
+                     extra-low-voltage limit: such a driver can injure or kill; follow local \
+                     codes and licensed practice",
+                    eng(max_v, "V")
+                );
+            }
+            println!(
+                "  * a simulation is no substitute for bench measurement and certification; \
+                 follow local codes and licensed practice"
+            );
         }
         return Ok(());
     }
@@ -726,6 +741,8 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             "{}",
             serde_json::to_string_pretty(&json).unwrap_or_default()
         );
+    } else {
+        print_cautions(&t);
     }
     if !quiet {
         for p in &written {

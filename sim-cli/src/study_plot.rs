@@ -13,6 +13,7 @@ use anyhow::Result;
 use plotters::coord::Shift;
 use plotters::element::DashedPathElement;
 use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 use serde_json::Value;
 use sim_core::study::rows::{RowExt, StudyTable};
 use sim_core::study::spread::SpecLimits;
@@ -666,6 +667,35 @@ pub fn grid_map(
                 )))
                 .map_err(de)?;
         }
+        // Values written in the cells when they fit (heat maps).
+        let cell_px = f64::from(WIDTH - LEGEND_WIDTH - 180) / xv.len() as f64;
+        if matches!(kind, MapKind::Heat(..)) && cell_px >= 64.0 && yv.len() <= 24 {
+            let span = vmax - vmin;
+            for r in &t.rows {
+                let Some(v) = value(r).filter(|v| v.is_finite()) else {
+                    continue;
+                };
+                let (x, y) = (r.input(0), r.input(1));
+                let (Some(i), Some(j)) = (
+                    xv.iter().position(|q| q.to_bits() == x.to_bits()),
+                    yv.iter().position(|q| q.to_bits() == y.to_bits()),
+                ) else {
+                    continue;
+                };
+                let f = if span > 0.0 { (v - vmin) / span } else { 0.5 };
+                let ink = if f < 0.55 { WHITE } else { INK };
+                let style = font(17)
+                    .color(&ink)
+                    .pos(Pos::new(HPos::Center, VPos::Center));
+                let c = (
+                    0.5 * (ex[i] + ex[i + 1]) / xa.scale,
+                    0.5 * (ey[j] + ey[j + 1]) / ya.scale,
+                );
+                chart
+                    .draw_series(std::iter::once(Text::new(format!("{v:.1}"), c, style)))
+                    .map_err(de)?;
+            }
+        }
         if let Some((_, pts)) = overlay {
             let p: Vec<(f64, f64)> = pts
                 .iter()
@@ -707,7 +737,7 @@ pub fn grid_map(
                     let f = 1.0 - k as f64 / f64::from(bottom - top - 1);
                     legend
                         .draw(&Rectangle::new(
-                            [(12, top + k as i32), (52, top + k as i32 + 1)],
+                            [(12, top + k), (52, top + k + 1)],
                             scale_colour(f).filled(),
                         ))
                         .map_err(de)?;

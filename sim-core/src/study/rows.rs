@@ -396,7 +396,7 @@ mod tests {
     fn csv_quotes_what_needs_it() {
         assert_eq!(csv_cell(&Value::from("a,b \"c\"")), "\"a,b \"\"c\"\"\"");
         assert_eq!(csv_cell(&Value::Null), "");
-        for x in [1e-5, 0.1 + 0.2, 4.7e-6, 123_456.789] {
+        for x in [1e-5_f64, 0.1 + 0.2, 4.7e-6, 123_456.789] {
             let back: f64 = csv_cell(&Value::from(x)).parse().unwrap();
             assert_eq!(back.to_bits(), x.to_bits());
         }
