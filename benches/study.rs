@@ -106,6 +106,27 @@ fn main() {
         seed: 1,
         run: RunSettings::default(),
     };
+    // A longer parallel measurement than the sweep: 2000 samples on one
+    // and on two threads.
+    let small = SpreadSettings {
+        samples: 2000.min(samples),
+        ..set
+    };
+    let mut wall = [0.0; 2];
+    for (k, threads) in [1, 2].into_iter().enumerate() {
+        let p = pool(threads);
+        let t0 = Instant::now();
+        let t = p.install(|| spread(&s, &limits, &small, None, &|| {}).unwrap());
+        wall[k] = t0.elapsed().as_secs_f64();
+        println!(
+            "spread: {} samples on {threads} thread(s): {:.2} s, {:.1} samples/s",
+            small.samples,
+            wall[k],
+            small.samples as f64 / wall[k]
+        );
+        assert_eq!(t.failed(), 0);
+    }
+    println!("speed-up 2 vs 1 thread (spread): {:.2}x", wall[0] / wall[1]);
     let p = pool(2);
     let t0 = Instant::now();
     let t = p.install(|| spread(&s, &limits, &set, None, &|| {}).unwrap());
