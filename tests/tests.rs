@@ -5,4 +5,5 @@ mod bad_input;
 mod parts;
 mod properties;
 mod reference;
+mod study;
 mod textbook;

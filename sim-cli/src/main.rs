@@ -12,6 +12,8 @@ mod format;
 mod output;
 mod plot;
 mod report;
+mod study_cmd;
+mod study_plot;
 
 use anyhow::{Context, Result};
 use clap::{Parser, Subcommand, ValueEnum};
@@ -67,6 +69,17 @@ enum Command {
     /// Print a complete, valid starter scenario with every field (including
     /// the illustrative `parts` section).
     Template,
+    /// Run the scenario at every point of a 1-D or 2-D range of values,
+    /// in parallel; one row per point (CSV, JSON) and plots.
+    Sweep(study_cmd::SweepArgs),
+    /// Find where the design crosses between CCM and DCM along a variable.
+    Boundary(study_cmd::BoundaryArgs),
+    /// Tolerance spread: Monte Carlo over the scenario's `tolerances`
+    /// (or every corner), percentiles and yield against the spec limits.
+    Spread(study_cmd::SpreadArgs),
+    /// Join the shard outputs of a sweep or spread (`--shard K/N`) into
+    /// the files one run would have written.
+    Merge(study_cmd::MergeArgs),
     /// Fit the per-LED exponential model (Is, n, Rs) to datasheet points
     /// and print the scenario fragment to paste.
     FitLed(FitLedArgs),
@@ -240,6 +253,10 @@ fn dispatch(cli: Cli) -> Result<(), Failure> {
         Command::Run(args) => run(&args, quiet),
         Command::Check { file, overrides } => check(&file, &overrides),
         Command::Demo { out, engine } => demo(&out, engine.into(), quiet),
+        Command::Sweep(a) => study_cmd::run_sweep(&a, quiet),
+        Command::Boundary(a) => study_cmd::run_boundary(&a, quiet),
+        Command::Spread(a) => study_cmd::run_spread(&a, quiet),
+        Command::Merge(a) => study_cmd::run_merge(&a, quiet),
         Command::Template => {
             let text = serde_json::to_string_pretty(&sim_core::scenario::template_with_parts())
                 .map_err(|e| Failure::Run(e.to_string()))?;

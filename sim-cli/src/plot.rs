@@ -26,28 +26,28 @@ pub const WIDTH: u32 = 1600;
 /// Image height, px.
 pub const HEIGHT: u32 = 1000;
 /// The font family name the plots register and use.
-const FAMILY: &str = "sans-serif";
+pub(crate) const FAMILY: &str = "sans-serif";
 /// Width of the legend column at the right of each panel, px.
-const LEGEND_WIDTH: u32 = 330;
+pub(crate) const LEGEND_WIDTH: u32 = 330;
 /// Steady-state cycles shown (the last ones recorded).
 pub const CYCLES_SHOWN: usize = 4;
 
 // Our palette.
-const INK: RGBColor = RGBColor(33, 37, 41);
-const GRID: RGBColor = RGBColor(226, 229, 233);
-const GRID_MAJOR: RGBColor = RGBColor(196, 201, 207);
-const INDUCTOR: RGBColor = RGBColor(0, 105, 148);
-const INDUCTOR_LIGHT: RGBColor = RGBColor(86, 170, 205);
-const LED: RGBColor = RGBColor(222, 110, 20);
-const LED_AVG: RGBColor = RGBColor(140, 45, 10);
-const VLED: RGBColor = RGBColor(118, 62, 168);
+pub(crate) const INK: RGBColor = RGBColor(33, 37, 41);
+pub(crate) const GRID: RGBColor = RGBColor(226, 229, 233);
+pub(crate) const GRID_MAJOR: RGBColor = RGBColor(196, 201, 207);
+pub(crate) const INDUCTOR: RGBColor = RGBColor(0, 105, 148);
+pub(crate) const INDUCTOR_LIGHT: RGBColor = RGBColor(86, 170, 205);
+pub(crate) const LED: RGBColor = RGBColor(222, 110, 20);
+pub(crate) const LED_AVG: RGBColor = RGBColor(140, 45, 10);
+pub(crate) const VLED: RGBColor = RGBColor(118, 62, 168);
 const VLED_LIGHT: RGBColor = RGBColor(175, 140, 210);
-const VSW: RGBColor = RGBColor(34, 120, 70);
-const VIN: RGBColor = RGBColor(150, 118, 0);
+pub(crate) const VSW: RGBColor = RGBColor(34, 120, 70);
+pub(crate) const VIN: RGBColor = RGBColor(150, 118, 0);
 
 static FONTS: Once = Once::new();
 
-fn register_fonts() -> Result<()> {
+pub(crate) fn register_fonts() -> Result<()> {
     let mut ok = true;
     FONTS.call_once(|| {
         ok &= plotters::style::register_font(FAMILY, FontStyle::Normal, dejavu::sans::regular())
@@ -61,18 +61,18 @@ fn register_fonts() -> Result<()> {
     }
 }
 
-fn font(size: u32) -> TextStyle<'static> {
+pub(crate) fn font(size: u32) -> TextStyle<'static> {
     (FAMILY, size).into_font().color(&INK)
 }
 
-fn bold(size: u32) -> TextStyle<'static> {
+pub(crate) fn bold(size: u32) -> TextStyle<'static> {
     (FAMILY, size)
         .into_font()
         .style(FontStyle::Bold)
         .color(&INK)
 }
 
-fn de<E: std::fmt::Debug>(e: E) -> anyhow::Error {
+pub(crate) fn de<E: std::fmt::Debug>(e: E) -> anyhow::Error {
     anyhow!("drawing failed: {e:?}")
 }
 
@@ -100,13 +100,13 @@ struct Panel<'a> {
 }
 
 /// An axis scaled to an SI prefix: values are divided by `scale`.
-struct Axis {
-    scale: f64,
-    prefix: &'static str,
+pub(crate) struct Axis {
+    pub(crate) scale: f64,
+    pub(crate) prefix: &'static str,
 }
 
 impl Axis {
-    fn for_magnitude(m: f64) -> Axis {
+    pub(crate) fn for_magnitude(m: f64) -> Axis {
         let e = eng_exponent(m);
         Axis {
             scale: 10f64.powi(e),
@@ -279,7 +279,7 @@ fn draw_legend(area: &DrawingArea<BitMapBackend, Shift>, panel: &Panel) -> Resul
 }
 
 /// Splits a label into lines of at most `width` characters at spaces.
-fn wrap(text: &str, width: usize) -> Vec<String> {
+pub(crate) fn wrap(text: &str, width: usize) -> Vec<String> {
     let mut lines = Vec::new();
     let mut cur = String::new();
     for word in text.split_whitespace() {
@@ -298,7 +298,7 @@ fn wrap(text: &str, width: usize) -> Vec<String> {
 }
 
 /// Decimals that tell apart ticks spread over `span` in about `n` steps.
-fn tick_decimals(span: f64, n: usize) -> usize {
+pub(crate) fn tick_decimals(span: f64, n: usize) -> usize {
     let step = span / n as f64;
     if step.is_nan() || step <= 0.0 || step.is_infinite() {
         return 2;
@@ -309,7 +309,7 @@ fn tick_decimals(span: f64, n: usize) -> usize {
 }
 
 /// A tick label with `decimals` decimals, trailing zeros dropped.
-fn tick(v: f64, decimals: usize) -> String {
+pub(crate) fn tick(v: f64, decimals: usize) -> String {
     let s = format!("{v:.decimals$}");
     let s = if s.contains('.') {
         s.trim_end_matches('0').trim_end_matches('.').to_string()
@@ -323,7 +323,7 @@ fn tick(v: f64, decimals: usize) -> String {
     }
 }
 
-fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
+pub(crate) fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
     crate::output::write_atomic(path, |w| {
         let mut enc = png::Encoder::new(w, WIDTH, HEIGHT);
         enc.set_color(png::ColorType::Rgb);
@@ -340,7 +340,7 @@ fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
     .with_context(|| format!("cannot write {}", path.display()))
 }
 
-fn render(
+pub(crate) fn render(
     path: &Path,
     draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
 ) -> Result<()> {

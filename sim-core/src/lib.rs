@@ -43,6 +43,7 @@ pub mod scenario;
 pub mod simulate;
 pub mod spectral;
 pub mod steady;
+pub mod study;
 pub mod units;
 
 pub use error::{FieldProblem, ScenarioError, SimError};

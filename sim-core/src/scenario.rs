@@ -53,6 +53,13 @@ pub struct Scenario {
     /// limits (all optional; see [`PartData`]).
     #[serde(default, skip_serializing_if = "PartData::is_empty")]
     pub parts: PartData,
+    /// Part tolerances for spread studies (optional; see
+    /// [`crate::study::spread`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tolerances: Option<crate::study::spread::Tolerances>,
+    /// Acceptance limits for spread studies (optional).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spec: Option<crate::study::spread::SpecLimits>,
 }
 
 /// The DC supply: an ideal source behind a series resistance.
@@ -1279,6 +1286,8 @@ impl Scenario {
 
         s.parts.validate_into(&mut c);
 
+        // The study objects (tolerances, spec).
+        c.problems.extend(crate::study::spread::check(s));
         // Relations that need the individual values to be sound.
         if c.problems.is_empty() {
             s.check_operating_point(&mut c);
@@ -1697,6 +1706,8 @@ pub fn template() -> Scenario {
         },
         simulation: SimSettings::default(),
         parts: PartData::default(),
+        tolerances: None,
+        spec: None,
     }
 }
 

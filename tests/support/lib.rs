@@ -51,6 +51,8 @@ pub fn ideal_buck(
         controller,
         simulation: SimSettings::default(),
         parts: Default::default(),
+        tolerances: None,
+        spec: None,
     }
 }
 

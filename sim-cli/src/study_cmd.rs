@@ -1,0 +1,806 @@
+//! The study commands: `sweep`, `boundary`, `spread` and `merge`.
+//!
+//! Each parses its arguments, loads the scenario (with `--set`
+//! overrides), calls `sim_core::study`, then writes the table (CSV and
+//! JSON, atomically), the plots and a summary. Shard runs write only
+//! their slice of the table; `merge` joins slices and writes exactly the
+//! files one run would have.
+
+use crate::format::{eng, pct};
+use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
+use crate::{load, output, parse_override, study_plot, EngineArg, Failure};
+use anyhow::{Context, Result};
+use indicatif::{ProgressBar, ProgressStyle};
+use sim_core::simulate::SELV_LIMIT_V;
+use sim_core::study::boundary::{boundary_curve, find_boundary, Boundary, BoundarySettings};
+use sim_core::study::rows::{RowExt, StudyKind, StudyTable};
+use sim_core::study::run::{RunSettings, Shard};
+use sim_core::study::spread::{corners, spread, summarize, SpreadSettings, SpreadSummary};
+use sim_core::study::sweep::sweep;
+use sim_core::study::vary::{linspace, Grid, Vary};
+use sim_core::study::StudyError;
+use sim_core::Scenario;
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+
+/// Options every study shares.
+#[derive(Debug, clap::Args)]
+pub struct Common {
+    /// The scenario file (JSON).
+    file: PathBuf,
+    /// Folder to write the outputs into (created if missing).
+    #[arg(long, value_name = "DIR", default_value = "chopwave-study")]
+    out: PathBuf,
+    /// Start every point from power-on instead of a neighbour's steady
+    /// state (slower; each point then equals its single run exactly).
+    #[arg(long)]
+    cold: bool,
+    /// Engine: `exact` or `reference`.
+    #[arg(long, value_enum, default_value_t = EngineArg::Exact)]
+    engine: EngineArg,
+    /// Override a field first, e.g. `--set supply.voltage_v=18`.
+    #[arg(long = "set", value_name = "PATH=VALUE", value_parser = parse_override)]
+    overrides: Vec<(String, String)>,
+    /// Worker threads (default: one per core).
+    #[arg(long, value_name = "N")]
+    threads: Option<usize>,
+    /// Write the table only, no PNG plots.
+    #[arg(long)]
+    no_plots: bool,
+}
+
+/// `chopwave sweep`.
+#[derive(Debug, clap::Args)]
+pub struct SweepArgs {
+    #[command(flatten)]
+    common: Common,
+    /// What to vary: `PATH=START:STOP:COUNT`, `PATH=v1,v2,...` or
+    /// `supply.voltage_v=range[:COUNT]` (the declared input range). Once
+    /// for a 1-D sweep, twice for a 2-D grid.
+    #[arg(long = "vary", value_name = "PATH=START:STOP:COUNT", required = true)]
+    vary: Vec<String>,
+    /// Run only the K-th of N equal slices (for a job array); join the
+    /// slices with `chopwave merge`.
+    #[arg(long, value_name = "K/N")]
+    shard: Option<String>,
+}
+
+/// `chopwave boundary`.
+#[derive(Debug, clap::Args)]
+pub struct BoundaryArgs {
+    #[command(flatten)]
+    common: Common,
+    /// The variable to search, `PATH=LOW:HIGH`; a second `--vary
+    /// PATH=START:STOP:COUNT` traces the boundary across that variable.
+    #[arg(long = "vary", value_name = "PATH=LOW:HIGH", required = true)]
+    vary: Vec<String>,
+    /// Width of the final bracket, % of the boundary value.
+    #[arg(long, value_name = "PCT", default_value_t = 0.02)]
+    tolerance_pct: f64,
+    /// Points along the searched variable in the mode map behind a
+    /// traced boundary (2-D only).
+    #[arg(long, value_name = "N", default_value_t = 12)]
+    map_points: usize,
+    /// Print the result as JSON instead of text.
+    #[arg(long)]
+    json: bool,
+}
+
+/// `chopwave spread`.
+#[derive(Debug, clap::Args)]
+pub struct SpreadArgs {
+    #[command(flatten)]
+    common: Common,
+    /// Monte Carlo samples.
+    #[arg(long, value_name = "N", default_value_t = 1000)]
+    samples: usize,
+    /// Random seed (the same seed gives the same samples on any machine
+    /// and any number of threads).
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    seed: u64,
+    /// Run every tolerance at its extremes (2^n corners) instead.
+    #[arg(long)]
+    corners: bool,
+    /// A spec limit, added to or replacing the scenario's `spec`:
+    /// `current_within_pct=5`, `target_current_a=0.7`, `max_ripple_pct=30`,
+    /// `no_dcm`, `min_efficiency=0.85`.
+    #[arg(long = "spec", value_name = "KEY[=VALUE]")]
+    spec: Vec<String>,
+    /// Run only the K-th of N equal slices; join with `chopwave merge`.
+    #[arg(long, value_name = "K/N")]
+    shard: Option<String>,
+}
+
+/// `chopwave merge`.
+#[derive(Debug, clap::Args)]
+pub struct MergeArgs {
+    /// The shard JSON files (`…-shard-K-of-N.json`), in any order.
+    #[arg(required = true)]
+    files: Vec<PathBuf>,
+    /// Folder to write the joined outputs into.
+    #[arg(long, value_name = "DIR", default_value = "chopwave-study")]
+    out: PathBuf,
+    /// Write the table only, no PNG plots.
+    #[arg(long)]
+    no_plots: bool,
+}
+
+fn study_failure(e: StudyError) -> Failure {
+    match e {
+        StudyError::Nominal(_) => Failure::Run(e.to_string()),
+        StudyError::Boundary { ref reason, .. } if reason.contains("failed") => {
+            Failure::Run(e.to_string())
+        }
+        other => Failure::Input(other.to_string()),
+    }
+}
+
+fn io_failure(e: anyhow::Error) -> Failure {
+    Failure::Run(format!("{e:#}"))
+}
+
+fn set_threads(n: Option<usize>) -> Result<(), Failure> {
+    if let Some(n) = n {
+        if n == 0 {
+            return Err(Failure::Input("--threads must be at least 1".into()));
+        }
+        // Fails only if the pool already exists (it does not here).
+        let _ = rayon::ThreadPoolBuilder::new()
+            .num_threads(n)
+            .build_global();
+    }
+    Ok(())
+}
+
+fn settings(c: &Common) -> RunSettings {
+    RunSettings {
+        engine: c.engine.into(),
+        warm_start: !c.cold,
+        ..RunSettings::default()
+    }
+}
+
+/// A progress bar over points, on a terminal only.
+fn progress(total: usize, quiet: bool, what: &str) -> Option<ProgressBar> {
+    if quiet || !std::io::stderr().is_terminal() || total < 2 {
+        return None;
+    }
+    let b = ProgressBar::new(total as u64);
+    b.set_style(
+        ProgressStyle::with_template("{bar:40} {pos}/{len} {msg} ({elapsed}, about {eta} left)")
+            .unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
+    b.set_message(what.to_string());
+    Some(b)
+}
+
+fn file_base(t: &StudyTable) -> String {
+    let mut s = format!(
+        "{}-{}",
+        output::file_stem(&t.manifest.scenario),
+        t.manifest.kind.word()
+    );
+    if let Some(sh) = t.manifest.shard {
+        s.push_str(&format!("-shard-{}-of-{}", sh.shard.index, sh.shard.count));
+    }
+    s
+}
+
+/// The summary of a spread or corners table as pretty JSON.
+fn summary_json(s: &SpreadSummary) -> String {
+    serde_json::to_string_pretty(s).unwrap_or_default() + "\n"
+}
+
+/// Writes a table's files: CSV and JSON always; for a whole study also
+/// the spread summary and the plots.
+fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> {
+    output::ensure_dir(dir)?;
+    let base = file_base(t);
+    let mut written = Vec::new();
+    let csv = dir.join(format!("{base}.csv"));
+    output::write_text(&csv, &t.to_csv_text())?;
+    written.push(csv);
+    let json = dir.join(format!("{base}.json"));
+    output::write_text(&json, &t.to_json_text())?;
+    written.push(json);
+    if t.manifest.shard.is_some() {
+        return Ok(written);
+    }
+    if t.manifest.kind != StudyKind::Sweep {
+        let p = dir.join(format!("{base}-summary.json"));
+        output::write_text(&p, &summary_json(&summarize(t)))?;
+        written.push(p);
+    }
+    if !plots {
+        return Ok(written);
+    }
+    match (t.manifest.kind, t.manifest.inputs.len()) {
+        (StudyKind::Sweep, 1) => {
+            let a = dir.join(format!("{base}-current.png"));
+            let b = dir.join(format!("{base}-operation.png"));
+            study_plot::sweep_1d(t, &a, &b).context("sweep plots")?;
+            written.extend([a, b]);
+        }
+        (StudyKind::Sweep, _) => {
+            let name = &t.manifest.scenario;
+            let mode = dir.join(format!("{base}-mode-map.png"));
+            study_plot::grid_map(
+                t,
+                study_plot::MapKind::Mode,
+                &format!("{name} — conduction mode over the grid"),
+                None,
+                &mode,
+            )
+            .context("mode map")?;
+            let ripple = dir.join(format!("{base}-ripple-map.png"));
+            study_plot::grid_map(
+                t,
+                study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
+                &format!("{name} — LED ripple (peak-to-peak, % of average)"),
+                None,
+                &ripple,
+            )
+            .context("ripple map")?;
+            let eff = dir.join(format!("{base}-efficiency-map.png"));
+            study_plot::grid_map(
+                t,
+                study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
+                &format!("{name} — efficiency (LED power over input power)"),
+                None,
+                &eff,
+            )
+            .context("efficiency map")?;
+            written.extend([mode, ripple, eff]);
+        }
+        _ => {
+            let h = dir.join(format!("{base}-histograms.png"));
+            study_plot::spread_histograms(t, &h).context("histograms")?;
+            written.push(h);
+        }
+    }
+    Ok(written)
+}
+
+/// Safety cautions for a whole study, from its highest supply, losses
+/// and LED power.
+fn cautions(t: &StudyTable) -> Vec<String> {
+    let max = |m: &str| {
+        t.rows
+            .iter()
+            .filter_map(|r| r.metric(m))
+            .fold(f64::NEG_INFINITY, f64::max)
+    };
+    let mut c = Vec::new();
+    if t.manifest.max_supply_v > SELV_LIMIT_V {
+        c.push(format!(
+            "this study applies supplies up to {} — above the usual 60 V DC extra-low-voltage \
+             limit: such a driver can injure or kill; touch-safe construction, insulation and \
+             creepage rules apply; follow local codes and licensed practice",
+            eng(t.manifest.max_supply_v, "V")
+        ));
+    }
+    if max("total_loss_w") > HOT_PARTS_LOSS_W {
+        c.push(format!(
+            "losses reach {} at some points: parts can get hot enough to burn; check temperatures \
+             on the bench",
+            eng(max("total_loss_w"), "W")
+        ));
+    }
+    if max("led_power_w") > BRIGHT_LED_POWER_W {
+        c.push(format!(
+            "LED power reaches {}: do not look into the LEDs at close range; test with a diffuser",
+            eng(max("led_power_w"), "W")
+        ));
+    }
+    c.push(
+        "a simulation is no substitute for bench measurement and certification; follow local \
+         codes and licensed practice"
+            .into(),
+    );
+    c
+}
+
+fn print_cautions(t: &StudyTable) {
+    println!("\nCautions");
+    for c in cautions(t) {
+        println!("  * {c}");
+    }
+}
+
+fn mode_word(r: &serde_json::Value) -> &str {
+    match r.mode() {
+        Some("ccm") => "CCM",
+        Some("dcm") => "DCM",
+        Some(_) => "boundary",
+        None => "-",
+    }
+}
+
+/// Rows printed in full before the rest is left to the CSV.
+const ROWS_SHOWN: usize = 40;
+
+fn print_sweep(t: &StudyTable) {
+    let m = &t.manifest;
+    println!(
+        "sweep of `{}`: {} points over {} ({} start)",
+        m.scenario,
+        t.rows.len(),
+        m.inputs.join(" × "),
+        if m.warm_start { "warm" } else { "cold" }
+    );
+    let mut head = String::new();
+    for i in &m.inputs {
+        head.push_str(&format!("{i:>24} "));
+    }
+    println!(
+        "{head}{:>10} {:>8} {:>10} {:>7} {:>9} {:>8}",
+        "LED avg", "ripple", "frequency", "duty", "mode", "effic."
+    );
+    for r in t.rows.iter().take(ROWS_SHOWN) {
+        let mut line = String::new();
+        for (k, p) in m.inputs.iter().enumerate() {
+            let u = study_unit(p);
+            line.push_str(&format!("{:>24} ", eng(r.input(k), u)));
+        }
+        if r.ok() {
+            let g = |n: &str| r.metric(n).unwrap_or(f64::NAN);
+            line.push_str(&format!(
+                "{:>10} {:>6.1} % {:>10} {:>7} {:>9} {:>8}",
+                eng(g("led_current_avg_a"), "A"),
+                g("led_current_ripple_pct"),
+                eng(g("switching_frequency_hz"), "Hz"),
+                pct(g("duty")),
+                mode_word(r),
+                pct(g("efficiency"))
+            ));
+        } else {
+            line.push_str(&format!("FAILED: {}", r.error().unwrap_or("")));
+        }
+        println!("{line}");
+    }
+    if t.rows.len() > ROWS_SHOWN {
+        println!(
+            "... {} more rows in the CSV and JSON",
+            t.rows.len() - ROWS_SHOWN
+        );
+    }
+    let dcm = t.rows.iter().filter(|r| r.mode() == Some("dcm")).count();
+    println!(
+        "\n{} of {} points in DCM, {} failed",
+        dcm,
+        t.rows.len(),
+        t.failed()
+    );
+}
+
+fn study_unit(path: &str) -> &'static str {
+    use sim_core::units::Unit;
+    match sim_core::study::vary::unit_of(path) {
+        Unit::Ratio => "",
+        Unit::Ohm => "Ω",
+        Unit::Celsius => "°C",
+        u => u.symbol(),
+    }
+}
+
+fn finish(t: &StudyTable, dir: &Path, plots: bool, quiet: bool) -> Result<(), Failure> {
+    let written = write_table(t, dir, plots).map_err(io_failure)?;
+    if !quiet {
+        for p in &written {
+            eprintln!("wrote {}", p.display());
+        }
+    }
+    if t.any_failed() {
+        return Err(Failure::Run(format!(
+            "{} of {} points failed; their rows carry the error message",
+            t.failed(),
+            t.rows.len()
+        )));
+    }
+    Ok(())
+}
+
+fn parse_shard(s: &Option<String>) -> Result<Option<Shard>, Failure> {
+    s.as_deref()
+        .map(Shard::parse)
+        .transpose()
+        .map_err(|e| Failure::Input(e.to_string()))
+}
+
+/// `chopwave sweep`.
+pub fn run_sweep(a: &SweepArgs, quiet: bool) -> Result<(), Failure> {
+    set_threads(a.common.threads)?;
+    let s = load(&a.common.file, &a.common.overrides)?;
+    let axes = a
+        .vary
+        .iter()
+        .map(|v| Vary::parse(v, &s))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(study_failure)?;
+    let grid = Grid::new(axes).map_err(study_failure)?;
+    let shard = parse_shard(&a.shard)?;
+    let settings = settings(&a.common);
+    let n = shard.map_or(grid.len(), |sh| {
+        sh.range(grid.len(), settings.chain_len).len()
+    });
+    let bar = progress(n, quiet, "points");
+    let tick = || {
+        if let Some(b) = &bar {
+            b.inc(1);
+        }
+    };
+    let t = sweep(&s, &grid, &settings, shard, &tick);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    print_sweep(&t);
+    print_cautions(&t);
+    finish(&t, &a.common.out, !a.common.no_plots, quiet)
+}
+
+/// `chopwave spread` (and `--corners`).
+pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
+    set_threads(a.common.threads)?;
+    let mut overrides = a.common.overrides.clone();
+    for sp in &a.spec {
+        let (k, v) = match sp.split_once('=') {
+            Some((k, v)) => (k.trim(), v.trim()),
+            None => (sp.trim(), "true"),
+        };
+        if k.is_empty() {
+            return Err(Failure::Input(format!(
+                "--spec `{sp}`: expected KEY=VALUE or no_dcm"
+            )));
+        }
+        overrides.push((format!("spec.{k}"), v.to_string()));
+    }
+    let s = load(&a.common.file, &overrides)?;
+    if a.samples == 0 && !a.corners {
+        return Err(Failure::Input("--samples must be at least 1".into()));
+    }
+    let shard = parse_shard(&a.shard)?;
+    let limits = s.spec.unwrap_or_default();
+    let run = settings(&a.common);
+    let total = if a.corners {
+        1usize << sim_core::study::spread::params(&s).map_or(0, |p| p.len().min(20))
+    } else {
+        a.samples
+    };
+    let bar = progress(total, quiet, if a.corners { "corners" } else { "samples" });
+    let tick = || {
+        if let Some(b) = &bar {
+            b.inc(1);
+        }
+    };
+    let t = if a.corners {
+        corners(&s, &limits, &run, shard, &tick)
+    } else {
+        spread(
+            &s,
+            &limits,
+            &SpreadSettings {
+                samples: a.samples,
+                seed: a.seed,
+                run,
+            },
+            shard,
+            &tick,
+        )
+    }
+    .map_err(study_failure)?;
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    print_spread(&t);
+    print_cautions(&t);
+    finish(&t, &a.common.out, !a.common.no_plots, quiet)
+}
+
+/// Metrics the spread summary prints (all are in the summary JSON).
+const PRINTED: [(&str, &str, f64); 8] = [
+    ("led_current_avg_a", "A", 1.0),
+    ("led_current_ripple_pct", "%", 1.0),
+    ("switching_frequency_hz", "Hz", 1.0),
+    ("duty", "%", 100.0),
+    ("efficiency", "%", 100.0),
+    ("inductor_current_peak_a", "A", 1.0),
+    ("ccm_margin", "", 1.0),
+    ("total_loss_w", "W", 1.0),
+];
+
+fn show(v: f64, unit: &str, k: f64) -> String {
+    match unit {
+        "%" => format!("{:.2} %", v * k),
+        "" => format!("{v:.4}"),
+        u => eng(v, u),
+    }
+}
+
+fn print_spread(t: &StudyTable) {
+    let m = &t.manifest;
+    let sum = summarize(t);
+    let corners = m.kind == StudyKind::Corners;
+    if corners {
+        println!(
+            "corners of `{}`: {} corners of {} toleranced inputs, {} failed",
+            m.scenario,
+            sum.points,
+            m.inputs.len(),
+            sum.failed
+        );
+    } else {
+        println!(
+            "spread of `{}`: {} samples (seed {}), {} failed",
+            m.scenario,
+            sum.points,
+            m.seed.unwrap_or(0),
+            sum.failed
+        );
+    }
+    println!("inputs:");
+    for n in &m.input_notes {
+        println!("  {n}");
+    }
+    if corners {
+        println!(
+            "\n{:<26} {:>11} {:<40} {:>11} corner",
+            "metric", "lowest", "corner", "highest"
+        );
+    } else {
+        println!(
+            "\n{:<26} {:>11} {:>11} {:>11} {:>11} {:>11}",
+            "metric", "min", "1st pct", "median", "99th pct", "max"
+        );
+    }
+    for (name, unit, k) in PRINTED {
+        let Some(x) = sum.metrics.iter().find(|x| x.metric == name) else {
+            continue;
+        };
+        if corners {
+            println!(
+                "{name:<26} {:>11} {:<40} {:>11} {}",
+                show(x.min, unit, k),
+                x.min_at,
+                show(x.max, unit, k),
+                x.max_at
+            );
+        } else {
+            println!(
+                "{name:<26} {:>11} {:>11} {:>11} {:>11} {:>11}",
+                show(x.min, unit, k),
+                show(x.p01, unit, k),
+                show(x.p50, unit, k),
+                show(x.p99, unit, k),
+                show(x.max, unit, k)
+            );
+        }
+    }
+    if sum.limits.is_empty() {
+        println!(
+            "\nno spec limits: add a `spec` object to the scenario or --spec (e.g. \
+             --spec current_within_pct=5)"
+        );
+        return;
+    }
+    println!("\nspec limits:");
+    for l in &sum.limits {
+        let worst = l
+            .worst_at
+            .as_deref()
+            .map_or(String::new(), |w| format!("   worst: {w}"));
+        println!(
+            "  {:<44} {:>6} of {:<6} ({}){worst}",
+            l.limit,
+            l.pass,
+            l.of,
+            pct(l.pass as f64 / l.of.max(1) as f64)
+        );
+    }
+    if let (Some(p), Some(y), Some((lo, hi))) =
+        (sum.pass, sum.yield_fraction, sum.yield_interval_95)
+    {
+        println!(
+            "yield: {p} of {} meet every limit = {}{}",
+            sum.points,
+            pct(y),
+            if corners {
+                String::new()
+            } else {
+                format!(" (95 % interval {} to {})", pct(lo), pct(hi))
+            }
+        );
+    }
+}
+
+/// `chopwave boundary`.
+pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
+    set_threads(a.common.threads)?;
+    let s = load(&a.common.file, &a.common.overrides)?;
+    if a.vary.len() > 2 {
+        return Err(Failure::Input(
+            "give one --vary PATH=LOW:HIGH, and at most one more variable to trace across".into(),
+        ));
+    }
+    if !(a.tolerance_pct > 0.0 && a.tolerance_pct <= 0.1) {
+        return Err(Failure::Input(format!(
+            "--tolerance-pct {} must be above 0 and at most 0.1",
+            a.tolerance_pct
+        )));
+    }
+    let (path, lo, hi) = Vary::parse_bracket(&a.vary[0], &s).map_err(study_failure)?;
+    let bs = BoundarySettings {
+        run: settings(&a.common),
+        rel_tol: a.tolerance_pct / 100.0,
+        ..BoundarySettings::default()
+    };
+    if a.vary.len() == 1 {
+        let b = find_boundary(&s, &path, lo, hi, &[], &bs).map_err(study_failure)?;
+        if a.json {
+            println!("{}", serde_json::to_string_pretty(&b).unwrap_or_default());
+        } else {
+            print_boundary(&s, &b);
+            let top = if path == "supply.voltage_v" { hi } else { 0.0 };
+            let max_v = sim_core::study::max_supply_v(&s, [top]);
+            println!("\nCautions");
+            if max_v > SELV_LIMIT_V {
+                println!(
+                    "  * this search applies supplies up to {} — above the usual 60 V DC \
+                     extra-low-voltage limit: such a driver can injure or kill; follow local \
+                     codes and licensed practice",
+                    eng(max_v, "V")
+                );
+            }
+            println!(
+                "  * a simulation is no substitute for bench measurement and certification; \
+                 follow local codes and licensed practice"
+            );
+        }
+        return Ok(());
+    }
+    let across = Vary::parse(&a.vary[1], &s).map_err(study_failure)?;
+    let curve = boundary_curve(&s, &path, lo, hi, &across, &bs);
+    let mut failed = 0;
+    let mut pts = Vec::new();
+    println!(
+        "CCM/DCM boundary along {path} ({} to {}) across {}:",
+        eng(lo, study_unit(&path)),
+        eng(hi, study_unit(&path)),
+        across.path
+    );
+    for (v, r) in &curve {
+        match r {
+            Ok(b) => {
+                pts.push((b.value, *v));
+                println!(
+                    "  {:>12}: boundary {:>12}   nominal {} on the {} side, {:.1} % away",
+                    eng(*v, study_unit(&across.path)),
+                    eng(b.value, study_unit(&path)),
+                    eng(b.nominal, study_unit(&path)),
+                    if b.nominal_ccm { "CCM" } else { "DCM" },
+                    b.margin_pct
+                );
+            }
+            Err(e) => {
+                failed += 1;
+                println!("  {:>12}: {e}", eng(*v, study_unit(&across.path)));
+            }
+        }
+    }
+    // The mode map behind the curve.
+    let grid = Grid::new(vec![
+        Vary {
+            path: path.clone(),
+            values: linspace(lo, hi, a.map_points.max(2)),
+            resolved: format!("{path}={lo:e}:{hi:e}:{}", a.map_points.max(2)),
+        },
+        across.clone(),
+    ])
+    .map_err(study_failure)?;
+    let bar = progress(grid.len(), quiet, "map points");
+    let tick = || {
+        if let Some(b) = &bar {
+            b.inc(1);
+        }
+    };
+    let t = sweep(&s, &grid, &settings(&a.common), None, &tick);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let dir = &a.common.out;
+    let base = format!("{}-boundary", output::file_stem(&s.name));
+    let mut written = Vec::new();
+    let json = serde_json::json!({
+        "path": path,
+        "across": across.path,
+        "points": curve.iter().map(|(v, r)| match r {
+            Ok(b) => serde_json::json!({"across_value": v, "boundary": b}),
+            Err(e) => serde_json::json!({"across_value": v, "error": e.to_string()}),
+        }).collect::<Vec<_>>(),
+    });
+    (|| -> Result<()> {
+        output::ensure_dir(dir)?;
+        let p = dir.join(format!("{base}.json"));
+        output::write_text(&p, &(serde_json::to_string_pretty(&json)? + "\n"))?;
+        written.push(p);
+        if !a.common.no_plots {
+            let p = dir.join(format!("{base}.png"));
+            study_plot::grid_map(
+                &t,
+                study_plot::MapKind::Mode,
+                &format!("{} — CCM/DCM boundary over the mode map", s.name),
+                Some(("boundary found by search", &pts)),
+                &p,
+            )?;
+            written.push(p);
+        }
+        Ok(())
+    })()
+    .map_err(io_failure)?;
+    if a.json {
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&json).unwrap_or_default()
+        );
+    } else {
+        print_cautions(&t);
+    }
+    if !quiet {
+        for p in &written {
+            eprintln!("wrote {}", p.display());
+        }
+    }
+    if failed > 0 {
+        return Err(Failure::Run(format!(
+            "the boundary was not found for {failed} of {} values",
+            curve.len()
+        )));
+    }
+    Ok(())
+}
+
+fn print_boundary(s: &Scenario, b: &Boundary) {
+    let u = study_unit(&b.path);
+    println!("CCM/DCM boundary of `{}` along {}:", s.name, b.path);
+    println!(
+        "  boundary   {}   (bracket {} to {}, width {:.3} % of the value, {} runs)",
+        sim_core::study::exact_text(b.value),
+        eng(b.bracket.0, u),
+        eng(b.bracket.1, u),
+        100.0 * (b.bracket.1 - b.bracket.0) / b.value.abs(),
+        b.runs
+    );
+    println!("             = {}", crate::format::eng_sig(b.value, u, 5));
+    println!(
+        "  CCM lies {} the boundary, DCM {} it",
+        if b.ccm_above { "above" } else { "below" },
+        if b.ccm_above { "below" } else { "above" }
+    );
+    println!(
+        "  nominal    {} is on the {} side, {:.2} % of the nominal from the boundary",
+        eng(b.nominal, u),
+        if b.nominal_ccm { "CCM" } else { "DCM" },
+        b.margin_pct
+    );
+}
+
+/// `chopwave merge`.
+pub fn run_merge(a: &MergeArgs, quiet: bool) -> Result<(), Failure> {
+    let mut tables = Vec::new();
+    for f in &a.files {
+        let text = std::fs::read_to_string(f)
+            .map_err(|e| Failure::Input(format!("cannot read {}: {e}", f.display())))?;
+        let t = StudyTable::from_json_text(&text)
+            .map_err(|e| Failure::Input(format!("{}: {e}", f.display())))?;
+        tables.push(t);
+    }
+    let t = StudyTable::merge(tables).map_err(|e| Failure::Input(e.to_string()))?;
+    println!(
+        "merged {} shards: {} {} points of `{}`, {} failed",
+        a.files.len(),
+        t.rows.len(),
+        t.manifest.kind.word(),
+        t.manifest.scenario,
+        t.failed()
+    );
+    finish(&t, &a.out, !a.no_plots, quiet)
+}

@@ -1,0 +1,1022 @@
+//! PNG plots of studies, in the look of the run plots (same fonts,
+//! palette, legend column): sweep curves against the swept variable with
+//! DCM shaded, 2-D conduction-mode maps and heat maps, the CCM/DCM
+//! boundary curve over the mode map, and spread histograms with the spec
+//! limits drawn.
+
+use crate::format::eng;
+use crate::plot::{
+    bold, de, font, render, tick, tick_decimals, wrap, Axis, GRID, GRID_MAJOR, HEIGHT, INDUCTOR,
+    INK, LED, LED_AVG, LEGEND_WIDTH, VLED, VSW, WIDTH,
+};
+use anyhow::Result;
+use plotters::coord::Shift;
+use plotters::element::DashedPathElement;
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
+use serde_json::Value;
+use sim_core::study::rows::{RowExt, StudyTable};
+use sim_core::study::spread::SpecLimits;
+use sim_core::study::vary::unit_of;
+use sim_core::units::Unit;
+use std::path::Path;
+
+const DCM_SHADE: RGBColor = RGBColor(250, 226, 218);
+const FAIL: RGBColor = RGBColor(190, 30, 45);
+const CCM_FILL: RGBColor = RGBColor(118, 168, 206);
+const BOUNDARY_FILL: RGBColor = RGBColor(242, 196, 88);
+const DCM_FILL: RGBColor = RGBColor(222, 116, 104);
+const FAILED_FILL: RGBColor = RGBColor(160, 160, 160);
+const EFFICIENCY: RGBColor = RGBColor(34, 120, 70);
+
+/// `c` blended with white: `a` of the colour, the rest white (opaque).
+fn lighten(c: RGBColor, a: f64) -> RGBColor {
+    let m = |v: u8| (255.0 - a * (255.0 - f64::from(v))).round() as u8;
+    RGBColor(m(c.0), m(c.1), m(c.2))
+}
+
+/// The unit symbol of a field, for axis titles (empty for ratios).
+fn unit_symbol(path: &str) -> &'static str {
+    match unit_of(path) {
+        Unit::Ratio => "",
+        Unit::Ohm => "Ω",
+        Unit::Celsius => "°C",
+        u => u.symbol(),
+    }
+}
+
+/// An axis title for a swept field with its prefixed unit.
+fn field_title(path: &str, axis: &Axis) -> String {
+    let u = unit_symbol(path);
+    if u.is_empty() && axis.prefix.is_empty() {
+        path.to_string()
+    } else {
+        format!("{path} ({}{u})", axis.prefix)
+    }
+}
+
+/// One line on a sweep panel; `None` leaves a gap (a failed point).
+struct Curve {
+    label: String,
+    color: RGBColor,
+    dashed: bool,
+    points: Vec<Option<(f64, f64)>>,
+}
+
+/// A shaded band between two values at each x.
+struct Band {
+    label: String,
+    color: RGBColor,
+    points: Vec<Option<(f64, f64, f64)>>,
+}
+
+struct SweepPanel {
+    quantity: String,
+    unit: &'static str,
+    /// Scale by an SI prefix (false for %).
+    prefixed: bool,
+    curves: Vec<Curve>,
+    band: Option<Band>,
+}
+
+fn y_range(p: &SweepPanel) -> (f64, f64) {
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    let mut see = |y: f64| {
+        if y.is_finite() {
+            lo = lo.min(y);
+            hi = hi.max(y);
+        }
+    };
+    for c in &p.curves {
+        for (_, y) in c.points.iter().flatten() {
+            see(*y);
+        }
+    }
+    if let Some(b) = &p.band {
+        for (_, a, c) in b.points.iter().flatten() {
+            see(*a);
+            see(*c);
+        }
+    }
+    if !lo.is_finite() {
+        return (0.0, 1.0);
+    }
+    if lo > 0.0 && lo < 0.25 * hi {
+        lo = 0.0;
+    }
+    let span = (hi - lo).max(1e-3 * hi.abs().max(lo.abs())).max(1e-12);
+    (lo - 0.08 * span, hi + 0.1 * span)
+}
+
+/// Sorted order of the points by their x value.
+fn order_by(xs: &[f64]) -> Vec<usize> {
+    let mut o: Vec<usize> = (0..xs.len()).filter(|&k| xs[k].is_finite()).collect();
+    o.sort_by(|&a, &b| xs[a].total_cmp(&xs[b]));
+    o
+}
+
+/// Cell edges around sorted centres: midpoints, half a step past the ends.
+fn edges(c: &[f64]) -> Vec<f64> {
+    if c.len() == 1 {
+        let w = (0.05 * c[0].abs()).max(1e-12);
+        return vec![c[0] - w, c[0] + w];
+    }
+    let mut e = Vec::with_capacity(c.len() + 1);
+    e.push(c[0] - 0.5 * (c[1] - c[0]));
+    for w in c.windows(2) {
+        e.push(0.5 * (w[0] + w[1]));
+    }
+    let n = c.len();
+    e.push(c[n - 1] + 0.5 * (c[n - 1] - c[n - 2]));
+    e
+}
+
+fn legend_line(
+    area: &DrawingArea<BitMapBackend, Shift>,
+    y: i32,
+    color: RGBColor,
+    kind: u8,
+    label: &str,
+) -> Result<i32> {
+    let x0 = 8;
+    match kind {
+        0 => area
+            .draw(&PathElement::new(
+                vec![(x0, y), (x0 + 34, y)],
+                color.stroke_width(4),
+            ))
+            .map_err(de)?,
+        1 => area
+            .draw(&DashedPathElement::new(
+                vec![(x0, y), (x0 + 34, y)],
+                7,
+                5,
+                color.stroke_width(3),
+            ))
+            .map_err(de)?,
+        _ => area
+            .draw(&Rectangle::new(
+                [(x0, y - 9), (x0 + 34, y + 9)],
+                color.filled(),
+            ))
+            .map_err(de)?,
+    }
+    let lines = wrap(label, 27);
+    for (k, part) in lines.iter().enumerate() {
+        area.draw(&Text::new(
+            part.clone(),
+            (x0 + 44, y - 10 + 22 * k as i32),
+            font(18),
+        ))
+        .map_err(de)?;
+    }
+    Ok(y + 32 + 22 * (lines.len() as i32 - 1))
+}
+
+/// Stacked panels against a swept variable, DCM points shaded.
+#[allow(clippy::too_many_arguments)]
+fn draw_sweep(
+    root: &DrawingArea<BitMapBackend, Shift>,
+    title: &str,
+    subtitle: &str,
+    path: &str,
+    xs: &[f64],
+    modes: &[Option<String>],
+    failed: &[bool],
+    panels: &[SweepPanel],
+) -> Result<()> {
+    root.fill(&WHITE).map_err(de)?;
+    let (head, body) = root.split_vertically(96);
+    head.draw(&Text::new(title.to_string(), (30, 16), bold(34)))
+        .map_err(de)?;
+    head.draw(&Text::new(subtitle.to_string(), (30, 60), font(22)))
+        .map_err(de)?;
+    let n = panels.len() as u32;
+    let each = (HEIGHT - 96 - 70) / n;
+    let breaks: Vec<i32> = (1..n).map(|k| (k * each) as i32).collect();
+    let areas = body.split_by_breakpoints(Vec::<i32>::new(), breaks);
+    let x_lo = xs.iter().copied().fold(f64::INFINITY, f64::min);
+    let x_hi = xs.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let x_axis = Axis::for_magnitude(x_lo.abs().max(x_hi.abs()));
+    let pad = if x_hi > x_lo {
+        0.02 * (x_hi - x_lo)
+    } else {
+        0.05 * x_hi.abs().max(1e-12)
+    };
+    let xr = ((x_lo - pad) / x_axis.scale, (x_hi + pad) / x_axis.scale);
+    let order = order_by(xs);
+    let sorted: Vec<f64> = order.iter().map(|&k| xs[k]).collect();
+    let e = edges(&sorted);
+    let any_dcm = modes.iter().any(|m| m.as_deref() == Some("dcm"));
+    let any_failed = failed.iter().any(|f| *f);
+    for (k, (panel, area)) in panels.iter().zip(areas.iter()).enumerate() {
+        let last = k + 1 == panels.len();
+        let (plot_area, legend_area) = area.split_horizontally(WIDTH - LEGEND_WIDTH);
+        let (lo, hi) = y_range(panel);
+        let y_axis = if panel.prefixed {
+            Axis::for_magnitude(lo.abs().max(hi.abs()))
+        } else {
+            Axis {
+                scale: 1.0,
+                prefix: "",
+            }
+        };
+        let yr = (lo / y_axis.scale, hi / y_axis.scale);
+        let (xd, yd) = (
+            tick_decimals(xr.1 - xr.0, 10),
+            tick_decimals(yr.1 - yr.0, 5),
+        );
+        let mut chart = ChartBuilder::on(&plot_area)
+            .margin_left(20)
+            .margin_right(24)
+            .margin_top(10)
+            .margin_bottom(if last { 10 } else { 6 })
+            .x_label_area_size(if last { 70 } else { 0 })
+            .y_label_area_size(110)
+            .build_cartesian_2d(xr.0..xr.1, yr.0..yr.1)
+            .map_err(de)?;
+        // Shade DCM points first, under the grid and data.
+        for (j, &kk) in order.iter().enumerate() {
+            if modes[kk].as_deref() == Some("dcm") {
+                let (a, b) = (e[j].max(x_lo - pad), e[j + 1].min(x_hi + pad));
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(a / x_axis.scale, yr.0), (b / x_axis.scale, yr.1)],
+                        DCM_SHADE.filled(),
+                    )))
+                    .map_err(de)?;
+            }
+        }
+        let y_desc = if panel.unit.is_empty() {
+            panel.quantity.clone()
+        } else {
+            format!("{} ({}{})", panel.quantity, y_axis.prefix, panel.unit)
+        };
+        let x_fmt = |v: &f64| tick(*v, xd);
+        let y_fmt = |v: &f64| tick(*v, yd);
+        let mut mesh = chart.configure_mesh();
+        mesh.x_labels(10)
+            .y_labels(5)
+            .light_line_style(GRID)
+            .bold_line_style(GRID_MAJOR)
+            .axis_style(INK)
+            .label_style(font(19))
+            .axis_desc_style(font(21))
+            .y_desc(y_desc)
+            .x_label_formatter(&x_fmt)
+            .y_label_formatter(&y_fmt);
+        if last {
+            mesh.x_desc(field_title(path, &x_axis));
+        }
+        mesh.draw().map_err(de)?;
+        let (sx, sy) = (x_axis.scale, y_axis.scale);
+        if let Some(b) = &panel.band {
+            // One polygon per run of points without a gap.
+            let mut run: Vec<(f64, f64, f64)> = Vec::new();
+            let mut runs = Vec::new();
+            for &kk in &order {
+                match b.points[kk] {
+                    Some(p) => run.push(p),
+                    None => runs.push(std::mem::take(&mut run)),
+                }
+            }
+            runs.push(run);
+            for r in runs.into_iter().filter(|r| r.len() > 1) {
+                let mut poly: Vec<(f64, f64)> = r.iter().map(|p| (p.0 / sx, p.2 / sy)).collect();
+                poly.extend(r.iter().rev().map(|p| (p.0 / sx, p.1 / sy)));
+                chart
+                    .draw_series(std::iter::once(Polygon::new(
+                        poly,
+                        lighten(b.color, 0.35).filled(),
+                    )))
+                    .map_err(de)?;
+            }
+        }
+        for c in &panel.curves {
+            let style = ShapeStyle::from(&c.color).stroke_width(if c.dashed { 2 } else { 3 });
+            let mut seg: Vec<(f64, f64)> = Vec::new();
+            let mut segs = Vec::new();
+            for &kk in &order {
+                match c.points[kk] {
+                    Some((x, y)) => seg.push((x / sx, y / sy)),
+                    None => segs.push(std::mem::take(&mut seg)),
+                }
+            }
+            segs.push(seg);
+            for s in segs {
+                if c.dashed {
+                    chart
+                        .draw_series(DashedLineSeries::new(s, 10, 7, style))
+                        .map_err(de)?;
+                } else {
+                    if s.len() == 1 || order.len() <= 40 {
+                        chart
+                            .draw_series(s.iter().map(|&p| Circle::new(p, 4, c.color.filled())))
+                            .map_err(de)?;
+                    }
+                    chart.draw_series(LineSeries::new(s, style)).map_err(de)?;
+                }
+            }
+        }
+        // Failed points: a red tick at the bottom of every panel.
+        for (kk, f) in failed.iter().enumerate() {
+            if *f {
+                let x = xs[kk] / sx;
+                let h = 0.08 * (yr.1 - yr.0);
+                chart
+                    .draw_series(std::iter::once(PathElement::new(
+                        vec![(x, yr.0), (x, yr.0 + h)],
+                        FAIL.stroke_width(4),
+                    )))
+                    .map_err(de)?;
+            }
+        }
+        let mut y = 22;
+        if let Some(b) = &panel.band {
+            y = legend_line(&legend_area, y, lighten(b.color, 0.35), 2, &b.label)?;
+        }
+        for c in &panel.curves {
+            y = legend_line(&legend_area, y, c.color, u8::from(c.dashed), &c.label)?;
+        }
+        if any_dcm {
+            y = legend_line(&legend_area, y, DCM_SHADE, 2, "DCM (shaded)")?;
+        }
+        if any_failed {
+            legend_line(&legend_area, y, FAIL, 0, "failed point (tick at bottom)")?;
+        }
+    }
+    root.present().map_err(de)?;
+    Ok(())
+}
+
+fn metric_points(t: &StudyTable, name: &str, scale: f64) -> Vec<Option<(f64, f64)>> {
+    t.rows
+        .iter()
+        .map(|r| r.metric(name).map(|v| (r.input(0), v * scale)))
+        .collect()
+}
+
+fn mode_words(t: &StudyTable) -> Vec<Option<String>> {
+    t.rows
+        .iter()
+        .map(|r| r.mode().map(str::to_string))
+        .collect()
+}
+
+fn fail_flags(t: &StudyTable) -> Vec<bool> {
+    t.rows.iter().map(|r| !r.ok()).collect()
+}
+
+fn subtitle(t: &StudyTable) -> String {
+    let f = t.failed();
+    let mut s = format!(
+        "{} points   ·   {} start{}",
+        t.rows.len(),
+        if t.manifest.warm_start {
+            "warm"
+        } else {
+            "cold"
+        },
+        if t.manifest.warm_start {
+            " (each from its neighbour's steady state)"
+        } else {
+            " (each from power-on)"
+        }
+    );
+    if f > 0 {
+        s.push_str(&format!("   ·   {f} failed (see the CSV error column)"));
+    }
+    s
+}
+
+/// Writes the two 1-D sweep plots: currents (LED average with its
+/// min–max band, ripple %, inductor peak against its saturation rating)
+/// and operation (frequency, duty, efficiency).
+pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> {
+    let path = t.manifest.inputs[0].clone();
+    let xs: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
+    let modes = mode_words(t);
+    let failed = fail_flags(t);
+    let band = Band {
+        label: "LED current min to max (ripple band)".into(),
+        color: LED,
+        points: t
+            .rows
+            .iter()
+            .map(|r| {
+                r.metric("led_current_min_a")
+                    .zip(r.metric("led_current_max_a"))
+                    .map(|(a, b)| (r.input(0), a, b))
+            })
+            .collect(),
+    };
+    let mut peak_curves = vec![Curve {
+        label: "inductor peak current".into(),
+        color: INDUCTOR,
+        dashed: false,
+        points: metric_points(t, "inductor_current_peak_a", 1.0),
+    }];
+    if let Some(sat) = t.manifest.inductor_saturation_a {
+        peak_curves.push(Curve {
+            label: format!("saturation rating {}", eng(sat, "A")),
+            color: FAIL,
+            dashed: true,
+            points: t.rows.iter().map(|r| Some((r.input(0), sat))).collect(),
+        });
+    }
+    let panels = [
+        SweepPanel {
+            quantity: "LED current".into(),
+            unit: "A",
+            prefixed: true,
+            curves: vec![Curve {
+                label: "LED current average".into(),
+                color: LED_AVG,
+                dashed: false,
+                points: metric_points(t, "led_current_avg_a", 1.0),
+            }],
+            band: Some(band),
+        },
+        SweepPanel {
+            quantity: "LED ripple".into(),
+            unit: "%",
+            prefixed: false,
+            curves: vec![Curve {
+                label: "peak-to-peak LED ripple, % of average".into(),
+                color: VLED,
+                dashed: false,
+                points: metric_points(t, "led_current_ripple_pct", 1.0),
+            }],
+            band: None,
+        },
+        SweepPanel {
+            quantity: "Inductor peak".into(),
+            unit: "A",
+            prefixed: true,
+            curves: peak_curves,
+            band: None,
+        },
+    ];
+    let title = format!(
+        "{} — sweep of {path}: LED current and inductor stress",
+        t.manifest.scenario
+    );
+    render(current, |root| {
+        draw_sweep(
+            root,
+            &title,
+            &subtitle(t),
+            &path,
+            &xs,
+            &modes,
+            &failed,
+            &panels,
+        )
+    })?;
+    let panels = [
+        SweepPanel {
+            quantity: "Frequency".into(),
+            unit: "Hz",
+            prefixed: true,
+            curves: vec![Curve {
+                label: "switching frequency".into(),
+                color: INDUCTOR,
+                dashed: false,
+                points: metric_points(t, "switching_frequency_hz", 1.0),
+            }],
+            band: None,
+        },
+        SweepPanel {
+            quantity: "Duty".into(),
+            unit: "%",
+            prefixed: false,
+            curves: vec![Curve {
+                label: "duty cycle (on-time over period)".into(),
+                color: VSW,
+                dashed: false,
+                points: metric_points(t, "duty", 100.0),
+            }],
+            band: None,
+        },
+        SweepPanel {
+            quantity: "Efficiency".into(),
+            unit: "%",
+            prefixed: false,
+            curves: vec![Curve {
+                label: "efficiency (LED power over input power)".into(),
+                color: EFFICIENCY,
+                dashed: false,
+                points: metric_points(t, "efficiency", 100.0),
+            }],
+            band: None,
+        },
+    ];
+    let title = format!(
+        "{} — sweep of {path}: frequency, duty, efficiency",
+        t.manifest.scenario
+    );
+    render(operation, |root| {
+        draw_sweep(
+            root,
+            &title,
+            &subtitle(t),
+            &path,
+            &xs,
+            &modes,
+            &failed,
+            &panels,
+        )
+    })
+}
+
+/// Our colour scale for heat maps: deep blue, through teal, to sand.
+fn scale_colour(f: f64) -> RGBColor {
+    let stops = [
+        (30.0, 45.0, 105.0),
+        (25.0, 140.0, 140.0),
+        (246.0, 206.0, 96.0),
+    ];
+    let f = f.clamp(0.0, 1.0) * 2.0;
+    let k = (f.floor() as usize).min(1);
+    let u = f - k as f64;
+    let (a, b) = (stops[k], stops[k + 1]);
+    let mix = |p: f64, q: f64| (p + u * (q - p)).round() as u8;
+    RGBColor(mix(a.0, b.0), mix(a.1, b.1), mix(a.2, b.2))
+}
+
+/// How a 2-D map colours its cells.
+pub enum MapKind<'a> {
+    /// Conduction mode: CCM, boundary, DCM, failed.
+    Mode,
+    /// A metric on a colour scale: (metric name, multiplier, title, unit).
+    Heat(&'a str, f64, &'a str, &'a str),
+}
+
+/// Writes a 2-D map over the grid of a sweep table (first input along
+/// x, second along y), with an optional curve (x, y) drawn over it.
+pub fn grid_map(
+    t: &StudyTable,
+    kind: MapKind,
+    title: &str,
+    overlay: Option<(&str, &[(f64, f64)])>,
+    out: &Path,
+) -> Result<()> {
+    let (px, py) = (t.manifest.inputs[0].clone(), t.manifest.inputs[1].clone());
+    let mut xv: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
+    let mut yv: Vec<f64> = t.rows.iter().map(|r| r.input(1)).collect();
+    xv.sort_by(f64::total_cmp);
+    xv.dedup_by(|a, b| a.to_bits() == b.to_bits());
+    yv.sort_by(f64::total_cmp);
+    yv.dedup_by(|a, b| a.to_bits() == b.to_bits());
+    let (ex, ey) = (edges(&xv), edges(&yv));
+    let xa = Axis::for_magnitude(ex[0].abs().max(ex[ex.len() - 1].abs()));
+    let ya = Axis::for_magnitude(ey[0].abs().max(ey[ey.len() - 1].abs()));
+    let value = |r: &Value| match kind {
+        MapKind::Heat(m, k, _, _) => r.metric(m).map(|v| v * k),
+        MapKind::Mode => None,
+    };
+    let vals: Vec<f64> = t
+        .rows
+        .iter()
+        .filter_map(value)
+        .filter(|v| v.is_finite())
+        .collect();
+    let vmin = vals.iter().copied().fold(f64::INFINITY, f64::min);
+    let vmax = vals.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let sub = subtitle(t);
+    render(out, |root| {
+        root.fill(&WHITE).map_err(de)?;
+        let (head, body) = root.split_vertically(96);
+        head.draw(&Text::new(title.to_string(), (30, 16), bold(34)))
+            .map_err(de)?;
+        head.draw(&Text::new(sub.clone(), (30, 60), font(22)))
+            .map_err(de)?;
+        let (plot_area, legend) = body.split_horizontally(WIDTH - LEGEND_WIDTH);
+        let xr = (ex[0] / xa.scale, ex[ex.len() - 1] / xa.scale);
+        let yr = (ey[0] / ya.scale, ey[ey.len() - 1] / ya.scale);
+        let (xd, yd) = (
+            tick_decimals(xr.1 - xr.0, 10),
+            tick_decimals(yr.1 - yr.0, 8),
+        );
+        let mut chart = ChartBuilder::on(&plot_area)
+            .margin_left(20)
+            .margin_right(24)
+            .margin_top(16)
+            .margin_bottom(10)
+            .x_label_area_size(70)
+            .y_label_area_size(120)
+            .build_cartesian_2d(xr.0..xr.1, yr.0..yr.1)
+            .map_err(de)?;
+        let x_fmt = |v: &f64| tick(*v, xd);
+        let y_fmt = |v: &f64| tick(*v, yd);
+        chart
+            .configure_mesh()
+            .disable_mesh()
+            .x_labels(10)
+            .y_labels(8)
+            .axis_style(INK)
+            .label_style(font(19))
+            .axis_desc_style(font(21))
+            .x_desc(field_title(&px, &xa))
+            .y_desc(field_title(&py, &ya))
+            .x_label_formatter(&x_fmt)
+            .y_label_formatter(&y_fmt)
+            .draw()
+            .map_err(de)?;
+        for r in &t.rows {
+            let (x, y) = (r.input(0), r.input(1));
+            let (Some(i), Some(j)) = (
+                xv.iter().position(|v| v.to_bits() == x.to_bits()),
+                yv.iter().position(|v| v.to_bits() == y.to_bits()),
+            ) else {
+                continue;
+            };
+            let colour = match kind {
+                MapKind::Mode => match r.mode() {
+                    Some("ccm") => CCM_FILL,
+                    Some("dcm") => DCM_FILL,
+                    Some(_) => BOUNDARY_FILL,
+                    None => FAILED_FILL,
+                },
+                MapKind::Heat(..) => match value(r) {
+                    Some(v) if v.is_finite() => {
+                        let span = vmax - vmin;
+                        scale_colour(if span > 0.0 { (v - vmin) / span } else { 0.5 })
+                    }
+                    _ => FAILED_FILL,
+                },
+            };
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [
+                        (ex[i] / xa.scale, ey[j] / ya.scale),
+                        (ex[i + 1] / xa.scale, ey[j + 1] / ya.scale),
+                    ],
+                    colour.filled(),
+                )))
+                .map_err(de)?;
+            // Thin white cell borders keep cells apart.
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [
+                        (ex[i] / xa.scale, ey[j] / ya.scale),
+                        (ex[i + 1] / xa.scale, ey[j + 1] / ya.scale),
+                    ],
+                    WHITE.stroke_width(1),
+                )))
+                .map_err(de)?;
+        }
+        // Values written in the cells when they fit (heat maps).
+        let cell_px = f64::from(WIDTH - LEGEND_WIDTH - 180) / xv.len() as f64;
+        if matches!(kind, MapKind::Heat(..)) && cell_px >= 64.0 && yv.len() <= 24 {
+            let span = vmax - vmin;
+            for r in &t.rows {
+                let Some(v) = value(r).filter(|v| v.is_finite()) else {
+                    continue;
+                };
+                let (x, y) = (r.input(0), r.input(1));
+                let (Some(i), Some(j)) = (
+                    xv.iter().position(|q| q.to_bits() == x.to_bits()),
+                    yv.iter().position(|q| q.to_bits() == y.to_bits()),
+                ) else {
+                    continue;
+                };
+                let f = if span > 0.0 { (v - vmin) / span } else { 0.5 };
+                let ink = if f < 0.55 { WHITE } else { INK };
+                let style = font(17)
+                    .color(&ink)
+                    .pos(Pos::new(HPos::Center, VPos::Center));
+                let c = (
+                    0.5 * (ex[i] + ex[i + 1]) / xa.scale,
+                    0.5 * (ey[j] + ey[j + 1]) / ya.scale,
+                );
+                chart
+                    .draw_series(std::iter::once(Text::new(format!("{v:.1}"), c, style)))
+                    .map_err(de)?;
+            }
+        }
+        if let Some((_, pts)) = overlay {
+            let p: Vec<(f64, f64)> = pts
+                .iter()
+                .map(|&(x, y)| (x / xa.scale, y / ya.scale))
+                .collect();
+            chart
+                .draw_series(LineSeries::new(p.clone(), INK.stroke_width(4)))
+                .map_err(de)?;
+            chart
+                .draw_series(p.iter().map(|&q| Circle::new(q, 6, INK.filled())))
+                .map_err(de)?;
+        }
+        let mut y = 30;
+        match kind {
+            MapKind::Mode => {
+                let seen = |w: &str| t.rows.iter().any(|r| r.mode() == Some(w));
+                for (w, c, l) in [
+                    ("ccm", CCM_FILL, "CCM: current never reaches zero"),
+                    ("boundary", BOUNDARY_FILL, "at the CCM/DCM boundary"),
+                    ("dcm", DCM_FILL, "DCM: current rests at zero"),
+                ] {
+                    if seen(w) {
+                        y = legend_line(&legend, y, c, 2, l)?;
+                    }
+                }
+                if t.any_failed() {
+                    y = legend_line(&legend, y, FAILED_FILL, 2, "failed point")?;
+                }
+                if let Some((label, _)) = overlay {
+                    legend_line(&legend, y, INK, 0, label)?;
+                }
+            }
+            MapKind::Heat(_, _, name, unit) => {
+                legend
+                    .draw(&Text::new(name.to_string(), (8, y - 12), bold(19)))
+                    .map_err(de)?;
+                let (top, bottom) = (y + 24, y + 24 + 500);
+                for k in 0..(bottom - top) {
+                    let f = 1.0 - k as f64 / f64::from(bottom - top - 1);
+                    legend
+                        .draw(&Rectangle::new(
+                            [(12, top + k), (52, top + k + 1)],
+                            scale_colour(f).filled(),
+                        ))
+                        .map_err(de)?;
+                }
+                let span = vmax - vmin;
+                let d = tick_decimals(span.max(1e-9), 5);
+                for k in 0..=5 {
+                    let f = f64::from(k) / 5.0;
+                    let v = vmax - f * span;
+                    let yy = top as f64 + f * f64::from(bottom - top);
+                    legend
+                        .draw(&Text::new(
+                            format!("{} {unit}", tick(v, d)),
+                            (62, yy as i32 - 10),
+                            font(18),
+                        ))
+                        .map_err(de)?;
+                }
+                if t.any_failed() {
+                    legend_line(&legend, bottom + 40, FAILED_FILL, 2, "failed point")?;
+                }
+            }
+        }
+        root.present().map_err(de)?;
+        Ok(())
+    })
+}
+
+/// What a histogram marks: spec limits and the median.
+struct Mark {
+    label: String,
+    x: f64,
+    color: RGBColor,
+}
+
+/// Writes histograms of the main metrics of a spread (2 × 2), with the
+/// spec limits and the median drawn.
+pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
+    let spec: SpecLimits = t.manifest.spec.unwrap_or_default();
+    let panels: [(&str, f64, &str, &str); 4] = [
+        ("led_current_avg_a", 1.0, "LED current average", "A"),
+        (
+            "led_current_ripple_pct",
+            1.0,
+            "LED ripple (% of average)",
+            "%",
+        ),
+        ("efficiency", 100.0, "Efficiency", "%"),
+        ("inductor_current_peak_a", 1.0, "Inductor peak current", "A"),
+    ];
+    let title = format!(
+        "{} — {} of {} samples{}",
+        t.manifest.scenario,
+        if t.manifest.kind == sim_core::study::rows::StudyKind::Corners {
+            "corners"
+        } else {
+            "spread"
+        },
+        t.rows.len(),
+        t.manifest
+            .seed
+            .map_or(String::new(), |s| format!(" (seed {s})"))
+    );
+    let failed = t.failed();
+    let sub = format!(
+        "histograms of the samples that ran{}   ·   red dashed: spec limits   ·   dark dashed: median",
+        if failed > 0 {
+            format!(" ({failed} failed, not shown)")
+        } else {
+            String::new()
+        }
+    );
+    render(out, |root| {
+        root.fill(&WHITE).map_err(de)?;
+        let (head, body) = root.split_vertically(96);
+        head.draw(&Text::new(title.clone(), (30, 16), bold(34)))
+            .map_err(de)?;
+        head.draw(&Text::new(sub.clone(), (30, 60), font(22)))
+            .map_err(de)?;
+        let cells = body.split_evenly((2, 2));
+        for ((name, k, label, unit), cell) in panels.iter().zip(cells.iter()) {
+            let mut v: Vec<f64> = t
+                .rows
+                .iter()
+                .filter_map(|r| r.metric(name).map(|x| x * k))
+                .filter(|x| x.is_finite())
+                .collect();
+            v.sort_by(f64::total_cmp);
+            let mut marks = Vec::new();
+            if !v.is_empty() {
+                let med = sim_core::study::spread::quantile_sorted(&v, 0.5);
+                marks.push(Mark {
+                    label: format!("median {}", show(med, unit)),
+                    x: med,
+                    color: INK,
+                });
+            }
+            match *name {
+                "led_current_avg_a" => {
+                    if let (Some(p), Some(tg)) = (spec.current_within_pct, spec.target_current_a) {
+                        for (s, w) in [(-1.0, "low"), (1.0, "high")] {
+                            let x = tg * (1.0 + s * p / 100.0);
+                            marks.push(Mark {
+                                label: format!("spec {w} {}", show(x, unit)),
+                                x,
+                                color: FAIL,
+                            });
+                        }
+                    }
+                }
+                "led_current_ripple_pct" => {
+                    if let Some(m) = spec.max_ripple_pct {
+                        marks.push(Mark {
+                            label: format!("spec max {m} %"),
+                            x: m,
+                            color: FAIL,
+                        });
+                    }
+                }
+                "efficiency" => {
+                    if let Some(m) = spec.min_efficiency {
+                        marks.push(Mark {
+                            label: format!("spec min {:.1} %", 100.0 * m),
+                            x: 100.0 * m,
+                            color: FAIL,
+                        });
+                    }
+                }
+                "inductor_current_peak_a" => {
+                    if let Some(sat) = t.manifest.inductor_saturation_a {
+                        marks.push(Mark {
+                            label: format!("saturation rating {}", eng(sat, "A")),
+                            x: sat,
+                            color: FAIL,
+                        });
+                    }
+                }
+                _ => {}
+            }
+            histogram(cell, label, unit, &v, &marks)?;
+        }
+        root.present().map_err(de)?;
+        Ok(())
+    })
+}
+
+fn show(v: f64, unit: &str) -> String {
+    if unit == "%" {
+        format!("{v:.2} %")
+    } else {
+        eng(v, unit)
+    }
+}
+
+fn histogram(
+    cell: &DrawingArea<BitMapBackend, Shift>,
+    label: &str,
+    unit: &str,
+    sorted: &[f64],
+    marks: &[Mark],
+) -> Result<()> {
+    let (legend, area) = cell.split_vertically(64);
+    legend
+        .draw(&Text::new(label.to_string(), (40, 6), bold(22)))
+        .map_err(de)?;
+    let mut x = 40;
+    for m in marks {
+        legend
+            .draw(&DashedPathElement::new(
+                vec![(x, 46), (x + 28, 46)],
+                6,
+                4,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+        legend
+            .draw(&Text::new(m.label.clone(), (x + 34, 36), font(17)))
+            .map_err(de)?;
+        x += 44 + 9 * m.label.chars().count() as i32;
+    }
+    if sorted.is_empty() {
+        area.draw(&Text::new(
+            "no samples ran".to_string(),
+            (60, 120),
+            font(20),
+        ))
+        .map_err(de)?;
+        return Ok(());
+    }
+    let mut lo = sorted[0];
+    let mut hi = sorted[sorted.len() - 1];
+    for m in marks {
+        lo = lo.min(m.x);
+        hi = hi.max(m.x);
+    }
+    let span = (hi - lo).max(1e-9 * hi.abs().max(1e-30));
+    let (lo, hi) = (lo - 0.05 * span, hi + 0.05 * span);
+    let bins = ((sorted.len() as f64).sqrt().round() as usize).clamp(8, 40);
+    let d0 = sorted[0];
+    let d1 = sorted[sorted.len() - 1];
+    let w = ((d1 - d0) / bins as f64).max(span * 1e-6);
+    let mut counts = vec![0usize; bins];
+    for &v in sorted {
+        let b = (((v - d0) / w) as usize).min(bins - 1);
+        counts[b] += 1;
+    }
+    let top = counts.iter().copied().max().unwrap_or(1) as f64 * 1.12;
+    let ax = if unit == "%" {
+        Axis {
+            scale: 1.0,
+            prefix: "",
+        }
+    } else {
+        Axis::for_magnitude(lo.abs().max(hi.abs()))
+    };
+    let xr = (lo / ax.scale, hi / ax.scale);
+    let xd = tick_decimals(xr.1 - xr.0, 6);
+    let mut chart = ChartBuilder::on(&area)
+        .margin_left(16)
+        .margin_right(30)
+        .margin_top(6)
+        .margin_bottom(8)
+        .x_label_area_size(56)
+        .y_label_area_size(90)
+        .build_cartesian_2d(xr.0..xr.1, 0.0..top)
+        .map_err(de)?;
+    let x_fmt = |v: &f64| tick(*v, xd);
+    let y_fmt = |v: &f64| tick(*v, 0);
+    let unit_text = if unit == "%" {
+        "%".to_string()
+    } else {
+        format!("{}{unit}", ax.prefix)
+    };
+    chart
+        .configure_mesh()
+        .x_labels(6)
+        .y_labels(5)
+        .light_line_style(GRID)
+        .bold_line_style(GRID_MAJOR)
+        .axis_style(INK)
+        .label_style(font(17))
+        .axis_desc_style(font(19))
+        .x_desc(format!("{label} ({unit_text})"))
+        .y_desc("samples")
+        .x_label_formatter(&x_fmt)
+        .y_label_formatter(&y_fmt)
+        .draw()
+        .map_err(de)?;
+    chart
+        .draw_series(counts.iter().enumerate().map(|(b, &c)| {
+            let x0 = (d0 + b as f64 * w) / ax.scale;
+            let x1 = (d0 + (b + 1) as f64 * w) / ax.scale;
+            Rectangle::new([(x0, 0.0), (x1, c as f64)], INDUCTOR.mix(0.75).filled())
+        }))
+        .map_err(de)?;
+    // White edges keep neighbouring bars of equal height apart.
+    chart
+        .draw_series(
+            counts
+                .iter()
+                .enumerate()
+                .filter(|(_, &c)| c > 0)
+                .map(|(b, &c)| {
+                    let x0 = (d0 + b as f64 * w) / ax.scale;
+                    let x1 = (d0 + (b + 1) as f64 * w) / ax.scale;
+                    Rectangle::new([(x0, 0.0), (x1, c as f64)], WHITE.stroke_width(1))
+                }),
+        )
+        .map_err(de)?;
+    for m in marks {
+        let x = m.x / ax.scale;
+        chart
+            .draw_series(DashedLineSeries::new(
+                vec![(x, 0.0), (x, top)],
+                10,
+                7,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+    }
+    Ok(())
+}

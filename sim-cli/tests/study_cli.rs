@@ -1,0 +1,340 @@
+//! The study commands as a user runs them: `sweep`, `boundary`,
+//! `spread` and `merge`, their files, exit codes and messages.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn run(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_chopwave"))
+        .env("RUST_BACKTRACE", "1")
+        .args(args)
+        .output()
+        .expect("the chopwave binary runs")
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("chopwave-study-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn scenario(name: &str) -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../scenarios")
+        .join(name)
+        .display()
+        .to_string()
+}
+
+fn png_size(p: &Path) -> (u32, u32) {
+    let dec = png::Decoder::new(std::io::BufReader::new(std::fs::File::open(p).unwrap()));
+    let r = dec.read_info().unwrap();
+    let i = r.info();
+    (i.width, i.height)
+}
+
+fn read(p: &Path) -> Vec<u8> {
+    std::fs::read(p).unwrap_or_else(|e| panic!("{}: {e}", p.display()))
+}
+
+#[test]
+fn sweep_writes_rows_and_plots() {
+    let d = scratch("sweep");
+    let out = d.display().to_string();
+    let o = run(&[
+        "sweep",
+        &scenario("cabin-light-9-32v.json"),
+        "--vary",
+        "supply.voltage_v=range:5",
+        "--out",
+        &out,
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let stdout = text(&o.stdout);
+    assert!(
+        stdout.contains("5 points over supply.voltage_v"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("Cautions"), "{stdout}");
+    let csv = std::fs::read_to_string(d.join("cabin-light-9-32v-sweep.csv")).unwrap();
+    let lines: Vec<&str> = csv.lines().collect();
+    assert_eq!(lines.len(), 6);
+    assert!(lines[0].starts_with("index,supply.voltage_v,status,"));
+    assert!(
+        lines[1].starts_with("0,9,ok,") || lines[1].starts_with("0,9.0,ok,"),
+        "{}",
+        lines[1]
+    );
+    let json: serde_json::Value =
+        serde_json::from_slice(&read(&d.join("cabin-light-9-32v-sweep.json"))).unwrap();
+    assert_eq!(json["manifest"]["points"], 5);
+    assert_eq!(json["rows"].as_array().unwrap().len(), 5);
+    for p in ["current", "operation"] {
+        let f = d.join(format!("cabin-light-9-32v-sweep-{p}.png"));
+        assert_eq!(png_size(&f), (1600, 1000));
+    }
+}
+
+#[test]
+fn failed_points_set_the_exit_code_and_keep_their_rows() {
+    let d = scratch("fail");
+    let out = d.display().to_string();
+    // At 5 V the current cannot reach the upper threshold: invalid point.
+    let o = run(&[
+        "sweep",
+        &scenario("cabin-light-9-32v.json"),
+        "--vary",
+        "supply.voltage_v=5,13.8",
+        "--out",
+        &out,
+        "--no-plots",
+        "-q",
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
+    assert!(text(&o.stderr).contains("1 of 2 points failed"));
+    let csv = std::fs::read_to_string(d.join("cabin-light-9-32v-sweep.csv")).unwrap();
+    let row0 = csv.lines().nth(1).unwrap();
+    assert!(
+        row0.contains(",failed,") && row0.contains("invalid point"),
+        "{row0}"
+    );
+    assert!(csv.lines().nth(2).unwrap().contains(",ok,"));
+}
+
+#[test]
+fn bad_vary_is_bad_input() {
+    for spec in [
+        "supply.voltage_v",
+        "inductor.inductanse_h=1u:2u:3",
+        "supply.voltage_v=1:2:0",
+    ] {
+        let o = run(&[
+            "sweep",
+            &scenario("headlamp-4cell.json"),
+            "--vary",
+            spec,
+            "-q",
+        ]);
+        assert_eq!(o.status.code(), Some(2), "{spec}: {}", text(&o.stderr));
+        assert!(text(&o.stderr).contains(spec), "{}", text(&o.stderr));
+    }
+}
+
+#[test]
+fn sweep_shards_merge_to_the_same_files() {
+    let d = scratch("shards");
+    let whole = d.join("whole");
+    let parts = d.join("parts");
+    let merged = d.join("merged");
+    let args = |out: &Path, shard: Option<&str>| {
+        let mut a = vec![
+            "sweep".to_string(),
+            scenario("cabin-light-9-32v.json"),
+            "--vary".into(),
+            "supply.voltage_v=9:32:10".into(),
+            "--vary".into(),
+            "inductor.inductance_h=47u,68u".into(),
+            "--out".into(),
+            out.display().to_string(),
+            "-q".into(),
+        ];
+        if let Some(s) = shard {
+            a.extend(["--shard".into(), s.into(), "--no-plots".into()]);
+        }
+        a
+    };
+    let o = run(&args(&whole, None)
+        .iter()
+        .map(String::as_str)
+        .collect::<Vec<_>>());
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    for s in ["1/3", "2/3", "3/3"] {
+        let o = run(&args(&parts, Some(s))
+            .iter()
+            .map(String::as_str)
+            .collect::<Vec<_>>());
+        assert!(o.status.success(), "{}", text(&o.stderr));
+    }
+    let mut files: Vec<String> = std::fs::read_dir(&parts)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "json"))
+        .map(|p| p.display().to_string())
+        .collect();
+    files.sort();
+    files.reverse();
+    assert_eq!(files.len(), 3);
+    let mut a = vec!["merge", "--out"];
+    let m = merged.display().to_string();
+    a.push(&m);
+    a.extend(files.iter().map(String::as_str));
+    let o = run(&a);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    for f in [
+        "cabin-light-9-32v-sweep.csv",
+        "cabin-light-9-32v-sweep.json",
+        "cabin-light-9-32v-sweep-mode-map.png",
+        "cabin-light-9-32v-sweep-efficiency-map.png",
+    ] {
+        assert!(read(&whole.join(f)) == read(&merged.join(f)), "{f} differs");
+    }
+    // Two shards only: refused as bad input.
+    let o = run(&["merge", "--out", &m, &files[0], &files[1]]);
+    assert_eq!(o.status.code(), Some(2));
+}
+
+#[test]
+fn spread_with_command_line_limits_and_shards() {
+    let d = scratch("spread");
+    let whole = d.join("whole");
+    let parts = d.join("parts");
+    let base = |out: &Path| {
+        vec![
+            "spread".to_string(),
+            scenario("cabin-light-9-32v.json"),
+            "--samples".into(),
+            "12".into(),
+            "--seed".into(),
+            "4".into(),
+            "--spec".into(),
+            "max_ripple_pct=45".into(),
+            "--spec".into(),
+            "no_dcm".into(),
+            "--out".into(),
+            out.display().to_string(),
+            "-q".into(),
+        ]
+    };
+    let o = run(&base(&whole).iter().map(String::as_str).collect::<Vec<_>>());
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let stdout = text(&o.stdout);
+    assert!(stdout.contains("12 samples (seed 4)"), "{stdout}");
+    assert!(stdout.contains("LED ripple at most 45 %"), "{stdout}");
+    assert!(stdout.contains("yield:"), "{stdout}");
+    let summary: serde_json::Value =
+        serde_json::from_slice(&read(&whole.join("cabin-light-9-32v-spread-summary.json")))
+            .unwrap();
+    assert_eq!(summary["points"], 12);
+    assert_eq!(
+        png_size(&whole.join("cabin-light-9-32v-spread-histograms.png")),
+        (1600, 1000)
+    );
+    let mut files = Vec::new();
+    for s in ["1/2", "2/2"] {
+        let mut a = base(&parts);
+        a.extend(["--shard".into(), s.into()]);
+        let o = run(&a.iter().map(String::as_str).collect::<Vec<_>>());
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        let k = &s[..1];
+        files.push(
+            parts
+                .join(format!("cabin-light-9-32v-spread-shard-{k}-of-2.json"))
+                .display()
+                .to_string(),
+        );
+    }
+    let m = d.join("merged").display().to_string();
+    let o = run(&["merge", "--out", &m, &files[1], &files[0], "--no-plots"]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    for f in [
+        "cabin-light-9-32v-spread.csv",
+        "cabin-light-9-32v-spread.json",
+        "cabin-light-9-32v-spread-summary.json",
+    ] {
+        assert!(
+            read(&whole.join(f)) == read(&d.join("merged").join(f)),
+            "{f} differs"
+        );
+    }
+    // A limit the scenario format does not know is named.
+    let o = run(&[
+        "spread",
+        &scenario("cabin-light-9-32v.json"),
+        "--spec",
+        "max_rippel_pct=3",
+        "-q",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        text(&o.stderr).contains("max_rippel_pct"),
+        "{}",
+        text(&o.stderr)
+    );
+}
+
+#[test]
+fn corners_name_the_worst_corner() {
+    let d = scratch("corners");
+    let o = run(&[
+        "spread",
+        &scenario("cabin-light-9-32v.json"),
+        "--corners",
+        "--out",
+        &d.display().to_string(),
+        "--no-plots",
+        "-q",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let s = text(&o.stdout);
+    assert!(s.contains("32 corners of 5 toleranced inputs"), "{s}");
+    assert!(s.contains("worst: inductor.inductance_h"), "{s}");
+}
+
+#[test]
+fn boundary_prints_value_side_and_margin() {
+    // undersized-inductor-dcm runs in DCM at its 6.8 µH: the boundary
+    // lies above it.
+    let o = run(&[
+        "boundary",
+        &scenario("undersized-inductor-dcm.json"),
+        "--vary",
+        "inductor.inductance_h=2u:60u",
+        "--json",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let b: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let v = b["value"].as_f64().unwrap();
+    assert!(v > 6.8e-6 && v < 60e-6, "{v}");
+    assert_eq!(b["nominal_ccm"], false);
+    assert_eq!(b["ccm_above"], true);
+    let (lo, hi) = (
+        b["bracket"][0].as_f64().unwrap(),
+        b["bracket"][1].as_f64().unwrap(),
+    );
+    assert!((hi - lo) / v <= 1e-3);
+    // The run one step either side of the boundary has the mode it says.
+    for (f, want) in [(0.99, "dcm"), (1.01, "ccm")] {
+        let set = format!("inductor.inductance_h={}", v * f);
+        let o = run(&[
+            "run",
+            &scenario("undersized-inductor-dcm.json"),
+            "--set",
+            &set,
+            "--json",
+        ]);
+        let r: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        let mode = r["conduction_mode"].as_str().unwrap();
+        assert!(
+            mode == want || mode == "boundary",
+            "at {f}·boundary: {mode}"
+        );
+    }
+    // No crossing in the bracket: bad input, explained.
+    let o = run(&[
+        "boundary",
+        &scenario("undersized-inductor-dcm.json"),
+        "--vary",
+        "inductor.inductance_h=1u:3u",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        text(&o.stderr).contains("both ends are DCM"),
+        "{}",
+        text(&o.stderr)
+    );
+}

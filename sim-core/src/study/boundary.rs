@@ -1,0 +1,270 @@
+//! Where a design crosses between CCM and DCM along one variable.
+//!
+//! The search runs the engine itself at each trial value and reads a
+//! signed distance from the boundary off the result, continuous across
+//! it: the valley current over the average (`ccm_margin`, > 0 in CCM)
+//! while the current never rests, minus the idle fraction of the period
+//! (`idle_time_s / period_s`, < 0 in DCM) once it does. The bracket is
+//! narrowed by the Illinois variant of false position (Dowell & Jarratt,
+//! BIT 11, 1971), with a closing probe just past each estimate, until it
+//! is narrower than the tolerance (0.02 % of the value by default, well
+//! inside 0.1 %). No formula for the boundary is used.
+
+use super::run::RunSettings;
+use super::vary::Vary;
+use super::{numeric_field, scenario_json, scenario_with, StudyError};
+use crate::circuit::N_STATES;
+use crate::metrics::Metrics;
+use crate::scenario::Scenario;
+use crate::simulate::{simulate, RunOptions};
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// Search settings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BoundarySettings {
+    /// Engine, warm start and starting state.
+    pub run: RunSettings,
+    /// Width of the final bracket relative to the boundary value.
+    pub rel_tol: f64,
+    /// Most simulations per search.
+    pub max_runs: usize,
+}
+
+impl Default for BoundarySettings {
+    fn default() -> Self {
+        BoundarySettings {
+            run: RunSettings::default(),
+            rel_tol: 2e-4,
+            max_runs: 80,
+        }
+    }
+}
+
+/// The signed distance from the CCM/DCM boundary of one steady state:
+/// positive in CCM (valley over average), negative in DCM (minus the idle
+/// fraction of the period), zero on the boundary.
+pub fn signed_margin(m: &Metrics) -> f64 {
+    if m.idle_time_s > 0.0 {
+        -m.idle_time_s / m.period_s
+    } else {
+        m.inductor_current_valley_a.max(0.0) / m.inductor_current_avg_a.max(f64::MIN_POSITIVE)
+    }
+}
+
+/// The boundary along one variable.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Boundary {
+    /// The variable.
+    pub path: String,
+    /// The bracket searched.
+    pub low: f64,
+    /// The bracket searched.
+    pub high: f64,
+    /// The boundary value (middle of the final bracket).
+    pub value: f64,
+    /// The final bracket.
+    pub bracket: (f64, f64),
+    /// Whether the CCM side is above the boundary.
+    pub ccm_above: bool,
+    /// The scenario's own value of the variable.
+    pub nominal: f64,
+    /// Whether the nominal value is on the CCM side.
+    pub nominal_ccm: bool,
+    /// Distance from the nominal to the boundary, % of the nominal.
+    pub margin_pct: f64,
+    /// Simulations run.
+    pub runs: usize,
+    /// Every trial: value and signed margin.
+    pub trials: Vec<(f64, f64)>,
+}
+
+struct Searcher<'a> {
+    base: serde_json::Value,
+    path: &'a str,
+    fixed: &'a [(String, f64)],
+    settings: &'a BoundarySettings,
+    known: Vec<(f64, [f64; N_STATES])>,
+    trials: Vec<(f64, f64)>,
+}
+
+impl Searcher<'_> {
+    fn eval(&mut self, x: f64) -> Result<f64, StudyError> {
+        let mut sets = self.fixed.to_vec();
+        sets.push((self.path.to_string(), x));
+        let s = scenario_with(&self.base, &sets).map_err(|e| StudyError::Boundary {
+            path: self.path.into(),
+            reason: format!("at {x:e}: {e}"),
+        })?;
+        let near = if self.settings.run.warm_start {
+            self.known
+                .iter()
+                .min_by(|a, b| (a.0 - x).abs().total_cmp(&(b.0 - x).abs()))
+                .map(|k| k.1)
+        } else {
+            None
+        };
+        let run = |start| {
+            simulate(
+                &s,
+                &RunOptions {
+                    engine: self.settings.run.engine,
+                    initial_state: start,
+                },
+            )
+        };
+        let r = match near {
+            Some(x0) => run(Some(x0)).or_else(|_| run(self.settings.run.initial_state)),
+            None => run(self.settings.run.initial_state),
+        }
+        .map_err(|e| StudyError::Boundary {
+            path: self.path.into(),
+            reason: format!("the run at {x:e} failed: {e}"),
+        })?;
+        let g = signed_margin(&r.metrics);
+        self.known.push((x, r.steady.state_at_turn_on));
+        self.trials.push((x, g));
+        Ok(g)
+    }
+}
+
+/// Finds the boundary along `path` between `low` and `high`, with the
+/// fields `fixed` set first (e.g. a second variable's value).
+pub fn find_boundary(
+    s: &Scenario,
+    path: &str,
+    low: f64,
+    high: f64,
+    fixed: &[(String, f64)],
+    settings: &BoundarySettings,
+) -> Result<Boundary, StudyError> {
+    let base = scenario_json(s);
+    let nominal = numeric_field(&base, path).map_err(|reason| StudyError::Boundary {
+        path: path.into(),
+        reason,
+    })?;
+    let mut q = Searcher {
+        base,
+        path,
+        fixed,
+        settings,
+        known: vec![],
+        trials: vec![],
+    };
+    let (mut a, mut b) = (low, high);
+    let mut fa = q.eval(a)?;
+    let mut fb = q.eval(b)?;
+    if fa > 0.0 && fb > 0.0 || fa <= 0.0 && fb <= 0.0 {
+        let words = |g: f64| if g > 0.0 { "CCM" } else { "DCM" };
+        return Err(StudyError::Boundary {
+            path: path.into(),
+            reason: format!(
+                "no crossing between {low:e} and {high:e}: both ends are {} (signed margins \
+                 {fa:.4} and {fb:.4}); widen the bracket",
+                words(fa)
+            ),
+        });
+    }
+    let ccm_above = fb > 0.0;
+    let mut side = 0i8;
+    loop {
+        let mid = 0.5 * (a + b);
+        let tol = settings.rel_tol * mid.abs().max(f64::MIN_POSITIVE);
+        if b - a <= tol {
+            break;
+        }
+        if q.trials.len() >= settings.max_runs {
+            return Err(StudyError::Boundary {
+                path: path.into(),
+                reason: format!(
+                    "not narrowed to {:e} within {} runs (bracket {a:e} to {b:e})",
+                    settings.rel_tol, settings.max_runs
+                ),
+            });
+        }
+        // Illinois false position, kept strictly inside the bracket.
+        let mut c = (a * fb - b * fa) / (fb - fa);
+        if !c.is_finite() || c <= a || c >= b {
+            c = mid;
+        }
+        let fc = q.eval(c)?;
+        let c_ccm = fc > 0.0;
+        let a_ccm = fa > 0.0;
+        if c_ccm == a_ccm {
+            a = c;
+            fa = fc;
+            if side == 1 {
+                fb *= 0.5;
+            }
+            side = 1;
+        } else {
+            b = c;
+            fb = fc;
+            if side == -1 {
+                fa *= 0.5;
+            }
+            side = -1;
+        }
+        // Closing probe: a step of 0.4·tol past the estimate towards the
+        // end that did not move; lands on the other side once the
+        // estimate is that close.
+        let tol = settings.rel_tol * c.abs();
+        if b - a > tol && q.trials.len() < settings.max_runs {
+            let d = if side == 1 {
+                c + 0.4 * tol
+            } else {
+                c - 0.4 * tol
+            };
+            if d > a && d < b {
+                let fd = q.eval(d)?;
+                if (fd > 0.0) == (fa > 0.0) {
+                    a = d;
+                    fa = fd;
+                } else {
+                    b = d;
+                    fb = fd;
+                }
+            }
+        }
+    }
+    let value = 0.5 * (a + b);
+    let nominal_ccm = (nominal > value) == ccm_above;
+    Ok(Boundary {
+        path: path.into(),
+        low,
+        high,
+        value,
+        bracket: (a, b),
+        ccm_above,
+        nominal,
+        nominal_ccm,
+        margin_pct: if nominal != 0.0 {
+            100.0 * (nominal - value).abs() / nominal.abs()
+        } else {
+            f64::INFINITY
+        },
+        runs: q.trials.len(),
+        trials: q.trials,
+    })
+}
+
+/// The boundary along `path` for each value of a second variable, in
+/// parallel; each entry is the second variable's value and the boundary
+/// or why it was not found.
+pub fn boundary_curve(
+    s: &Scenario,
+    path: &str,
+    low: f64,
+    high: f64,
+    across: &Vary,
+    settings: &BoundarySettings,
+) -> Vec<(f64, Result<Boundary, StudyError>)> {
+    across
+        .values
+        .par_iter()
+        .map(|&v| {
+            let fixed = [(across.path.clone(), v)];
+            (v, find_boundary(s, path, low, high, &fixed, settings))
+        })
+        .collect()
+}

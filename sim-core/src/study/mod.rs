@@ -1,0 +1,129 @@
+//! Studies over many operating points: sweeps, the CCM/DCM boundary and
+//! tolerance spread.
+//!
+//! Every study is a list of *points*, each a scenario with some fields
+//! set, run to steady state by [`crate::simulate`]. The modules:
+//!
+//! - [`vary`] — `PATH=START:STOP:COUNT` / `PATH=v1,v2` / `PATH=range`
+//!   specifications and the 1-D or 2-D grid of points they span.
+//! - [`run`] — runs points in parallel (rayon) in fixed chains, each point
+//!   warm-started from its neighbour's steady state unless told not to.
+//! - [`rows`] — the study table: a manifest describing the study and one
+//!   row per point, with deterministic text (CSV, JSON), sharding and the
+//!   merge of shard outputs.
+//! - [`sweep`] — sweep tables from a grid.
+//! - [`boundary`] — where the design crosses between CCM and DCM, found by
+//!   bracketing on the engine's own result.
+//! - [`spread`] — part tolerances and spec limits (the scenario's
+//!   `tolerances` and `spec` objects), Monte Carlo sampling, corners,
+//!   percentiles and yield.
+//!
+//! **Invariant:** the same study gives the same rows, bit for bit, whatever
+//! the number of threads or shards: points are grouped into chains by
+//! index alone, each sample's random stream depends only on the seed and
+//! its index, and rows are ordered by index.
+
+pub mod boundary;
+pub mod rows;
+pub mod run;
+pub mod spread;
+pub mod sweep;
+pub mod vary;
+
+use crate::error::ScenarioError;
+use crate::scenario::{apply_override, Scenario};
+
+/// Why a study could not be set up or finished.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum StudyError {
+    /// A `--vary` specification is malformed or names no numeric field.
+    #[error("`{spec}`: {reason}")]
+    Vary {
+        /// The specification as given.
+        spec: String,
+        /// What is wrong and what is expected.
+        reason: String,
+    },
+    /// A `K/N` shard specification is malformed.
+    #[error("shard `{spec}`: {reason}")]
+    Shard {
+        /// The specification as given.
+        spec: String,
+        /// What is wrong.
+        reason: String,
+    },
+    /// The study needs something the scenario does not declare.
+    #[error("{path}: {reason}")]
+    Scenario {
+        /// Dotted field path.
+        path: String,
+        /// What is missing or wrong.
+        reason: String,
+    },
+    /// The nominal design (needed first) did not run.
+    #[error("the nominal design failed: {0}")]
+    Nominal(String),
+    /// The boundary search could not bracket or finish.
+    #[error("boundary along {path}: {reason}")]
+    Boundary {
+        /// The variable searched.
+        path: String,
+        /// Why it stopped.
+        reason: String,
+    },
+    /// Shard outputs could not be merged.
+    #[error("merge: {0}")]
+    Merge(String),
+    /// A study output could not be read back.
+    #[error("study output: {0}")]
+    Format(String),
+}
+
+/// The scenario as JSON, to which point values are applied.
+pub fn scenario_json(s: &Scenario) -> serde_json::Value {
+    serde_json::to_value(s).unwrap_or(serde_json::Value::Null)
+}
+
+/// Formats a number so that it reads back as exactly the same `f64`.
+pub fn exact_text(v: f64) -> String {
+    format!("{v:e}")
+}
+
+/// The scenario `base` with each `(path, value)` set, loaded and validated
+/// as if the user had written those values into the file.
+pub fn scenario_with(
+    base: &serde_json::Value,
+    sets: &[(String, f64)],
+) -> Result<Scenario, ScenarioError> {
+    let mut v = base.clone();
+    for (path, x) in sets {
+        apply_override(&mut v, path, &exact_text(*x))?;
+    }
+    Scenario::from_json_str(&v.to_string())
+}
+
+/// The numeric value at a dotted path of a scenario held as JSON, or why
+/// there is none.
+pub fn numeric_field(base: &serde_json::Value, path: &str) -> Result<f64, String> {
+    let mut node = base;
+    for part in path.split('.') {
+        node = match node.get(part) {
+            Some(n) => n,
+            None => {
+                return Err(format!(
+                    "the scenario has no field `{part}` here; a path names a numeric field \
+                     that the scenario sets, e.g. supply.voltage_v or inductor.inductance_h"
+                ))
+            }
+        };
+    }
+    node.as_f64()
+        .ok_or_else(|| format!("`{path}` is not a number in the scenario ({node})"))
+}
+
+/// Highest supply voltage a study will apply, V: the larger of the
+/// scenario's own and any swept or toleranced supply value.
+pub fn max_supply_v(s: &Scenario, extra: impl IntoIterator<Item = f64>) -> f64 {
+    extra.into_iter().fold(s.supply.voltage_v, f64::max)
+}
