@@ -934,7 +934,9 @@ impl<'de> Visitor<'de> for QuantityVisitor {
     }
 }
 
-fn de_quantity<'de, D: Deserializer<'de>>(d: D, unit: Unit) -> Result<f64, D::Error> {
+/// Reads a number or engineering-notation text in `unit` (the one reader
+/// behind every numeric field, here and in the study objects).
+pub(crate) fn de_quantity<'de, D: Deserializer<'de>>(d: D, unit: Unit) -> Result<f64, D::Error> {
     d.deserialize_any(QuantityVisitor(unit))
 }
 

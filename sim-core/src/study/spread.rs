@@ -21,12 +21,13 @@ use super::run::{run_points, RunSettings, Shard};
 use super::sweep::base_manifest;
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::error::FieldProblem;
+use crate::scenario::de_quantity;
 use crate::scenario::{Load, Scenario};
 use crate::simulate::{simulate, RunOptions};
-use crate::units::{parse_quantity, thermal_voltage_v, Unit};
+use crate::units::{thermal_voltage_v, Unit};
 use rand_chacha::rand_core::{RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use serde::de::{self, Deserializer, Visitor};
+use serde::de::Deserializer;
 use serde::{Deserialize, Serialize};
 use std::fmt;
 
@@ -180,42 +181,19 @@ fn sig4(v: f64) -> String {
 // ---------------------------------------------------------------------------
 // Engineering notation for the new fields.
 
-struct Q(Unit);
-impl Visitor<'_> for Q {
-    type Value = f64;
-    fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-        write!(
-            f,
-            "a number in {} or engineering-notation text",
-            self.0.symbol()
-        )
-    }
-    fn visit_f64<E: de::Error>(self, v: f64) -> Result<f64, E> {
-        Ok(v)
-    }
-    fn visit_i64<E: de::Error>(self, v: i64) -> Result<f64, E> {
-        Ok(v as f64)
-    }
-    fn visit_u64<E: de::Error>(self, v: u64) -> Result<f64, E> {
-        Ok(v as f64)
-    }
-    fn visit_str<E: de::Error>(self, v: &str) -> Result<f64, E> {
-        parse_quantity(v, self.0).map_err(E::custom)
-    }
-}
 /// A percentage: a plain number of percent (`20`), `"20%"` is not used
 /// here to avoid reading 20 % as 0.2 %.
 fn de_pct<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
-    d.deserialize_any(Q(Unit::Ratio))
+    de_quantity(d, Unit::Ratio)
 }
 fn de_opt_pct<'de, D: Deserializer<'de>>(d: D) -> Result<Option<f64>, D::Error> {
     de_pct(d).map(Some)
 }
 fn de_opt_ratio<'de, D: Deserializer<'de>>(d: D) -> Result<Option<f64>, D::Error> {
-    d.deserialize_any(Q(Unit::Ratio)).map(Some)
+    de_quantity(d, Unit::Ratio).map(Some)
 }
 fn de_opt_a<'de, D: Deserializer<'de>>(d: D) -> Result<Option<f64>, D::Error> {
-    d.deserialize_any(Q(Unit::Ampere)).map(Some)
+    de_quantity(d, Unit::Ampere).map(Some)
 }
 
 // ---------------------------------------------------------------------------
