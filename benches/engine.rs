@@ -1,17 +1,25 @@
 //! Time per simulated switching cycle of the exact and the reference
-//! engine on the same scenarios, and heap allocations per cycle.
+//! engine on the same scenarios, against an arithmetic floor, heap
+//! allocations per cycle, and the steady-state solvers (shooting against
+//! cycling) on a slowly settling design.
 //!
 //! Run with `cargo bench --bench engine`. Each scenario is first run to
 //! steady state; the benchmark then times further unrecorded cycles. A
 //! counting global allocator reports allocations per cycle alongside, and
-//! a one-run ratio (reference time / exact time, same binary, same
-//! scenario, back to back) is printed for each scenario.
+//! one-run ratios (same binary, same scenario, back to back) are printed
+//! for each scenario: reference / exact, and exact / floor, where the
+//! floor is the least arithmetic a cycle of a two-state buck can cost —
+//! two closed-form 2x2 matrix exponentials (the on-time's threshold
+//! search, at its best two trajectory evaluations) and one precomputed
+//! affine update (the fixed off-time).
 
 use chopwave_suite::{allocations, CountingAlloc};
 use criterion::{criterion_group, criterion_main, Criterion};
 use sim_core::engine::ExactEngine;
+use sim_core::record::Recorder;
 use sim_core::reference::ReferenceEngine;
-use sim_core::simulate::CycleEngine;
+use sim_core::shooting::{JacobianSource, SteadyMethod};
+use sim_core::simulate::{simulate, CycleEngine, RunOptions};
 use std::hint::black_box;
 use std::time::{Duration, Instant};
 
@@ -83,5 +91,205 @@ fn per_cycle(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, per_cycle);
+/// `e^{A t}` of a 2x2 matrix in closed form: with `s = tr A / 2` and
+/// `q² = s² − det A`, `e^{At} = e^{st} (cosh(qt) I + sinh(qt)/q (A − sI))`
+/// (cos/sin for `q² < 0`).
+fn expm2(a: [[f64; 2]; 2], t: f64) -> [[f64; 2]; 2] {
+    let s = 0.5 * (a[0][0] + a[1][1]);
+    let det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+    let q2 = s * s - det;
+    let (c, k) = if q2 > 0.0 {
+        let q = q2.sqrt();
+        ((q * t).cosh(), (q * t).sinh() / q)
+    } else if q2 < 0.0 {
+        let q = (-q2).sqrt();
+        ((q * t).cos(), (q * t).sin() / q)
+    } else {
+        (1.0, t)
+    };
+    let e = (s * t).exp();
+    [
+        [e * (c + k * (a[0][0] - s)), e * k * a[0][1]],
+        [e * k * a[1][0], e * (c + k * (a[1][1] - s))],
+    ]
+}
+
+fn mul2(m: &[[f64; 2]; 2], x: [f64; 2]) -> [f64; 2] {
+    [
+        m[0][0] * x[0] + m[0][1] * x[1],
+        m[1][0] * x[0] + m[1][1] * x[1],
+    ]
+}
+
+/// The floor: one cycle of a two-state buck (inductor current, output
+/// capacitor voltage) into a knee LED, constant off-time. The on-time is
+/// two trajectory evaluations (a secant step on the peak threshold from
+/// the last cycle's on-time), the off-time one precomputed affine update.
+struct Floor {
+    a_on: [[f64; 2]; 2],
+    x_eq_on: [f64; 2],
+    phi_off: [[f64; 2]; 2],
+    c_off: [f64; 2],
+    peak_a: f64,
+    t_on_s: f64,
+    x: [f64; 2],
+}
+
+impl Floor {
+    fn new() -> Floor {
+        // 24 V, 47 µH + 0.3 Ω, 2.2 µF across 5 LEDs (2.7 V knee, 0.4 Ω each).
+        let (vin, l, r, c, vk, rd) = (24.0, 47e-6, 0.3, 2.2e-6, 13.5, 2.0);
+        let a_on = [[-r / l, -1.0 / l], [1.0 / c, -1.0 / (c * rd)]];
+        let a_off = a_on;
+        // Equilibria: A x + b = 0.
+        let eq = |a: [[f64; 2]; 2], b: [f64; 2]| {
+            let det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+            [
+                -(a[1][1] * b[0] - a[0][1] * b[1]) / det,
+                -(-a[1][0] * b[0] + a[0][0] * b[1]) / det,
+            ]
+        };
+        let x_eq_on = eq(a_on, [vin / l, vk / (c * rd)]);
+        let x_eq_off = eq(a_off, [-0.4 / l, vk / (c * rd)]);
+        let phi_off = expm2(a_off, 1.5e-6);
+        let d = mul2(&phi_off, x_eq_off);
+        let c_off = [x_eq_off[0] - d[0], x_eq_off[1] - d[1]];
+        Floor {
+            a_on,
+            x_eq_on,
+            phi_off,
+            c_off,
+            peak_a: 1.0,
+            t_on_s: 2e-6,
+            x: [0.8, 14.8],
+        }
+    }
+
+    fn on_at(&self, t: f64) -> [f64; 2] {
+        let e = expm2(self.a_on, t);
+        let d = mul2(
+            &e,
+            [self.x[0] - self.x_eq_on[0], self.x[1] - self.x_eq_on[1]],
+        );
+        [d[0] + self.x_eq_on[0], d[1] + self.x_eq_on[1]]
+    }
+
+    fn cycle(&mut self) {
+        let (t1, t2) = (self.t_on_s, self.t_on_s * 1.001);
+        let (z1, z2) = (self.on_at(t1), self.on_at(t2));
+        let t = t1 + (self.peak_a - z1[0]) * (t2 - t1) / (z2[0] - z1[0]);
+        let z = if (t - t1).abs() < (t - t2).abs() {
+            z1
+        } else {
+            z2
+        };
+        self.t_on_s = t.clamp(1e-8, 1e-4);
+        let y = mul2(&self.phi_off, z);
+        self.x = [y[0] + self.c_off[0], y[1] + self.c_off[1]];
+    }
+}
+
+fn floor(c: &mut Criterion) {
+    let mut f = Floor::new();
+    for _ in 0..1000 {
+        f.cycle();
+    }
+    let n = 200_000;
+    let t = Instant::now();
+    for _ in 0..n {
+        f.cycle();
+    }
+    let t_floor = t.elapsed().as_secs_f64() / n as f64;
+    black_box(f.x);
+    println!(
+        "floor: {:.1} ns/cycle (two closed-form 2x2 exponentials + one affine update)",
+        t_floor * 1e9
+    );
+    for s in chopwave_suite::realistic_set() {
+        let mut exact = settled(ExactEngine::new(&s), 200);
+        let m = 5000;
+        let t = Instant::now();
+        for _ in 0..m {
+            exact.run_cycle(None, None).expect("cycle");
+        }
+        let t_exact = t.elapsed().as_secs_f64() / m as f64;
+        // With event recording: a sample at each event, none in between.
+        let mut rec = Recorder::new(0, 0);
+        let t = Instant::now();
+        for _ in 0..m {
+            exact.run_cycle(None, Some(&mut rec)).expect("cycle");
+        }
+        let t_rec = t.elapsed().as_secs_f64() / m as f64;
+        black_box(rec.finish());
+        println!(
+            "{}: exact {:.0} ns/cycle = {:.1}x the floor; with event recording {:.0} ns/cycle \
+             ({:.2} M cycles/s)",
+            s.name,
+            t_exact * 1e9,
+            t_exact / t_floor,
+            t_rec * 1e9,
+            1e-6 / t_rec
+        );
+    }
+    c.bench_function("floor/two-exponentials-one-affine", |b| {
+        b.iter(|| f.cycle())
+    });
+}
+
+/// Shooting against cycling on the slowly settling design: cycles run and
+/// wall time to steady state (and the measurement cycles after it).
+fn steady_state(c: &mut Criterion) {
+    let base = chopwave_suite::slow_output_filter();
+    let mut group = c.benchmark_group("steady-state");
+    group
+        .sample_size(10)
+        .warm_up_time(Duration::from_millis(200))
+        .measurement_time(Duration::from_secs(2));
+    let variants = [
+        (
+            "shooting-analytic",
+            SteadyMethod::Shooting,
+            JacobianSource::Analytic,
+        ),
+        (
+            "shooting-differences",
+            SteadyMethod::Shooting,
+            JacobianSource::FiniteDifference,
+        ),
+        ("cycling", SteadyMethod::Cycling, JacobianSource::Analytic),
+    ];
+    let mut times = Vec::new();
+    for (name, method, jac) in variants {
+        let mut s = base.clone();
+        s.simulation.steady_state_method = method;
+        s.simulation.shooting_jacobian = jac;
+        s.simulation.steady_state_tolerance = 1e-12;
+        let t = Instant::now();
+        let r = simulate(&s, &RunOptions::default()).expect("run");
+        let dt = t.elapsed().as_secs_f64();
+        println!(
+            "{}: {name}: {} cycles to steady state, {} Newton iterations, residual {:.1e}, {:.2} ms",
+            base.name,
+            r.steady.cycles_to_settle,
+            r.steady.newton_iterations,
+            r.steady.last_change,
+            dt * 1e3
+        );
+        times.push((name, r.steady.cycles_to_settle, dt));
+        group.bench_function(name, |b| {
+            b.iter(|| simulate(&s, &RunOptions::default()).expect("run"))
+        });
+    }
+    let (_, n_shoot, t_shoot) = times[0];
+    let (_, n_cyc, t_cyc) = times[2];
+    println!(
+        "{}: cycling / shooting: {:.0}x the cycles, {:.0}x the wall time (one run)",
+        base.name,
+        n_cyc as f64 / n_shoot as f64,
+        t_cyc / t_shoot
+    );
+    group.finish();
+}
+
+criterion_group!(benches, floor, per_cycle, steady_state);
 criterion_main!(benches);

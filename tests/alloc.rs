@@ -23,6 +23,10 @@ fn exact_engine_cycles_allocate_nothing() {
         for _ in 0..500 {
             e.run_cycle(None, None).unwrap();
             e.run_cycle(Some(&mut totals), None).unwrap();
+            // Shooting's cycles: a restart at a turn-on and the Jacobian.
+            let x = e.state_array();
+            e.restart_at_turn_on(x);
+            assert!(e.run_cycle_with_jacobian().unwrap().is_some());
         }
         let after = allocations();
         // The counter itself works: a Vec does allocate.
@@ -32,7 +36,7 @@ fn exact_engine_cycles_allocate_nothing() {
         assert_eq!(
             after - before,
             0,
-            "{}: {} allocations in 1000 cycles",
+            "{}: {} allocations in 1500 cycles",
             s.name,
             after - before
         );

@@ -125,3 +125,43 @@ fn regression_fuzz_stalled_event_scan() {
         assert!(!e.to_string().is_empty());
     }
 }
+
+/// An off-time so long that the current collapses every cycle is deep
+/// DCM, reported as a valid way to run — unless the design asked for CCM,
+/// when the warning says so and how much inductance would restore CCM.
+#[test]
+fn deep_dcm_is_explained_not_rejected() {
+    use sim_core::metrics::ConductionMode;
+    use sim_core::scenario::IntendedMode;
+    use sim_core::simulate::{simulate, RunOptions};
+    let s = chopwave_suite::dcm_long_off_time();
+    let r = simulate(&s, &RunOptions::default()).expect("deep DCM still runs");
+    assert_eq!(r.metrics.conduction_mode, ConductionMode::Dcm);
+    assert!(r.metrics.idle_time_s / r.metrics.period_s > 0.5);
+    let w = r.warnings.join("\n");
+    assert!(w.contains("deep discontinuous conduction"), "{w}");
+    assert!(w.contains("not an error"), "{w}");
+
+    let mut ccm = s.clone();
+    ccm.parts.intended_mode = IntendedMode::Ccm;
+    let r = simulate(&ccm, &RunOptions::default()).expect("runs");
+    let w = r.warnings.join("\n");
+    assert!(w.contains("asks for CCM"), "{w}");
+    assert!(!w.contains("not an error"), "{w}");
+    // The suggested inductance, with a 30 % margin, does give CCM.
+    let at = w.find("roughly ").expect("a suggested inductance") + "roughly ".len();
+    let l_uh: f64 = w[at..]
+        .split(' ')
+        .next()
+        .unwrap()
+        .parse()
+        .expect("a number");
+    let mut fixed = s.clone();
+    fixed.inductor.inductance_h = 1.3 * l_uh * 1e-6;
+    let r = simulate(&fixed, &RunOptions::default()).expect("runs");
+    assert_eq!(
+        r.metrics.conduction_mode,
+        ConductionMode::Ccm,
+        "{l_uh} µH × 1.3"
+    );
+}

@@ -5,5 +5,6 @@ mod bad_input;
 mod parts;
 mod properties;
 mod reference;
+mod shooting;
 mod study;
 mod textbook;

@@ -10,6 +10,7 @@ use sim_core::parts::assess::{Assessment, IterationInfo};
 use sim_core::parts::checks::{worst, CapacitorState, Check, Status};
 use sim_core::parts::thermal::PartTemperature;
 use sim_core::record::COL_IL;
+use sim_core::shooting::{JacobianSource, SteadyMethod};
 use sim_core::simulate::{FitReport, RunStats, SteadyInfo, SELV_LIMIT_V};
 use sim_core::{EngineKind, Scenario, SimResult};
 use std::fmt::Write as _;
@@ -134,7 +135,7 @@ impl Report {
             losses_pct,
             switch_current_peak_a: m.inductor_current_peak_a,
             diode_current_peak_a: m.inductor_current_peak_a,
-            steady_state: r.steady,
+            steady_state: r.steady.clone(),
             fit: r.fit,
             stats: r.stats,
             startup_inductor_current_peak_a: startup_peak,
@@ -476,15 +477,31 @@ impl Report {
             "energy balance residual",
             format!("{} of the input energy", sci(m.energy_balance_residual)),
         );
-        row(
-            &mut o,
-            "steady state after",
-            format!(
-                "{} cycles ({} simulated)",
-                self.steady_state.cycles_to_settle,
-                eng(self.steady_state.time_to_settle_s, "s")
+        let st = &self.steady_state;
+        let found = match st.method {
+            SteadyMethod::Shooting => format!(
+                "by shooting: {} Newton iterations, {} cycles run ({} Jacobian), residual {}, \
+                 slowest mode ×{:.4} per cycle",
+                st.newton_iterations,
+                st.cycles_to_settle,
+                match st.jacobian {
+                    Some(JacobianSource::FiniteDifference) => "difference",
+                    _ => "analytic",
+                },
+                sci(st.last_change),
+                st.contraction
             ),
-        );
+            SteadyMethod::Cycling => format!(
+                "by cycling: {} cycles ({} simulated), last change {}",
+                st.cycles_to_settle,
+                eng(st.time_to_settle_s, "s"),
+                sci(st.last_change)
+            ),
+        };
+        row(&mut o, "steady state found", found);
+        if let Some(note) = &st.note {
+            row(&mut o, "steady-state note", note.clone());
+        }
         if self.steady_state.orbit_period_cycles > 1 {
             row(
                 &mut o,

@@ -22,7 +22,7 @@ use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
 use crate::simulate::ChatterGuard;
 use crate::spectral::Spectral;
-use nalgebra::SVector;
+use nalgebra::{Matrix3, RowVector3, SVector, Vector3};
 
 /// What an event does when it fires.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -51,6 +51,31 @@ struct CacheEntry {
     generation: u64,
     lin: Linear,
     spectral: Option<Spectral>,
+}
+
+/// Sensitivities carried through one cycle for the cycle map's Jacobian:
+/// `j = ∂x/∂x₀` and `tau = ∂t/∂x₀` (time since the cycle's turn-on), with
+/// `deadline_tau` the time sensitivity of the controller's pending
+/// deadline (that of the event that set it).
+#[derive(Debug, Clone, Copy)]
+struct Sensitivity {
+    j: Matrix3<f64>,
+    tau: RowVector3<f64>,
+    deadline_tau: RowVector3<f64>,
+    /// False once an event was met at a grazing angle (the map is not
+    /// differentiable there).
+    valid: bool,
+}
+
+impl Sensitivity {
+    fn start() -> Sensitivity {
+        Sensitivity {
+            j: Matrix3::identity(),
+            tau: RowVector3::zeros(),
+            deadline_tau: RowVector3::zeros(),
+            valid: true,
+        }
+    }
 }
 
 /// The exact engine's state for one run.
@@ -87,6 +112,7 @@ pub struct ExactEngine {
     /// Region cache (allocated once, at construction).
     cache: Vec<Option<CacheEntry>>,
     cache_next: usize,
+    sens: Option<Sensitivity>,
 }
 
 fn aug(x: &SVector<f64, N_STATES>) -> Aug {
@@ -130,6 +156,7 @@ impl ExactEngine {
             refits: 0,
             cache: vec![None; CACHE_SIZE],
             cache_next: 0,
+            sens: None,
         }
     }
 
@@ -138,6 +165,40 @@ impl ExactEngine {
     pub fn set_state(&mut self, x: [f64; N_STATES]) {
         self.x = SVector::from(x);
         self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+    }
+
+    /// Puts the engine at a turn-on with state `x`, whatever it was doing
+    /// (e.g. after a cycle from a trial state failed part-way): the
+    /// controller starts afresh at the present time.
+    pub fn restart_at_turn_on(&mut self, x: [f64; N_STATES]) {
+        self.cmd = self.controller.start(self.t);
+        self.switch_changed_t = self.t;
+        self.chatter = ChatterGuard::default();
+        self.led_range = (f64::INFINITY, f64::NEG_INFINITY);
+        self.diode_range = (f64::INFINITY, f64::NEG_INFINITY);
+        self.set_state(x);
+    }
+
+    /// Runs one cycle, as [`Self::run_cycle`] without totals or recording,
+    /// and returns the Jacobian of the cycle map `∂x₁/∂x₀` (turn-on to
+    /// turn-on). It is exact for the piecewise-linear circuit: each
+    /// interval contributes its state-transition matrix, and each
+    /// state-ended interval the shift of its end time,
+    /// `∂τ/∂x = −∇h·Φ·J / (∇h·f)`, carried by the vector field `f` there
+    /// (the saltation term); a timer-ended interval inherits the time
+    /// sensitivity of the event that started the timer. `None` when an
+    /// event was met at a grazing angle, where the map has no derivative.
+    pub fn run_cycle_with_jacobian(&mut self) -> Result<Option<Matrix3<f64>>, SimError> {
+        self.sens = Some(Sensitivity::start());
+        let r = self.run_cycle(None, None);
+        let sens = self.sens.take();
+        r?;
+        Ok(sens.filter(|s| s.valid).map(|s| s.j))
+    }
+
+    /// The state `[i_L, v_Co, v_Cin]` as an array.
+    pub fn state_array(&self) -> [f64; N_STATES] {
+        [self.x[0], self.x[1], self.x[2]]
     }
 
     /// The region in use.
@@ -151,6 +212,8 @@ impl ExactEngine {
     /// circuit.
     fn refit(&mut self) {
         if self.freeze_fits {
+            self.led_range = (f64::INFINITY, f64::NEG_INFINITY);
+            self.diode_range = (f64::INFINITY, f64::NEG_INFINITY);
             return;
         }
         let (segs, tol) = (self.curve_segments, self.curve_tolerance_v);
@@ -419,6 +482,14 @@ impl ExactEngine {
         }
         self.intervals += 1;
         self.chatter.note(dt, self.t, || region.name())?;
+        if let Some(sens) = self.sens.as_mut() {
+            let ended = match fired {
+                Some(j) => End::State(&evs[j].row),
+                None if dt > 0.0 => End::Deadline,
+                None => End::Immediate,
+            };
+            propagate_sensitivity(sens, &flow, &z1, dt, ended, &mut self.work);
+        }
 
         // Track the visited current ranges for the next refit.
         let i_led0 = (i_led_row * z0)[0];
@@ -454,6 +525,14 @@ impl ExactEngine {
         if self.circuit.input_cap.is_none() {
             self.x[X_VCIN] = 0.0;
         }
+        if let Some(sens) = self.sens.as_mut() {
+            if self.circuit.output_cap.is_none() {
+                sens.j.row_mut(X_VCO).fill(0.0);
+            }
+            if self.circuit.input_cap.is_none() {
+                sens.j.row_mut(X_VCIN).fill(0.0);
+            }
+        }
 
         let act = fired.map(|j| acts[j]).unwrap_or(Action::Controller);
         let mut turned_on = false;
@@ -465,6 +544,12 @@ impl ExactEngine {
                     Cause::Deadline
                 };
                 let new = self.controller.on_event(self.t, cause, self.x[X_IL]);
+                if let Some(sens) = self.sens.as_mut() {
+                    if new.deadline_s.is_finite() {
+                        // A timer set now: its end moves with this event.
+                        sens.deadline_tau = sens.tau;
+                    }
+                }
                 turned_on = new.switch_on && !self.cmd.switch_on;
                 let changed = new.switch_on != self.cmd.switch_on;
                 self.cmd = new;
@@ -491,6 +576,9 @@ impl ExactEngine {
             }
             Action::DiodeOff | Action::Block => {
                 self.x[X_IL] = 0.0;
+                if let Some(sens) = self.sens.as_mut() {
+                    sens.j.row_mut(X_IL).fill(0.0);
+                }
                 self.region.conducting = false;
                 self.region.l_segment = 0;
                 if !has_co {
@@ -539,6 +627,9 @@ impl ExactEngine {
             // energy as a loss of its own.
             self.clamped_energy_j += self.circuit.inductor_energy_j(il);
             self.x[X_IL] = 0.0;
+            if let Some(sens) = self.sens.as_mut() {
+                sens.j.row_mut(X_IL).fill(0.0);
+            }
             self.region.conducting = false;
             self.region.l_segment = 0;
             if self.circuit.output_cap.is_none() {
@@ -682,4 +773,62 @@ impl ExactEngine {
     pub fn stored_energy_j(&self) -> f64 {
         self.circuit.stored_energy_j(&self.x)
     }
+}
+
+/// How an interval ended, for the sensitivities.
+enum End<'a> {
+    /// A state function `row · z` reached zero.
+    State(&'a Row),
+    /// The controller's timer ran out.
+    Deadline,
+    /// Nothing happened over a zero-length interval.
+    Immediate,
+}
+
+/// Carries the cycle-map sensitivities across one interval of length `dt`
+/// ending in state `z1` (see [`ExactEngine::run_cycle_with_jacobian`]).
+fn propagate_sensitivity(
+    sens: &mut Sensitivity,
+    flow: &Flow,
+    z1: &Aug,
+    dt: f64,
+    ended: End,
+    work: &mut WorkCounts,
+) {
+    if dt > 0.0 {
+        // Φ column by column: the flow of the unit states with the
+        // forcing switched off (the augmented 1 set to 0).
+        let mut phi = Matrix3::zeros();
+        for c in 0..N_STATES {
+            let mut e = Aug::zeros();
+            e[c] = 1.0;
+            let col = flow.advance(dt, &e, work);
+            for r in 0..N_STATES {
+                phi[(r, c)] = col[r];
+            }
+        }
+        sens.j = phi * sens.j;
+    }
+    let fz = flow.m * z1;
+    let f = Vector3::new(fz[0], fz[1], fz[2]);
+    let shift = match ended {
+        End::State(row) => {
+            if dt == 0.0 {
+                // Due at the start: fired by the previous event's state.
+                return;
+            }
+            let g = RowVector3::new(row[0], row[1], row[2]);
+            let rate = (g * f)[0];
+            let size = g.abs().dot(&f.abs().transpose());
+            if size == 0.0 || !rate.is_finite() || rate.abs() <= 1e-9 * size {
+                sens.valid = false;
+                return;
+            }
+            -(g * sens.j) / rate
+        }
+        End::Deadline => sens.deadline_tau - sens.tau,
+        End::Immediate => return,
+    };
+    sens.j += f * shift;
+    sens.tau += shift;
 }

@@ -40,6 +40,7 @@ pub mod propagate;
 pub mod record;
 pub mod reference;
 pub mod scenario;
+pub mod shooting;
 pub mod simulate;
 pub mod spectral;
 pub mod steady;

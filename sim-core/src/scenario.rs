@@ -278,6 +278,12 @@ pub struct SimSettings {
     /// Longest time one switch state may last before the run stops, s.
     #[serde(deserialize_with = "de_s")]
     pub max_interval_s: f64,
+    /// How periodic steady state is found: `shooting` (Newton on the
+    /// cycle map, falling back to cycling) or `cycling`.
+    pub steady_state_method: crate::shooting::SteadyMethod,
+    /// Where shooting's Jacobian comes from: `analytic` or
+    /// `finite-difference`.
+    pub shooting_jacobian: crate::shooting::JacobianSource,
 }
 
 impl Default for SimSettings {
@@ -292,6 +298,8 @@ impl Default for SimSettings {
             curve_tolerance_v: 1e-3,
             samples_per_interval: 24,
             max_interval_s: 10e-3,
+            steady_state_method: crate::shooting::SteadyMethod::Shooting,
+            shooting_jacobian: crate::shooting::JacobianSource::Analytic,
         }
     }
 }

@@ -10,7 +10,10 @@ use crate::engine::ExactEngine;
 use crate::error::SimError;
 use crate::metrics::{ConductionMode, Metrics, Totals};
 use crate::record::{Recorder, Waveform};
-use crate::scenario::{Load, Scenario};
+use crate::scenario::{IntendedMode, Load, Scenario};
+use crate::shooting::{
+    averaged_guess, find_orbit, JacobianSource, Limits, NoOrbit, Orbit, SteadyMethod,
+};
 use crate::steady::{SteadyDetector, Verdict};
 use serde::Serialize;
 
@@ -147,15 +150,26 @@ pub struct RunStats {
 }
 
 /// How steady state was reached.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SteadyInfo {
-    /// Cycles from the start until steady state was declared.
+    /// The method that found it (after any fallback).
+    pub method: SteadyMethod,
+    /// Newton iterations (0 when cycling alone found it).
+    pub newton_iterations: u32,
+    /// The shooting Jacobian's source, when shooting found the orbit.
+    pub jacobian: Option<JacobianSource>,
+    /// Why shooting was not used or gave up, if it was asked for.
+    pub note: Option<String>,
+    /// Cycles run before the measured ones, all methods together (each
+    /// shooting trial, difference and check cycle counts as one).
     pub cycles_to_settle: u64,
     /// Simulated time until then, s.
     pub time_to_settle_s: f64,
-    /// Last scaled cycle-to-cycle change.
+    /// Last scaled change of the turn-on state (cycling), or the final
+    /// scaled residual `max |P(x) − x| / scale` (shooting).
     pub last_change: f64,
-    /// Estimated contraction per cycle.
+    /// Contraction per cycle: estimated from successive changes
+    /// (cycling), or the largest Floquet multiplier (shooting).
     pub contraction: f64,
     /// Cycles per repetition of the orbit (1: ordinary; >1: subharmonic).
     pub orbit_period_cycles: usize,
@@ -222,18 +236,48 @@ pub fn simulate_with_progress(
     opts: &RunOptions,
     progress: &mut dyn FnMut(Progress),
 ) -> Result<SimResult, SimError> {
-    match opts.engine {
+    // The start-up is recorded in the same run when that run cycles from
+    // power-on, and by a run of its own from power-on otherwise.
+    let cycling = opts.engine == EngineKind::Reference
+        || s.simulation.steady_state_method == SteadyMethod::Cycling;
+    let inline_startup = cycling && opts.initial_state.is_none();
+    let separate_startup = s.simulation.record_startup && !inline_startup;
+    let mut r = match opts.engine {
         EngineKind::Exact => {
             let mut e = ExactEngine::new(s);
-            let mut r = drive(&mut e, s, opts, progress)?;
+            let mut head = exact_head_start(&mut e, s, opts)?;
+            head.record_startup = s.simulation.record_startup && inline_startup;
+            let mut r = drive_with(&mut e, s, EngineKind::Exact, head, progress)?;
             r.fit = exact_fit_report(&e, s, &r.metrics);
-            Ok(r)
+            r
         }
         EngineKind::Reference => {
             let mut e = crate::reference::ReferenceEngine::new(s);
-            drive(&mut e, s, opts, progress)
+            if let Some(x) = opts.initial_state {
+                e.set_state(x);
+            }
+            let head = HeadStart {
+                note: (s.simulation.steady_state_method == SteadyMethod::Shooting)
+                    .then(|| "the reference engine settles by cycling".to_string()),
+                record_startup: s.simulation.record_startup && inline_startup,
+                ..HeadStart::default()
+            };
+            drive_with(&mut e, s, EngineKind::Reference, head, progress)?
         }
+    };
+    if separate_startup {
+        let target = r.steady.state_at_turn_on;
+        r.startup = Some(match opts.engine {
+            EngineKind::Exact => record_startup(&mut ExactEngine::new(s), s, target, progress)?,
+            EngineKind::Reference => record_startup(
+                &mut crate::reference::ReferenceEngine::new(s),
+                s,
+                target,
+                progress,
+            )?,
+        });
     }
+    Ok(r)
 }
 
 fn exact_fit_report(e: &ExactEngine, _s: &Scenario, m: &Metrics) -> FitReport {
@@ -266,21 +310,176 @@ pub fn state_scales(s: &Scenario) -> [f64; N_STATES] {
     [i.max(1e-6), s.supply.voltage_v, s.supply.voltage_v]
 }
 
-/// Runs any engine to steady state and measures it.
+/// What happened before cycling starts: shooting's outcome, if it ran.
+#[derive(Debug, Clone, Default)]
+struct HeadStart {
+    /// The orbit shooting found (the engine sits on it).
+    orbit: Option<Orbit>,
+    /// Why shooting was skipped or gave up (when it was asked for).
+    note: Option<String>,
+    /// Cycles run by shooting.
+    cycles: u64,
+    /// Newton iterations spent by shooting.
+    iterations: u32,
+    /// Record the start-up while cycling (the run starts at power-on).
+    record_startup: bool,
+}
+
+/// Puts the exact engine at the scenario's start (power-on or the given
+/// state) and, unless cycling was asked for or the start-up is to be
+/// recorded, finds the orbit by shooting.
+fn exact_head_start(
+    e: &mut ExactEngine,
+    s: &Scenario,
+    opts: &RunOptions,
+) -> Result<HeadStart, SimError> {
+    if let Some(x) = opts.initial_state {
+        e.set_state(x);
+    }
+    let sim = &s.simulation;
+    if sim.steady_state_method == SteadyMethod::Cycling {
+        return Ok(HeadStart::default());
+    }
+    if opts.initial_state.is_none() {
+        if let Some(x) = averaged_guess(s, &e.circuit) {
+            e.set_state(x);
+        }
+    }
+    let limits = Limits {
+        max_cycles: sim.max_cycles,
+        max_time_s: sim.max_time_s,
+    };
+    Ok(
+        match find_orbit(e, state_scales(s), sim.shooting_jacobian, limits) {
+            Ok(orbit) => HeadStart {
+                cycles: orbit.cycle_evaluations,
+                iterations: orbit.iterations,
+                orbit: Some(orbit),
+                ..HeadStart::default()
+            },
+            Err(NoOrbit {
+                limit: Some(err), ..
+            }) => return Err(*err),
+            Err(failed) => HeadStart {
+                orbit: None,
+                note: Some(format!(
+                    "shooting gave up ({}); settled by cycling from its best state",
+                    failed.reason
+                )),
+                cycles: failed.cycle_evaluations,
+                iterations: failed.iterations,
+                ..HeadStart::default()
+            },
+        },
+    )
+}
+
+/// The start-up recorder: four samples inside each interval, thinned to
+/// stay under 400 000 samples.
+fn startup_recorder() -> Recorder {
+    Recorder::new(4, 400_000)
+}
+
+/// Scaled distance from the steady state at which a recorded start-up
+/// has settled to the eye (a thousandth of the scale).
+pub const STARTUP_SETTLED: f64 = 1e-3;
+
+/// Records the start-up transient from power-on by cycling a fresh
+/// engine until its turn-on state comes within [`STARTUP_SETTLED`]
+/// (scaled) of the steady state already found, for two cycles in a row,
+/// or until the cycle and time caps.
+fn record_startup<E: CycleEngine>(
+    e: &mut E,
+    s: &Scenario,
+    steady_state: [f64; N_STATES],
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Waveform, SimError> {
+    let sim = &s.simulation;
+    let scale = state_scales(s);
+    let mut rec = startup_recorder();
+    let mut near = 0;
+    let mut cycles = 0u64;
+    while near < 2 && cycles < sim.max_cycles && e.time_s() < sim.max_time_s {
+        e.run_cycle(None, Some(&mut rec))?;
+        cycles += 1;
+        let x = e.state();
+        let d = (0..N_STATES)
+            .map(|i| ((x[i] - steady_state[i]) / scale[i]).abs())
+            .fold(0.0, f64::max);
+        near = if d <= STARTUP_SETTLED { near + 1 } else { 0 };
+        if cycles.is_multiple_of(256) {
+            progress(Progress {
+                cycles,
+                max_cycles: sim.max_cycles,
+                last_change: d,
+            });
+        }
+    }
+    Ok(rec.finish())
+}
+
+/// Runs any engine to steady state by cycling and measures it.
 pub fn drive<E: CycleEngine>(
     e: &mut E,
     s: &Scenario,
     opts: &RunOptions,
     progress: &mut dyn FnMut(Progress),
 ) -> Result<SimResult, SimError> {
-    let sim = &s.simulation;
     if let Some(x) = opts.initial_state {
         e.set_state(x);
     }
+    drive_with(e, s, opts.engine, HeadStart::default(), progress)
+}
+
+/// Brings an engine to steady state — at once if `head` holds an orbit,
+/// by cycling otherwise — and measures it.
+fn drive_with<E: CycleEngine>(
+    e: &mut E,
+    s: &Scenario,
+    engine: EngineKind,
+    head: HeadStart,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<SimResult, SimError> {
+    let (steady, startup) = match &head.orbit {
+        Some(orbit) => (
+            SteadyInfo {
+                method: SteadyMethod::Shooting,
+                newton_iterations: orbit.iterations,
+                jacobian: Some(if orbit.used_differences {
+                    JacobianSource::FiniteDifference
+                } else {
+                    JacobianSource::Analytic
+                }),
+                note: None,
+                cycles_to_settle: orbit.cycle_evaluations,
+                time_to_settle_s: e.time_s(),
+                last_change: orbit.residual,
+                contraction: orbit.largest_multiplier,
+                orbit_period_cycles: 1,
+                state_at_turn_on: e.state(),
+            },
+            None,
+        ),
+        None => {
+            let (steady, _, startup) = settle_by_cycling(e, s, &head, progress)?;
+            (steady, startup)
+        }
+    };
+    measure(e, s, engine, steady, startup)
+}
+
+/// Cycles until the steady-state detector is satisfied.
+fn settle_by_cycling<E: CycleEngine>(
+    e: &mut E,
+    s: &Scenario,
+    head: &HeadStart,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<(SteadyInfo, usize, Option<Waveform>), SimError> {
+    let sim = &s.simulation;
     let mut det = SteadyDetector::new(sim.steady_state_tolerance, state_scales(s));
-    let mut startup = sim.record_startup.then(|| Recorder::new(4, 400_000));
+    let mut startup = head.record_startup.then(startup_recorder);
     det.push(e.state());
-    let mut cycles = 0u64;
+    let mut cycles = head.cycles;
     let order = loop {
         e.run_cycle(None, startup.as_mut())?;
         cycles += 1;
@@ -311,6 +510,10 @@ pub fn drive<E: CycleEngine>(
         }
     };
     let steady = SteadyInfo {
+        method: SteadyMethod::Cycling,
+        newton_iterations: head.iterations,
+        jacobian: None,
+        note: head.note.clone(),
         cycles_to_settle: cycles,
         time_to_settle_s: e.time_s(),
         last_change: det.last_change,
@@ -318,6 +521,20 @@ pub fn drive<E: CycleEngine>(
         orbit_period_cycles: order,
         state_at_turn_on: e.state(),
     };
+    Ok((steady, order, startup.map(Recorder::finish)))
+}
+
+/// Records and measures `record_cycles` (rounded up to whole orbits)
+/// steady-state cycles with the fits frozen.
+fn measure<E: CycleEngine>(
+    e: &mut E,
+    s: &Scenario,
+    engine: EngineKind,
+    steady: SteadyInfo,
+    startup: Option<Waveform>,
+) -> Result<SimResult, SimError> {
+    let sim = &s.simulation;
+    let order = steady.orbit_period_cycles;
     e.freeze_fits();
     let n_meas = (sim.record_cycles as usize).div_ceil(order) * order;
     let mut totals = Totals::new();
@@ -335,7 +552,7 @@ pub fn drive<E: CycleEngine>(
     let warnings = warnings(s, &metrics, order);
     Ok(SimResult {
         scenario_name: s.name.clone(),
-        engine: opts.engine,
+        engine,
         metrics,
         steady,
         fit: FitReport {
@@ -345,10 +562,63 @@ pub fn drive<E: CycleEngine>(
             diode_segments: 1,
         },
         waveform: rec.finish(),
-        startup: startup.map(Recorder::finish),
+        startup,
         warnings,
         stats: e.stats(),
     })
+}
+
+/// Idle share of the period above which DCM is called deep: the current
+/// collapses early in every off-time and rests at zero most of the cycle.
+pub const DEEP_DCM_IDLE: f64 = 0.5;
+
+/// The DCM warning: how deep, whether it contradicts the stated intent,
+/// and (constant off-time) the inductance that would just keep the
+/// current flowing. In DCM the current falls from the peak to zero in
+/// `t_off − t_idle`; the fall is linear in 1/L at the same peak and
+/// voltages, so `L · t_off / (t_off − t_idle)` stretches it over the whole
+/// off-time: the CCM/DCM boundary.
+fn dcm_words(s: &Scenario, m: &Metrics) -> String {
+    let idle = m.idle_time_s / m.period_s;
+    let what = if idle >= DEEP_DCM_IDLE {
+        format!(
+            "deep discontinuous conduction (DCM): the inductor current collapses to zero every \
+             cycle and rests there for {:.1} % of the period",
+            100.0 * idle
+        )
+    } else {
+        format!(
+            "discontinuous conduction (DCM): the inductor current rests at zero for {:.1} % of \
+             each period",
+            100.0 * idle
+        )
+    };
+    let hint = match s.controller {
+        crate::scenario::ControllerSpec::ConstantOffTime { off_time_s, .. }
+            if m.idle_time_s < off_time_s =>
+        {
+            let l_ccm = s.inductor.inductance_h * off_time_s / (off_time_s - m.idle_time_s);
+            format!(
+                "; roughly {:.3} µH or more (or a proportionally shorter off-time) keeps it \
+                 continuous (`chopwave boundary` finds the exact value)",
+                l_ccm * 1e6
+            )
+        }
+        _ => String::new(),
+    };
+    if s.parts.intended_mode == IntendedMode::Ccm {
+        format!(
+            "{what}, but the design asks for CCM (parts.intended_mode = ccm): the LED average is \
+             {:.1} % of the inductor peak{hint}",
+            100.0 * m.led_current_avg_a / m.inductor_current_peak_a
+        )
+    } else {
+        format!(
+            "{what}. This is a valid way to run, not an error: the controller still regulates, \
+             and the LED average is {:.1} % of the inductor peak{hint}",
+            100.0 * m.led_current_avg_a / m.inductor_current_peak_a
+        )
+    }
 }
 
 /// Supply voltage above which the usual safety-extra-low-voltage limit is
@@ -373,10 +643,7 @@ fn warnings(s: &Scenario, m: &Metrics, order: usize) -> Vec<String> {
         }
     }
     if m.conduction_mode == ConductionMode::Dcm {
-        w.push(format!(
-            "discontinuous conduction: the inductor current rests at zero for {:.1} % of each period",
-            100.0 * m.idle_time_s / m.period_s
-        ));
+        w.push(dcm_words(s, m));
     } else if m.conduction_mode == ConductionMode::Boundary {
         w.push("at the CCM/DCM boundary: the valley current touches zero".into());
     }

@@ -453,3 +453,45 @@ pub fn lamp_12v_saturating() -> Scenario {
         .collect();
     validated(s)
 }
+
+/// A slowly settling design for the steady-state solvers: a 24 V constant
+/// off-time driver into six knee-model LEDs (0.8 Ω dynamic resistance
+/// each) with a 470 µF output capacitor across the string and a 10 µF
+/// input capacitor behind 0.1 Ω of supply resistance. The output filter's
+/// time constant, C·r_string ≈ 2.3 ms, is over a hundred switching
+/// periods (about 17 µs), so cycling from power-on takes thousands of
+/// cycles to settle.
+pub fn slow_output_filter() -> Scenario {
+    let mut s = ccm_constant_off_time();
+    s.name = "slow-output-filter".into();
+    s.supply = Supply {
+        voltage_v: 24.0,
+        source_resistance_ohm: 0.1,
+        input_range_v: None,
+    };
+    s.input_capacitor = Some(Capacitor {
+        capacitance_f: 10e-6,
+        esr_ohm: 0.02,
+    });
+    s.inductor = Inductor {
+        inductance_h: 220e-6,
+        dcr_ohm: 0.15,
+        saturation_current_a: None,
+    };
+    s.load = Load::LedKnee {
+        count: 6,
+        knee_voltage_v: 2.7,
+        dynamic_resistance_ohm: 0.8,
+    };
+    s.output_capacitor = Some(Capacitor {
+        capacitance_f: 470e-6,
+        esr_ohm: 0.05,
+    });
+    s.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: 0.75,
+        off_time_s: 3e-6,
+        delay_s: 0.0,
+        min_on_time_s: 0.0,
+    };
+    validated(s)
+}
