@@ -146,6 +146,11 @@ struct RunArgs {
     /// printed and the files written).
     #[arg(long)]
     strict: bool,
+    /// Skip the start-up transient from power-on (no start-up plot or
+    /// start-up peak): for slowly settling designs, whose steady state
+    /// shooting finds in a few cycles while the start-up takes thousands.
+    #[arg(long)]
+    no_startup: bool,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -497,9 +502,9 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     if let Some(dir) = &args.plot {
         output::check_writable(dir).map_err(io_failure)?;
     }
-    // Always record the start-up: the plots need it, and the summary
-    // reports its inductor peak (it costs little next to the run).
-    s.simulation.record_startup = true;
+    // Record the start-up unless told not to: the plots need it, and the
+    // summary reports its inductor peak.
+    s.simulation.record_startup = !args.no_startup;
     let a = simulate_scenario(&s, args.engine.into(), quiet)?;
     let r = &a.result;
     let report = Report::new(&s, &a);
@@ -543,9 +548,12 @@ fn write_plots(s: &Scenario, a: &Assessment, dir: &Path, stem: &str) -> Result<V
     output::ensure_dir(dir)?;
     let steady = dir.join(format!("{stem}-steady.png"));
     plot::steady_png(s, r, &steady).context("steady-state plot")?;
-    let startup = dir.join(format!("{stem}-startup.png"));
-    plot::startup_png(s, r, &startup).context("start-up plot")?;
-    let mut out = vec![steady, startup];
+    let mut out = vec![steady];
+    if r.startup.is_some() {
+        let startup = dir.join(format!("{stem}-startup.png"));
+        plot::startup_png(s, r, &startup).context("start-up plot")?;
+        out.push(startup);
+    }
     if a.comparison.is_some() {
         let cmp = dir.join(format!("{stem}-alternatives.png"));
         plot::alternatives_png(a, &cmp).context("alternatives plot")?;

@@ -47,10 +47,9 @@ const CACHE_SIZE: usize = 64;
 /// One remembered region.
 #[derive(Debug, Clone, Copy)]
 struct CacheEntry {
-    region: Region,
-    generation: u64,
     lin: Linear,
     spectral: Option<Spectral>,
+    events: EventSet,
 }
 
 /// Sensitivities carried through one cycle for the cycle map's Jacobian:
@@ -111,7 +110,13 @@ pub struct ExactEngine {
     pub refits: u64,
     /// Region cache (allocated once, at construction).
     cache: Vec<Option<CacheEntry>>,
+    /// Which region and fit generation each cache slot holds, kept apart
+    /// from the bulky entries so the lookup scans one small array.
+    cache_keys: [Option<(Region, u64)>; CACHE_SIZE],
     cache_next: usize,
+    /// The slot the previous interval used (the next region is often the
+    /// one after it).
+    cache_last: usize,
     sens: Option<Sensitivity>,
 }
 
@@ -155,7 +160,9 @@ impl ExactEngine {
             clamped_energy_j: 0.0,
             refits: 0,
             cache: vec![None; CACHE_SIZE],
+            cache_keys: [None; CACHE_SIZE],
             cache_next: 0,
+            cache_last: 0,
             sens: None,
         }
     }
@@ -280,23 +287,29 @@ impl ExactEngine {
     /// The cache slot holding a region's linear model and decomposition,
     /// filling it if needed.
     fn model_slot(&mut self, region: Region) -> usize {
-        let generation = self.refits;
-        if let Some(k) = self.cache.iter().position(|e| {
-            e.as_ref()
-                .is_some_and(|e| e.region == region && e.generation == generation)
-        }) {
-            return k;
-        }
-        let lin = self.circuit.linearize(region);
-        let spectral = Spectral::new(&lin.m);
-        let k = self.cache_next;
-        self.cache[k] = Some(CacheEntry {
-            region,
-            generation,
-            lin,
-            spectral,
-        });
-        self.cache_next = (self.cache_next + 1) % CACHE_SIZE;
+        let key = Some((region, self.refits));
+        // The slot after the last one used holds the next region of a
+        // cycle seen before (slots fill in the order regions are met).
+        let next = (self.cache_last + 1) % CACHE_SIZE;
+        let k = if self.cache_keys[next] == key {
+            next
+        } else if let Some(k) = self.cache_keys.iter().position(|k| *k == key) {
+            k
+        } else {
+            let lin = self.circuit.linearize(region);
+            let spectral = Spectral::new(&lin.m);
+            let events = region_events(&self.circuit, region, &lin);
+            let k = self.cache_next;
+            self.cache[k] = Some(CacheEntry {
+                lin,
+                spectral,
+                events,
+            });
+            self.cache_keys[k] = key;
+            self.cache_next = (self.cache_next + 1) % CACHE_SIZE;
+            k
+        };
+        self.cache_last = k;
         k
     }
 
@@ -310,11 +323,17 @@ impl ExactEngine {
         // Borrow the cached model without copying it: the cache is moved
         // out for the interval (an empty Vec allocates nothing) and back.
         let cache = std::mem::take(&mut self.cache);
-        let result = match &cache[slot] {
-            Some(entry) => self.interval_with(&entry.lin, entry.spectral.as_ref(), totals, rec),
+        let mut cache = cache;
+        let result = match &mut cache[slot] {
+            Some(CacheEntry {
+                lin,
+                spectral,
+                events,
+            }) => self.interval_with(lin, spectral.as_ref(), events, totals, rec),
             None => {
                 let lin = self.circuit.linearize(self.region);
-                self.interval_with(&lin, None, totals, rec)
+                let mut events = region_events(&self.circuit, self.region, &lin);
+                self.interval_with(&lin, None, &mut events, totals, rec)
             }
         };
         self.cache = cache;
@@ -326,6 +345,7 @@ impl ExactEngine {
         &mut self,
         lin: &Linear,
         spectral: Option<&Spectral>,
+        set: &mut EventSet,
         mut totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
@@ -335,111 +355,51 @@ impl ExactEngine {
             spectral,
         };
         let z0 = aug(&self.x);
-        let one = {
-            let mut r = Row::zeros();
-            r[X_ONE] = 1.0;
-            r
-        };
-        let il_row = lin.row(Signal::InductorCurrent);
-        let mut evs = [EventFn::new(Row::zeros(), &lin.m); MAX_EVENTS];
-        let mut acts = [Action::Controller; MAX_EVENTS];
-        let mut n = 0;
+        // The region's own events (cached), behind the controller's
+        // threshold in slot 0 (written in place) when it watches one.
+        let n = set.n;
+        let evs = &mut set.evs;
+        let acts = &set.acts;
         let mut threshold_slot = None;
-        if let Some(w) = self.cmd.watch {
-            let row = if w.rising {
-                il_row - one * w.level_a
-            } else {
-                one * w.level_a - il_row
-            };
-            threshold_slot = Some(n);
-            Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Controller);
-        }
-        let has_co = self.circuit.output_cap.is_some();
-        let led = self.circuit.led;
-        let diode = self.circuit.diode;
-        if region.conducting {
-            if !region.switch_on {
-                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, lin, Action::DiodeOff);
-                let k = region.diode_segment as usize;
-                if k > 0 {
-                    let row = one * diode.upper_a[k - 1] - il_row;
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::DiodeDown);
-                }
-                if k + 1 < diode.segments {
-                    let row = il_row - one * diode.upper_a[k];
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::DiodeUp);
-                }
-            } else if !has_co {
-                Self::push_event(&mut evs, &mut acts, &mut n, -il_row, lin, Action::Block);
-            }
-        } else if region.switch_on && !has_co {
-            let cond = Region {
-                conducting: true,
-                led_segment: Some(0),
-                ..region
-            };
-            let lc = self.circuit.linearize(cond);
-            let mut row = Row::zeros();
-            for j in 0..4 {
-                row[j] = lc.m[(X_IL, j)];
-            }
-            row[X_IL] = 0.0;
-            Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Unblock);
-        }
-        // A saturating inductor: the current crossing a segment boundary.
-        if let (Some(sat), true) = (self.circuit.saturation.as_ref(), region.conducting) {
-            let k = region.l_segment as usize;
-            if k > 0 {
-                let row = one * sat.upper_a[k - 1] - il_row;
-                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatDown);
-            }
-            if k + 1 < sat.segments {
-                let row = il_row - one * sat.upper_a[k];
-                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatUp);
-            }
-        }
-        let i_led_row = lin.row(Signal::LedCurrent);
-        match (has_co, region.led_segment) {
-            (false, Some(k)) if region.conducting => {
-                let k = k as usize;
-                if k > 0 {
-                    let row = one * led.upper_a[k - 1] - il_row;
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
-                }
-                if k + 1 < led.segments {
-                    let row = il_row - one * led.upper_a[k];
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedUp);
-                }
-            }
-            (true, None) => {
-                let row = lin.row(Signal::LedVoltage) - one * led.knee_v();
-                Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedOn);
-            }
-            (true, Some(k)) => {
-                let k = k as usize;
-                if k > 0 {
-                    let row = one * led.upper_a[k - 1] - i_led_row;
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
+        let first = match self.cmd.watch {
+            Some(w) => {
+                // `±(i_L − level)`: the cached i_L event with the level in
+                // the constant column (M's last row is zero, so the
+                // derivative rows do not change).
+                let mut ev = set.il_event;
+                if w.rising {
+                    ev.row[X_ONE] -= w.level_a;
                 } else {
-                    Self::push_event(&mut evs, &mut acts, &mut n, -i_led_row, lin, Action::LedOff);
+                    ev.row = -ev.row;
+                    ev.drow = -ev.drow;
+                    ev.d2row = -ev.d2row;
+                    ev.row[X_ONE] += w.level_a;
                 }
-                if k + 1 < led.segments {
-                    let row = i_led_row - one * led.upper_a[k];
-                    Self::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedUp);
-                }
+                evs[0] = ev;
+                threshold_slot = Some(0);
+                0
             }
-            _ => {}
-        }
+            None => 1,
+        };
+        let evs = &evs[first..n];
+        let threshold_slot = threshold_slot;
+        let has_co = self.circuit.output_cap.is_some();
+        let i_led_row = lin.row(Signal::LedCurrent);
 
         // Events already due at the start.
-        let due = evs[..n].iter().enumerate().position(|(j, ev)| {
+        let due = evs.iter().enumerate().position(|(j, ev)| {
             let h = ev.value(&z0);
-            let tol = 1e-12 * ev.magnitude(&z0);
             if Some(j) == threshold_slot {
-                h >= 0.0
-            } else {
-                h > tol || (h > -tol && ev.slope(&z0) > 0.0)
+                return h >= 0.0;
             }
+            let rising = ev.slope(&z0) > 0.0;
+            if h <= 0.0 && !rising {
+                // At or below zero and not rising: not due, whatever the
+                // round-off scale (the common case; skips computing it).
+                return false;
+            }
+            let tol = 1e-12 * ev.magnitude(&z0);
+            h > tol || (h > -tol && rising)
         });
         let to_deadline = self.cmd.deadline_s - self.t;
         let (dt, z1, fired) = if let Some(j) = due {
@@ -453,14 +413,7 @@ impl ExactEngine {
             } else {
                 limit_left.max(0.0)
             };
-            let scan = first_event(
-                &flow,
-                &z0,
-                &evs[..n],
-                t_limit,
-                self.max_step_s,
-                &mut self.work,
-            );
+            let scan = first_event(&flow, &z0, evs, t_limit, self.max_step_s, &mut self.work);
             if scan.event.is_none() && !self.cmd.deadline_s.is_finite() {
                 return Err(SimError::IntervalTooLong {
                     switch: if self.cmd.switch_on { "on" } else { "off" },
@@ -510,7 +463,7 @@ impl ExactEngine {
             }
             if let Some(r) = rec {
                 if r.wants_interval() {
-                    self.record(r, &flow, lin, &z0, dt);
+                    self.record(r, &flow, lin, &z0, &z1, dt);
                 }
             }
         }
@@ -534,7 +487,7 @@ impl ExactEngine {
             }
         }
 
-        let act = fired.map(|j| acts[j]).unwrap_or(Action::Controller);
+        let act = fired.map(|j| acts[j + first]).unwrap_or(Action::Controller);
         let mut turned_on = false;
         match act {
             Action::Controller => {
@@ -757,7 +710,8 @@ impl ExactEngine {
         ]
     }
 
-    fn record(&mut self, r: &mut Recorder, flow: &Flow, lin: &Linear, z0: &Aug, dt: f64) {
+    #[allow(clippy::too_many_arguments)] // One interval's ends and model.
+    fn record(&mut self, r: &mut Recorder, flow: &Flow, lin: &Linear, z0: &Aug, z1: &Aug, dt: f64) {
         r.push(self.sample(lin, z0, self.t));
         let k = r.per_interval;
         for j in 1..=k {
@@ -765,13 +719,127 @@ impl ExactEngine {
             let z = flow.advance(tau, z0, &mut self.work);
             r.push(self.sample(lin, &z, self.t + tau));
         }
-        let z1 = flow.advance(dt, z0, &mut self.work);
-        r.push(self.sample(lin, &z1, self.t + dt));
+        r.push(self.sample(lin, z1, self.t + dt));
     }
 
     /// Stored energy now, J.
     pub fn stored_energy_j(&self) -> f64 {
         self.circuit.stored_energy_j(&self.x)
+    }
+}
+
+/// A region's own events (everything but the controller's threshold),
+/// with slot 0 left for the threshold, and the inductor-current event the
+/// threshold is made from. Built once per cached region.
+#[derive(Debug, Clone, Copy)]
+struct EventSet {
+    evs: [EventFn; MAX_EVENTS],
+    acts: [Action; MAX_EVENTS],
+    /// Slots in use, counting the reserved slot 0.
+    n: usize,
+    /// `i_L` rising through zero.
+    il_event: EventFn,
+}
+
+fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> EventSet {
+    let one = {
+        let mut r = Row::zeros();
+        r[X_ONE] = 1.0;
+        r
+    };
+    let il_row = lin.row(Signal::InductorCurrent);
+    let i_led_row = lin.row(Signal::LedCurrent);
+    let mut evs = [EventFn::new(Row::zeros(), &lin.m); MAX_EVENTS];
+    let mut acts = [Action::Controller; MAX_EVENTS];
+    let mut n = 1;
+    let has_co = circuit.output_cap.is_some();
+    let led = circuit.led;
+    let diode = circuit.diode;
+    if region.conducting {
+        if !region.switch_on {
+            ExactEngine::push_event(&mut evs, &mut acts, &mut n, -il_row, lin, Action::DiodeOff);
+            let k = region.diode_segment as usize;
+            if k > 0 {
+                let row = one * diode.upper_a[k - 1] - il_row;
+                ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::DiodeDown);
+            }
+            if k + 1 < diode.segments {
+                let row = il_row - one * diode.upper_a[k];
+                ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::DiodeUp);
+            }
+        } else if !has_co {
+            ExactEngine::push_event(&mut evs, &mut acts, &mut n, -il_row, lin, Action::Block);
+        }
+    } else if region.switch_on && !has_co {
+        let cond = Region {
+            conducting: true,
+            led_segment: Some(0),
+            ..region
+        };
+        let lc = circuit.linearize(cond);
+        let mut row = Row::zeros();
+        for j in 0..4 {
+            row[j] = lc.m[(X_IL, j)];
+        }
+        row[X_IL] = 0.0;
+        ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Unblock);
+    }
+    // A saturating inductor: the current crossing a segment boundary.
+    if let (Some(sat), true) = (circuit.saturation.as_ref(), region.conducting) {
+        let k = region.l_segment as usize;
+        if k > 0 {
+            let row = one * sat.upper_a[k - 1] - il_row;
+            ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatDown);
+        }
+        if k + 1 < sat.segments {
+            let row = il_row - one * sat.upper_a[k];
+            ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::SatUp);
+        }
+    }
+    match (has_co, region.led_segment) {
+        (false, Some(k)) if region.conducting => {
+            let k = k as usize;
+            if k > 0 {
+                let row = one * led.upper_a[k - 1] - il_row;
+                ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
+            }
+            if k + 1 < led.segments {
+                let row = il_row - one * led.upper_a[k];
+                ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedUp);
+            }
+        }
+        (true, None) => {
+            let row = lin.row(Signal::LedVoltage) - one * led.knee_v();
+            ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedOn);
+        }
+        (true, Some(k)) => {
+            let k = k as usize;
+            if k > 0 {
+                let row = one * led.upper_a[k - 1] - i_led_row;
+                ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedDown);
+            } else {
+                ExactEngine::push_event(
+                    &mut evs,
+                    &mut acts,
+                    &mut n,
+                    -i_led_row,
+                    lin,
+                    Action::LedOff,
+                );
+            }
+            if k + 1 < led.segments {
+                let row = i_led_row - one * led.upper_a[k];
+                ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::LedUp);
+            }
+        }
+        _ => {}
+    }
+
+    EventSet {
+        evs,
+        acts,
+        n,
+        il_event: EventFn::new(il_row, &lin.m),
     }
 }
 

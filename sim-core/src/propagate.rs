@@ -219,6 +219,15 @@ pub struct ScanResult {
     pub z: Aug,
 }
 
+/// Whether `h + d·τ + c·τ²/2` (with `h < 0`) reaches zero for some
+/// `τ ∈ (0, bound]`: it is non-negative at `bound`, or it peaks inside at
+/// a non-negative value (`c < 0`, vertex `−d/c < bound`, `d² ≥ 2ch`).
+#[inline]
+fn may_reach_zero_within(h: f64, d: f64, c: f64, bound: f64) -> bool {
+    h + bound * (d + 0.5 * c * bound) >= 0.0
+        || (c < 0.0 && d > 0.0 && d < -c * bound && d * d >= 2.0 * c * h)
+}
+
 /// Smallest positive root of `h + d·τ + c·τ²/2` for `h < 0`, if any: the
 /// second-order prediction of when the function reaches zero.
 #[inline]
@@ -293,12 +302,20 @@ pub fn first_event(
                 .min(remaining.max(t_a) / 64.0)
                 .max(remaining.min(1e-12));
         }
-        for j in 0..n {
-            if h_a[j] < 0.0 && steps <= PREDICTED_STEPS {
-                let c = events[j].curvature(&z_a);
-                if let Some(tau) = predict_zero(h_a[j], d_a[j], c) {
-                    // Aim a hair past the prediction so a good one brackets.
-                    step = step.min(tau * (1.0 + 1e-9) + 1e-18);
+        if steps <= PREDICTED_STEPS {
+            for j in 0..n {
+                if h_a[j] < 0.0 {
+                    let c = events[j].curvature(&z_a);
+                    // Only a prediction inside the step can shorten it: test
+                    // that first, without roots or divisions.
+                    let bound = step * (1.0 + 1e-6) + 1e-18;
+                    if !may_reach_zero_within(h_a[j], d_a[j], c, bound) {
+                        continue;
+                    }
+                    if let Some(tau) = predict_zero(h_a[j], d_a[j], c) {
+                        // Aim a hair past the prediction so a good one brackets.
+                        step = step.min(tau * (1.0 + 1e-9) + 1e-18);
+                    }
                 }
             }
         }
@@ -312,11 +329,10 @@ pub fn first_event(
         let mut h_b = [0.0; MAX_EVENTS];
         let mut d_b = [0.0; MAX_EVENTS];
         let mut best: Option<(f64, usize, Aug)> = None;
-        let mut suspicious = false;
         for j in 0..n {
             h_b[j] = events[j].value(&z_b);
             d_b[j] = events[j].slope(&z_b);
-            if h_a[j] < 0.0 && h_b[j] >= -TOUCH_ULPS * events[j].zero_tol(&z_b) {
+            if h_a[j] < 0.0 && (h_b[j] >= 0.0 || h_b[j] >= -TOUCH_ULPS * events[j].zero_tol(&z_b)) {
                 // Crossed. A step aimed a hair past a good prediction lands
                 // within a few 1e-9 of the step after the root: accept it
                 // there (the event time is then off by well under 1e-12 s).
@@ -330,11 +346,6 @@ pub fn first_event(
                 if best.is_none_or(|b| tau < b.0) {
                     best = Some((tau, j, z));
                 }
-            } else if h_a[j] < 0.0
-                && h_b[j] < 0.0
-                && hermite_may_cross(h_a[j], d_a[j], h_b[j], d_b[j], step)
-            {
-                suspicious = true;
             }
         }
         if let Some((tau, j, z)) = best {
@@ -344,6 +355,10 @@ pub fn first_event(
                 z,
             };
         }
+        // No crossing at the step's ends: could one hide inside it?
+        let suspicious = (0..n).any(|j| {
+            h_a[j] < 0.0 && h_b[j] < 0.0 && hermite_may_cross(h_a[j], d_a[j], h_b[j], d_b[j], step)
+        });
         if suspicious && retries < 12 && step > 1e-12 {
             retries += 1;
             cap = 0.5 * step;
@@ -444,6 +459,33 @@ fn refine(
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    /// The cheap pre-check never hides a prediction inside the step: over
+    /// a grid of quadratics, whenever `predict_zero` gives a root at or
+    /// below the bound, `may_reach_zero_within` says so.
+    #[test]
+    fn zero_precheck_never_misses_a_predicted_root() {
+        let vals = [-3.0, -1.0, -1e-3, -1e-9, 0.0, 1e-9, 1e-3, 1.0, 3.0];
+        let mut checked = 0;
+        for &h in &[-1.0, -1e-3, -1e-9] {
+            for &d in &vals {
+                for &c in &vals {
+                    for &bound in &[1e-6, 1e-3, 0.5, 1.0, 2.0, 10.0] {
+                        if let Some(tau) = predict_zero(h, d, c) {
+                            if tau <= bound {
+                                checked += 1;
+                                assert!(
+                                    may_reach_zero_within(h, d, c, bound * (1.0 + 1e-6)),
+                                    "h {h} d {d} c {c} bound {bound}: root {tau}"
+                                );
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        assert!(checked > 50, "{checked} cases");
+    }
 
     #[test]
     fn own_exponential_matches_pade() {
