@@ -480,16 +480,16 @@ impl Report {
         let st = &self.steady_state;
         let found = match st.method {
             SteadyMethod::Shooting => format!(
-                "by shooting: {} Newton iterations, {} cycles run ({} Jacobian), residual {}, \
-                 slowest mode ×{:.4} per cycle",
+                "by shooting: {} Newton iteration{}, {} cycles run ({} Jacobian), residual {}, {}",
                 st.newton_iterations,
+                if st.newton_iterations == 1 { "" } else { "s" },
                 st.cycles_to_settle,
                 match st.jacobian {
                     Some(JacobianSource::FiniteDifference) => "difference",
                     _ => "analytic",
                 },
                 sci(st.last_change),
-                st.contraction
+                decay_words(st.contraction)
             ),
             SteadyMethod::Cycling => format!(
                 "by cycling: {} cycles ({} simulated), last change {}",
@@ -676,4 +676,30 @@ fn controller_words(c: &sim_core::scenario::ControllerSpec) -> String {
             format!("fixed duty {} at {}", pct(duty), eng(frequency_hz, "Hz"))
         }
     }
+}
+
+/// How fast the slowest mode of the orbit decays: its Floquet multiplier
+/// and, for slow ones, the cycles per factor e (−1/ln m).
+fn decay_words(m: f64) -> String {
+    if !(m > 0.0 && m < 1.0) {
+        return format!("slowest mode ×{m:.3} per cycle");
+    }
+    if m < 0.5 {
+        format!("slowest mode ×{m:.3} per cycle")
+    } else {
+        format!(
+            "slowest mode ×{:.6} per cycle (time constant {} cycles)",
+            m,
+            sig(-1.0 / m.ln())
+        )
+    }
+}
+
+/// Three significant figures, as a number.
+fn sig(v: f64) -> f64 {
+    if v == 0.0 || !v.is_finite() {
+        return v;
+    }
+    let p = 10f64.powi(2 - v.abs().log10().floor() as i32);
+    (v * p).round() / p
 }

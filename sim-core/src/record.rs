@@ -42,7 +42,8 @@ pub type Sample = [f64; 7];
 pub struct Waveform {
     /// Samples × [`COLUMNS`].
     pub data: Array2<f64>,
-    /// Start times of the switching cycles covered, s.
+    /// Start times of the switching cycles covered, s (every one, except
+    /// in a bounded recording that filled up: then every 2ᵏ-th).
     pub cycle_starts_s: Vec<f64>,
 }
 
@@ -72,6 +73,8 @@ pub struct Recorder {
     cap: usize,
     stride: u64,
     intervals: u64,
+    cycle_stride: u64,
+    cycles_seen: u64,
 }
 
 impl Recorder {
@@ -79,12 +82,16 @@ impl Recorder {
     /// at most `cap` samples held (0: unbounded).
     pub fn new(per_interval: usize, cap: usize) -> Recorder {
         Recorder {
-            samples: Vec::new(),
+            // A bounded recorder reserves its cap at once (address space
+            // only until written), so growing never copies the buffer.
+            samples: Vec::with_capacity(cap),
             cycle_starts: Vec::new(),
             per_interval,
             cap,
             stride: 1,
             intervals: 0,
+            cycle_stride: 1,
+            cycles_seen: 0,
         }
     }
 
@@ -107,15 +114,29 @@ impl Recorder {
         }
     }
 
-    /// Marks the start of a switching cycle.
+    /// Marks the start of a switching cycle. A bounded recorder thins the
+    /// cycle starts as it thins samples (every other one kept when full),
+    /// so a million-cycle start-up holds no per-cycle list either.
     pub fn cycle_start(&mut self, t: f64) {
+        self.cycles_seen += 1;
+        if !self.cycles_seen.is_multiple_of(self.cycle_stride) {
+            return;
+        }
         self.cycle_starts.push(t);
+        if self.cap > 0 && self.cycle_starts.len() >= self.cap {
+            let mut k = 0;
+            self.cycle_starts.retain(|_| {
+                k += 1;
+                k % 2 == 1
+            });
+            self.cycle_stride *= 2;
+        }
     }
 
-    /// The samples as a waveform.
+    /// The samples as a waveform (the sample buffer is reused, not copied).
     pub fn finish(self) -> Waveform {
         let n = self.samples.len();
-        let flat: Vec<f64> = self.samples.into_iter().flatten().collect();
+        let flat: Vec<f64> = self.samples.into_flattened();
         Waveform {
             data: Array2::from_shape_vec((n, COLUMNS.len()), flat)
                 .unwrap_or_else(|_| Array2::zeros((0, COLUMNS.len()))),

@@ -266,18 +266,34 @@ pub fn simulate_with_progress(
         }
     };
     if separate_startup {
-        let target = r.steady.state_at_turn_on;
-        r.startup = Some(match opts.engine {
-            EngineKind::Exact => record_startup(&mut ExactEngine::new(s), s, target, progress)?,
-            EngineKind::Reference => record_startup(
-                &mut crate::reference::ReferenceEngine::new(s),
-                s,
-                target,
-                progress,
-            )?,
-        });
+        r.startup = Some(startup_transient(
+            s,
+            opts.engine,
+            r.steady.state_at_turn_on,
+            progress,
+        )?);
     }
     Ok(r)
+}
+
+/// The start-up transient from power-on, recorded by a fresh engine until
+/// its turn-on state is within [`STARTUP_SETTLED`] of `steady_state` (a
+/// turn-on state on the steady orbit) or the scenario's caps.
+pub fn startup_transient(
+    s: &Scenario,
+    engine: EngineKind,
+    steady_state: [f64; N_STATES],
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Waveform, SimError> {
+    match engine {
+        EngineKind::Exact => record_startup(&mut ExactEngine::new(s), s, steady_state, progress),
+        EngineKind::Reference => record_startup(
+            &mut crate::reference::ReferenceEngine::new(s),
+            s,
+            steady_state,
+            progress,
+        ),
+    }
 }
 
 fn exact_fit_report(e: &ExactEngine, _s: &Scenario, m: &Metrics) -> FitReport {

@@ -123,8 +123,15 @@ pub fn assess_with_progress(
     let mut run = opts.run;
     let mut iterations = 0;
     let mut converged = !iterate;
+    // The start-up is recorded once, for the final effective circuit,
+    // not by every run of the iteration.
+    let want_startup = iterate && eff.simulation.record_startup;
     let result = loop {
-        let r = simulate_with_progress(&eff, &run, progress)?;
+        let mut this = eff.clone();
+        if want_startup {
+            this.simulation.record_startup = false;
+        }
+        let r = simulate_with_progress(&this, &run, progress)?;
         iterations += 1;
         if !iterate {
             break r;
@@ -151,6 +158,14 @@ pub fn assess_with_progress(
         run.initial_state = Some(r.steady.state_at_turn_on);
     };
     let mut result = result;
+    if want_startup {
+        result.startup = Some(crate::simulate::startup_transient(
+            &eff,
+            run.engine,
+            result.steady.state_at_turn_on,
+            progress,
+        )?);
+    }
     if !converged {
         result.warnings.push(format!(
             "the capacitor-bias / LED-temperature iteration did not settle in {iterations} runs: \
@@ -256,6 +271,8 @@ fn compare(
         }
         let mut sv = eff.clone();
         sv.supply.voltage_v = v;
+        // Only the figures are compared: no start-up transient.
+        sv.simulation.record_startup = false;
         let point = match sv.validate() {
             Ok(()) => simulate_with_progress(&sv, &run, progress)
                 .ok()
