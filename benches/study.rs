@@ -7,7 +7,7 @@
 //! `cargo bench --bench study`; `STUDY_BENCH_SAMPLES=N` changes the spread
 //! size.
 
-use sim_core::study::run::RunSettings;
+use sim_core::study::run::{Hooks, RunSettings};
 use sim_core::study::spread::{spread, SpreadSettings};
 use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
@@ -61,18 +61,14 @@ fn main() {
             let c0 = cpu_s();
             for _ in 0..5 {
                 let t0 = Instant::now();
-                let r = p.install(|| sweep(&s, &grid, &settings, None, &|| {}));
+                let r = p.install(|| sweep(&s, &grid, &settings, None, &Hooks::default()));
                 dt = dt.min(t0.elapsed().as_secs_f64());
                 t = Some(r);
             }
             let t = t.expect("ran");
             let cpu_per_point_ms = (cpu_s() - c0) / 5.0 / n as f64 * 1e3;
             assert_eq!(t.failed(), 0);
-            let cycles: u64 = t
-                .rows
-                .iter()
-                .filter_map(|r| r["cycles_to_settle"].as_u64())
-                .sum();
+            let cycles: u64 = t.rows.iter().filter_map(|r| r.cycles_to_settle()).sum();
             println!(
                 "sweep {:>4} start, {threads} thread(s): {dt:8.3} s, {:8.1} points/s, \
                  CPU {cpu_per_point_ms:.3} ms per point, {:.0} cycles to settle per point, \
@@ -116,7 +112,7 @@ fn main() {
     for (k, threads) in [1, 2].into_iter().enumerate() {
         let p = pool(threads);
         let t0 = Instant::now();
-        let t = p.install(|| spread(&s, &limits, &small, None, &|| {}).unwrap());
+        let t = p.install(|| spread(&s, &limits, &small, None, &Hooks::default()).unwrap());
         wall[k] = t0.elapsed().as_secs_f64();
         println!(
             "spread: {} samples on {threads} thread(s): {:.2} s, {:.1} samples/s",
@@ -129,7 +125,7 @@ fn main() {
     println!("speed-up 2 vs 1 thread (spread): {:.2}x", wall[0] / wall[1]);
     let p = pool(2);
     let t0 = Instant::now();
-    let t = p.install(|| spread(&s, &limits, &set, None, &|| {}).unwrap());
+    let t = p.install(|| spread(&s, &limits, &set, None, &Hooks::default()).unwrap());
     let dt = t0.elapsed().as_secs_f64();
     println!(
         "spread: {samples} samples on 2 threads: {dt:.2} s, {:.1} samples/s, {} failed, \

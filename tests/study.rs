@@ -8,7 +8,7 @@ use sim_core::scenario::{ControllerSpec, Scenario, VoltageRange};
 use sim_core::simulate::{simulate, RunOptions};
 use sim_core::study::boundary::{find_boundary, BoundarySettings};
 use sim_core::study::rows::{flat_metrics, RowExt, StudyTable};
-use sim_core::study::run::{RunSettings, Shard};
+use sim_core::study::run::{Hooks, RunSettings, Shard};
 use sim_core::study::spread::{
     corners, normal_quantile, sample_inputs, spread, summarize, Distribution, LedVoltageTolerance,
     Param, ParamKind, PartTolerance, SpecLimits, SpreadSettings, Tolerances,
@@ -17,7 +17,9 @@ use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
 use sim_core::study::{scenario_json, scenario_with};
 
-fn nothing() {}
+fn nothing() -> Hooks<'static> {
+    Hooks::default()
+}
 
 #[test]
 fn boundary_fixed_duty_resistive_is_k_crit() {
@@ -111,24 +113,28 @@ fn cold_sweep_points_equal_single_runs_exactly() {
         warm_start: false,
         ..RunSettings::default()
     };
-    let t = sweep(&s, &grid, &cold, None, &nothing);
+    let t = sweep(&s, &grid, &cold, None, &nothing());
     assert_eq!(t.rows.len(), 6);
     for (k, row) in t.rows.iter().enumerate() {
         let mut one = s.clone();
         one.supply.voltage_v = grid.axes[0].values[k];
         let m = simulate(&one, &RunOptions::default()).unwrap().metrics;
         // To the last digit: every metric, compared as JSON numbers.
-        assert_eq!(row["metrics"], Value::Object(flat_metrics(&m)), "point {k}");
+        assert_eq!(
+            row.to_value()["metrics"],
+            Value::Object(flat_metrics(&m)),
+            "point {k}"
+        );
     }
 }
 
 fn check_warm(s: &Scenario, spec: &str, rel: f64) {
     let grid = supply_sweep(s, spec);
-    let t = sweep(s, &grid, &RunSettings::default(), None, &nothing);
+    let t = sweep(s, &grid, &RunSettings::default(), None, &nothing());
     let warm = t
         .rows
         .iter()
-        .filter(|r| r["warm_start"] == Value::Bool(true))
+        .filter(|r| r.warm_start() == Some(true))
         .count();
     assert_eq!(warm, 7, "all but the chain's first point start warm");
     for (k, row) in t.rows.iter().enumerate() {
@@ -171,7 +177,7 @@ fn failed_points_keep_their_rows() {
     let s = lamp_12v();
     // 5 V is below the three-LED string: invalid there, fine elsewhere.
     let grid = supply_sweep(&s, "supply.voltage_v=5,12,13");
-    let t = sweep(&s, &grid, &RunSettings::default(), None, &nothing);
+    let t = sweep(&s, &grid, &RunSettings::default(), None, &nothing());
     assert_eq!(t.failed(), 1);
     assert!(!t.rows[0].ok());
     assert!(t.rows[0].error().unwrap().contains("supply.voltage_v"));
@@ -233,7 +239,7 @@ fn spread_is_the_same_on_one_and_two_threads() {
             .num_threads(threads)
             .build()
             .unwrap()
-            .install(|| spread(&s, &limits, &set, None, &nothing).unwrap())
+            .install(|| spread(&s, &limits, &set, None, &nothing()).unwrap())
     };
     let (one, two) = (run(1), run(2));
     assert_eq!(one.to_json_text(), two.to_json_text());
@@ -244,10 +250,10 @@ fn spread_is_the_same_on_one_and_two_threads() {
         &limits,
         &SpreadSettings { seed: 8, ..set },
         None,
-        &nothing,
+        &nothing(),
     )
     .unwrap();
-    assert_ne!(one.rows[0]["inputs"], other.rows[0]["inputs"]);
+    assert_ne!(one.rows[0].inputs, other.rows[0].inputs);
     // The summary judges every limit; inputs stay in their ranges.
     let sum = summarize(&one);
     assert_eq!(sum.limits.len(), 3);
@@ -310,7 +316,7 @@ fn spread_percentiles_converge_to_the_analytic_ones() {
             run: RunSettings::default(),
         },
         None,
-        &nothing,
+        &nothing(),
     )
     .unwrap();
     let sum = summarize(&t);
@@ -333,10 +339,16 @@ fn shards_merge_to_the_unsharded_bytes() {
     let s = lamp_12v();
     let grid = supply_sweep(&s, "supply.voltage_v=10.5:14:19");
     let rs = RunSettings::default();
-    let whole = sweep(&s, &grid, &rs, None, &nothing);
+    let whole = sweep(&s, &grid, &rs, None, &nothing());
     let shards: Vec<StudyTable> = (1..=3)
         .map(|k| {
-            let t = sweep(&s, &grid, &rs, Some(Shard { index: k, count: 3 }), &nothing);
+            let t = sweep(
+                &s,
+                &grid,
+                &rs,
+                Some(Shard { index: k, count: 3 }),
+                &nothing(),
+            );
             // Through the file text, as `chopwave merge` reads them.
             StudyTable::from_json_text(&t.to_json_text()).unwrap()
         })
@@ -355,7 +367,7 @@ fn shards_merge_to_the_unsharded_bytes() {
         seed: 5,
         run: rs,
     };
-    let whole = spread(&s, &limits, &set, None, &nothing).unwrap();
+    let whole = spread(&s, &limits, &set, None, &nothing()).unwrap();
     let parts: Vec<StudyTable> = (1..=4)
         .map(|k| {
             spread(
@@ -363,7 +375,7 @@ fn shards_merge_to_the_unsharded_bytes() {
                 &limits,
                 &set,
                 Some(Shard { index: k, count: 4 }),
-                &nothing,
+                &nothing(),
             )
             .unwrap()
         })
@@ -386,7 +398,7 @@ fn corners_name_the_worst_corner() {
         &s.spec.unwrap(),
         &RunSettings::default(),
         None,
-        &nothing,
+        &nothing(),
     )
     .unwrap();
     assert_eq!(t.rows.len(), 4);
