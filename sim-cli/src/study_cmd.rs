@@ -468,6 +468,12 @@ fn run_journaled(
             );
         }
     }
+    if !resume && !quiet && path.exists() {
+        eprintln!(
+            "note: replacing {} from an earlier run (--resume would take over its points)",
+            path.display()
+        );
+    }
     // A clean journal first (header and the points taken over; a partly
     // written last line is gone), then rows are appended to it.
     let head = std::iter::once(header_line(m)).chain(resumed.values().map(row_line));
@@ -560,6 +566,36 @@ fn finish(
     Ok(())
 }
 
+/// A sweep, spread or corners study from its manifest to its files: the
+/// progress bar, the journal, the printed summary, the files and the exit
+/// status.
+fn run_study(
+    manifest: &Manifest,
+    common: &Common,
+    resume: bool,
+    quiet: bool,
+    what: &str,
+    print: fn(&StudyTable),
+    run: impl FnOnce(&Hooks<'_>) -> Result<StudyTable, Failure>,
+) -> Result<(), Failure> {
+    let bar = progress(point_range(manifest).len(), quiet, what);
+    let t = run_journaled(manifest, &common.out, resume, bar.as_ref(), quiet, run)?;
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    print(&t);
+    print_incomplete(&t);
+    print_cautions(&t);
+    finish(
+        &t,
+        &common.out,
+        !common.no_plots,
+        quiet,
+        common.stop_after,
+        true,
+    )
+}
+
 /// One line on stdout for a table that stopped early.
 fn print_incomplete(t: &StudyTable) {
     if let Some(inc) = &t.manifest.incomplete {
@@ -592,28 +628,14 @@ pub fn run_sweep(a: &SweepArgs, quiet: bool) -> Result<(), Failure> {
     let shard = parse_shard(&a.shard)?;
     let settings = settings(&a.common, started)?;
     let manifest = sweep_manifest(&s, &grid, &settings, shard);
-    let bar = progress(point_range(&manifest).len(), quiet, "points");
-    let t = run_journaled(
+    run_study(
         &manifest,
-        &a.common.out,
+        &a.common,
         a.resume,
-        bar.as_ref(),
         quiet,
+        "points",
+        print_sweep,
         |hooks| Ok(sweep(&s, &grid, &settings, shard, hooks)),
-    )?;
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
-    print_sweep(&t);
-    print_incomplete(&t);
-    print_cautions(&t);
-    finish(
-        &t,
-        &a.common.out,
-        !a.common.no_plots,
-        quiet,
-        a.common.stop_after,
-        true,
     )
 }
 
@@ -652,17 +674,13 @@ pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
         spread_manifest(&s, &limits, &set, shard)
     }
     .map_err(study_failure)?;
-    let bar = progress(
-        point_range(&manifest).len(),
+    run_study(
+        &manifest,
+        &a.common,
+        a.resume,
         quiet,
         if a.corners { "corners" } else { "samples" },
-    );
-    let t = run_journaled(
-        &manifest,
-        &a.common.out,
-        a.resume,
-        bar.as_ref(),
-        quiet,
+        print_spread,
         |hooks| {
             if a.corners {
                 corners(&s, &limits, &run, shard, hooks)
@@ -671,20 +689,6 @@ pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
             }
             .map_err(study_failure)
         },
-    )?;
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
-    print_spread(&t);
-    print_incomplete(&t);
-    print_cautions(&t);
-    finish(
-        &t,
-        &a.common.out,
-        !a.common.no_plots,
-        quiet,
-        a.common.stop_after,
-        true,
     )
 }
 

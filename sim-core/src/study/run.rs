@@ -185,7 +185,13 @@ pub fn run_points<F>(
 where
     F: Fn(usize) -> PointInput + Sync,
 {
-    let chain = settings.chain_len.max(1);
+    // Cold points do not depend on their neighbours: scheduled one by one
+    // (the same rows), so two threads do not wait on a last long chain.
+    let chain = if settings.warm_start {
+        settings.chain_len.max(1)
+    } else {
+        1
+    };
     let first_chain = range.start / chain;
     let last_chain = range.end.div_ceil(chain);
     let past_deadline = || settings.deadline.is_some_and(|d| Instant::now() >= d);

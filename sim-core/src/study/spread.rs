@@ -17,8 +17,8 @@
 //! yield against the limits, from the rows alone.
 
 use super::rows::{Incomplete, Manifest, Row, RowExt, ShardInfo, StudyKind, StudyTable};
-use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
-use super::sweep::{base_manifest, finish_table, point_range};
+use super::run::{Hooks, PointInput, RunSettings, Shard};
+use super::sweep::{base_manifest, run_table};
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::error::FieldProblem;
 use crate::scenario::de_quantity;
@@ -30,7 +30,6 @@ use rand_chacha::ChaCha8Rng;
 use serde::de::Deserializer;
 use serde::{Deserialize, Serialize};
 use std::fmt;
-use std::sync::Arc;
 
 /// How a toleranced value is distributed between its limits.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
@@ -730,11 +729,9 @@ pub fn spread(
 ) -> Result<StudyTable, StudyError> {
     let (params, run, manifest) = spread_setup(s, limits, settings, shard)?;
     let base = scenario_json(s);
-    let columns = Arc::new(manifest.metric_columns.clone());
-    let rows = run_points(
-        point_range(&manifest),
+    Ok(run_table(
+        manifest,
         &run,
-        &columns,
         |k| {
             let x = sample_inputs(&params, settings.seed, k);
             let scenario = scenario_at(&base, &params, &x);
@@ -745,8 +742,7 @@ pub fn spread(
             }
         },
         hooks,
-    );
-    Ok(finish_table(manifest, rows))
+    ))
 }
 
 /// Most toleranced inputs for a corners study (2ⁿ runs).
@@ -799,11 +795,9 @@ pub fn corners(
 ) -> Result<StudyTable, StudyError> {
     let (params, settings, manifest) = corners_setup(s, limits, run, shard)?;
     let base = scenario_json(s);
-    let columns = Arc::new(manifest.metric_columns.clone());
-    let rows = run_points(
-        point_range(&manifest),
+    Ok(run_table(
+        manifest,
         &settings,
-        &columns,
         |k| {
             let x: Vec<f64> = params
                 .iter()
@@ -818,8 +812,7 @@ pub fn corners(
             }
         },
         hooks,
-    );
-    Ok(finish_table(manifest, rows))
+    ))
 }
 
 /// A corner in words: `inductor.inductance_h low, supply.voltage_v high`.

@@ -4,7 +4,7 @@
 use super::rows::{
     digest, metric_columns, Incomplete, Manifest, ShardInfo, StudyKind, StudyTable, STUDY_FORMAT,
 };
-use super::run::{run_points, Hooks, PointInput, RunRows, RunSettings, Shard};
+use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
 use super::vary::Grid;
 use super::{scenario_json, scenario_with};
 use crate::scenario::Scenario;
@@ -88,10 +88,22 @@ pub fn point_range(m: &Manifest) -> Range<usize> {
     m.shard.map_or(0..m.points, |i| i.first..i.end)
 }
 
-/// The table from a manifest and a run's rows, marked incomplete when the
-/// run stopped at its deadline.
-pub(crate) fn finish_table(mut manifest: Manifest, run: RunRows) -> StudyTable {
-    let of = point_range(&manifest).len();
+/// Runs the points of `manifest`'s range (`make(k)` gives point `k`)
+/// and makes its table, marked incomplete when the run stopped at its
+/// deadline.
+pub(crate) fn run_table<F>(
+    mut manifest: Manifest,
+    settings: &RunSettings,
+    make: F,
+    hooks: &Hooks<'_>,
+) -> StudyTable
+where
+    F: Fn(usize) -> PointInput + Sync,
+{
+    let columns = Arc::new(manifest.metric_columns.clone());
+    let range = point_range(&manifest);
+    let of = range.len();
+    let run = run_points(range, settings, &columns, make, hooks);
     if run.stopped || run.rows.len() < of {
         manifest.incomplete = Some(Incomplete {
             reason: "time limit reached".into(),
@@ -115,11 +127,9 @@ pub fn sweep(
 ) -> StudyTable {
     let manifest = sweep_manifest(s, grid, settings, shard);
     let base = scenario_json(s);
-    let columns = Arc::new(manifest.metric_columns.clone());
-    let run = run_points(
-        point_range(&manifest),
+    run_table(
+        manifest,
         settings,
-        &columns,
         |k| {
             let sets = grid.point(k);
             PointInput {
@@ -129,6 +139,5 @@ pub fn sweep(
             }
         },
         hooks,
-    );
-    finish_table(manifest, run)
+    )
 }
