@@ -195,8 +195,13 @@ where
     let first_chain = range.start / chain;
     let last_chain = range.end.div_ceil(chain);
     let past_deadline = || settings.deadline.is_some_and(|d| Instant::now() >= d);
+    // Every chain is its own task (`with_max_len(1)`): left to itself,
+    // rayon runs a few long stretches of chains, and points differ in cost
+    // (e.g. along a supply sweep), so one thread could still be busy with
+    // a stretch while the other has nothing left to take.
     let chains: Vec<(Vec<Row>, bool)> = (first_chain..last_chain)
         .into_par_iter()
+        .with_max_len(1)
         .map(|c| {
             let lo = (c * chain).max(range.start);
             let hi = ((c + 1) * chain).min(range.end);
