@@ -23,6 +23,7 @@ use crate::simulate::{simulate, EngineKind, RunOptions};
 use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::ops::Range;
+use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::Arc;
 use std::time::Instant;
 
@@ -195,73 +196,88 @@ where
     let first_chain = range.start / chain;
     let last_chain = range.end.div_ceil(chain);
     let past_deadline = || settings.deadline.is_some_and(|d| Instant::now() >= d);
-    // Every chain is its own task (`with_max_len(1)`): left to itself,
-    // rayon runs a few long stretches of chains, and points differ in cost
-    // (e.g. along a supply sweep), so one thread could still be busy with
-    // a stretch while the other has nothing left to take.
-    let chains: Vec<(Vec<Row>, bool)> = (first_chain..last_chain)
-        .into_par_iter()
-        .with_max_len(1)
-        .map(|c| {
-            let lo = (c * chain).max(range.start);
-            let hi = ((c + 1) * chain).min(range.end);
-            let mut out = Vec::with_capacity(hi - lo);
-            let mut prev: Option<[f64; N_STATES]> = None;
-            for k in lo..hi {
-                if let Some(f) = hooks.resume.and_then(|r| r.get(&k)) {
-                    if f.state_at_turn_on.is_some() {
-                        prev = f.state_at_turn_on;
-                    }
-                    out.push(f.row.clone());
-                    continue;
+    let run_chain = |c: usize| -> (Vec<Row>, bool) {
+        let lo = (c * chain).max(range.start);
+        let hi = ((c + 1) * chain).min(range.end);
+        let mut out = Vec::with_capacity(hi - lo);
+        let mut prev: Option<[f64; N_STATES]> = None;
+        for k in lo..hi {
+            if let Some(f) = hooks.resume.and_then(|r| r.get(&k)) {
+                if f.state_at_turn_on.is_some() {
+                    prev = f.state_at_turn_on;
                 }
-                if past_deadline() {
-                    return (out, true);
-                }
-                let p = make(k);
-                let outcome = match p.scenario {
-                    Err(e) => Err(e),
-                    Ok(s) => {
-                        let warm = if settings.warm_start { prev } else { None };
-                        match warm {
-                            Some(x) => match run_one(&s, settings.engine, Some(x)) {
-                                Ok(mut p) => {
-                                    p.warm_start = true;
-                                    Ok(p)
-                                }
-                                Err(_) => run_one(&s, settings.engine, settings.initial_state),
-                            },
-                            None => run_one(&s, settings.engine, settings.initial_state),
-                        }
-                    }
-                };
-                let state = outcome.as_ref().ok().map(|p| p.state_at_turn_on);
-                if state.is_some() {
-                    prev = state;
-                }
-                let result = PointResult {
-                    index: k,
-                    inputs: p.inputs,
-                    outcome,
-                };
-                let row = Row::from_point(&result, p.label.as_deref(), columns);
-                if let Some(sink) = hooks.on_finish {
-                    let f = Finished {
-                        row,
-                        state_at_turn_on: state,
-                    };
-                    sink(&f);
-                    out.push(f.row);
-                } else {
-                    out.push(row);
-                }
+                out.push(f.row.clone());
+                continue;
             }
-            (out, false)
+            if past_deadline() {
+                return (out, true);
+            }
+            let p = make(k);
+            let outcome = match p.scenario {
+                Err(e) => Err(e),
+                Ok(s) => {
+                    let warm = if settings.warm_start { prev } else { None };
+                    match warm {
+                        Some(x) => match run_one(&s, settings.engine, Some(x)) {
+                            Ok(mut p) => {
+                                p.warm_start = true;
+                                Ok(p)
+                            }
+                            Err(_) => run_one(&s, settings.engine, settings.initial_state),
+                        },
+                        None => run_one(&s, settings.engine, settings.initial_state),
+                    }
+                }
+            };
+            let state = outcome.as_ref().ok().map(|p| p.state_at_turn_on);
+            if state.is_some() {
+                prev = state;
+            }
+            let result = PointResult {
+                index: k,
+                inputs: p.inputs,
+                outcome,
+            };
+            let row = Row::from_point(&result, p.label.as_deref(), columns);
+            if let Some(sink) = hooks.on_finish {
+                let f = Finished {
+                    row,
+                    state_at_turn_on: state,
+                };
+                sink(&f);
+                out.push(f.row);
+            } else {
+                out.push(row);
+            }
+        }
+        (out, false)
+    };
+    // One job per worker thread, each taking the next chain from a shared
+    // counter until none is left: chains are handed out one at a time as
+    // threads become free (points differ in cost, e.g. along a supply
+    // sweep), with no task per chain to split, steal or wake a thread for;
+    // a worker that starts late simply finds fewer chains left.
+    let next = AtomicUsize::new(first_chain);
+    let workers = rayon::current_num_threads()
+        .min(last_chain.saturating_sub(first_chain))
+        .max(1);
+    let mut chains: Vec<(usize, (Vec<Row>, bool))> = (0..workers)
+        .into_par_iter()
+        .flat_map_iter(|_| {
+            let mut mine = Vec::new();
+            loop {
+                let c = next.fetch_add(1, Ordering::Relaxed);
+                if c >= last_chain {
+                    break mine;
+                }
+                mine.push((c, run_chain(c)));
+            }
         })
         .collect();
-    let stopped = chains.iter().any(|c| c.1);
+    chains.sort_unstable_by_key(|c| c.0);
+    let stopped = chains.iter().any(|c| c.1 .1);
     RunRows {
-        rows: chains.into_iter().flat_map(|c| c.0).collect(),
+        rows: chains.into_iter().flat_map(|c| c.1 .0).collect(),
         stopped,
     }
 }
