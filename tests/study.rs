@@ -8,7 +8,7 @@ use sim_core::scenario::{ControllerSpec, Scenario, VoltageRange};
 use sim_core::simulate::{simulate, RunOptions};
 use sim_core::study::boundary::{find_boundary, BoundarySettings};
 use sim_core::study::rows::{flat_metrics, RowExt, StudyTable};
-use sim_core::study::run::{Hooks, RunSettings, Shard};
+use sim_core::study::run::{Finished, Hooks, RunSettings, Shard};
 use sim_core::study::spread::{
     corners, normal_quantile, sample_inputs, spread, summarize, Distribution, LedVoltageTolerance,
     Param, ParamKind, PartTolerance, SpecLimits, SpreadSettings, Tolerances,
@@ -16,6 +16,7 @@ use sim_core::study::spread::{
 use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
 use sim_core::study::{scenario_json, scenario_with};
+use std::collections::BTreeMap;
 
 fn nothing() -> Hooks<'static> {
     Hooks::default()
@@ -487,4 +488,65 @@ fn points_apply_values_exactly() {
         }
         _ => unreachable!(),
     }
+}
+
+#[test]
+fn a_resumed_sweep_equals_one_run_and_a_deadline_stops_it() {
+    // Issue #6: rows stream out as points finish, and a study resumed from
+    // some of them (here every third point, so resumed points sit inside
+    // warm-start chains) writes exactly the table of one uninterrupted run.
+    let s = lamp_12v_with_output_cap();
+    let grid = supply_sweep(&s, "supply.voltage_v=12:14:20");
+    let settings = RunSettings::default();
+    let seen = std::sync::Mutex::new(Vec::new());
+    let keep = |f: &Finished| seen.lock().unwrap().push(f.clone());
+    let whole = sweep(
+        &s,
+        &grid,
+        &settings,
+        None,
+        &Hooks {
+            on_finish: Some(&keep),
+            resume: None,
+        },
+    );
+    let seen = seen.into_inner().unwrap();
+    assert_eq!(seen.len(), 20, "every point is streamed once");
+    let kept: BTreeMap<usize, Finished> = seen
+        .into_iter()
+        .filter(|f| f.row.index % 3 == 1)
+        .map(|f| (f.row.index, f))
+        .collect();
+    let count = std::sync::atomic::AtomicUsize::new(0);
+    let tally = |_: &Finished| {
+        count.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    };
+    let resumed = sweep(
+        &s,
+        &grid,
+        &settings,
+        None,
+        &Hooks {
+            on_finish: Some(&tally),
+            resume: Some(&kept),
+        },
+    );
+    assert_eq!(
+        count.into_inner(),
+        20 - kept.len(),
+        "kept points do not run"
+    );
+    assert_eq!(resumed.to_json_text(), whole.to_json_text());
+    assert_eq!(resumed.to_csv_text(), whole.to_csv_text());
+    assert!(whole.manifest.incomplete.is_none());
+
+    // A deadline already past: no point starts, and the table says so.
+    let late = RunSettings {
+        deadline: Some(std::time::Instant::now()),
+        ..settings
+    };
+    let t = sweep(&s, &grid, &late, None, &nothing());
+    assert!(t.rows.is_empty());
+    let inc = t.manifest.incomplete.expect("marked incomplete");
+    assert_eq!((inc.ran, inc.of), (0, 20));
 }
