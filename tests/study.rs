@@ -8,7 +8,7 @@ use sim_core::scenario::{ControllerSpec, Scenario, VoltageRange};
 use sim_core::simulate::{simulate, RunOptions};
 use sim_core::study::boundary::{find_boundary, BoundarySettings};
 use sim_core::study::rows::{flat_metrics, RowExt, StudyTable};
-use sim_core::study::run::{RunSettings, Shard};
+use sim_core::study::run::{Finished, Hooks, RunSettings, Shard};
 use sim_core::study::spread::{
     corners, normal_quantile, sample_inputs, spread, summarize, Distribution, LedVoltageTolerance,
     Param, ParamKind, PartTolerance, SpecLimits, SpreadSettings, Tolerances,
@@ -16,8 +16,11 @@ use sim_core::study::spread::{
 use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
 use sim_core::study::{scenario_json, scenario_with};
+use std::collections::BTreeMap;
 
-fn nothing() {}
+fn nothing() -> Hooks<'static> {
+    Hooks::default()
+}
 
 #[test]
 fn boundary_fixed_duty_resistive_is_k_crit() {
@@ -111,24 +114,28 @@ fn cold_sweep_points_equal_single_runs_exactly() {
         warm_start: false,
         ..RunSettings::default()
     };
-    let t = sweep(&s, &grid, &cold, None, &nothing);
+    let t = sweep(&s, &grid, &cold, None, &nothing());
     assert_eq!(t.rows.len(), 6);
     for (k, row) in t.rows.iter().enumerate() {
         let mut one = s.clone();
         one.supply.voltage_v = grid.axes[0].values[k];
         let m = simulate(&one, &RunOptions::default()).unwrap().metrics;
         // To the last digit: every metric, compared as JSON numbers.
-        assert_eq!(row["metrics"], Value::Object(flat_metrics(&m)), "point {k}");
+        assert_eq!(
+            row.to_value()["metrics"],
+            Value::Object(flat_metrics(&m)),
+            "point {k}"
+        );
     }
 }
 
 fn check_warm(s: &Scenario, spec: &str, rel: f64) {
     let grid = supply_sweep(s, spec);
-    let t = sweep(s, &grid, &RunSettings::default(), None, &nothing);
+    let t = sweep(s, &grid, &RunSettings::default(), None, &nothing());
     let warm = t
         .rows
         .iter()
-        .filter(|r| r["warm_start"] == Value::Bool(true))
+        .filter(|r| r.warm_start() == Some(true))
         .count();
     assert_eq!(warm, 7, "all but the chain's first point start warm");
     for (k, row) in t.rows.iter().enumerate() {
@@ -171,7 +178,7 @@ fn failed_points_keep_their_rows() {
     let s = lamp_12v();
     // 5 V is below the three-LED string: invalid there, fine elsewhere.
     let grid = supply_sweep(&s, "supply.voltage_v=5,12,13");
-    let t = sweep(&s, &grid, &RunSettings::default(), None, &nothing);
+    let t = sweep(&s, &grid, &RunSettings::default(), None, &nothing());
     assert_eq!(t.failed(), 1);
     assert!(!t.rows[0].ok());
     assert!(t.rows[0].error().unwrap().contains("supply.voltage_v"));
@@ -233,7 +240,7 @@ fn spread_is_the_same_on_one_and_two_threads() {
             .num_threads(threads)
             .build()
             .unwrap()
-            .install(|| spread(&s, &limits, &set, None, &nothing).unwrap())
+            .install(|| spread(&s, &limits, &set, None, &nothing()).unwrap())
     };
     let (one, two) = (run(1), run(2));
     assert_eq!(one.to_json_text(), two.to_json_text());
@@ -244,10 +251,10 @@ fn spread_is_the_same_on_one_and_two_threads() {
         &limits,
         &SpreadSettings { seed: 8, ..set },
         None,
-        &nothing,
+        &nothing(),
     )
     .unwrap();
-    assert_ne!(one.rows[0]["inputs"], other.rows[0]["inputs"]);
+    assert_ne!(one.rows[0].inputs, other.rows[0].inputs);
     // The summary judges every limit; inputs stay in their ranges.
     let sum = summarize(&one);
     assert_eq!(sum.limits.len(), 3);
@@ -310,7 +317,7 @@ fn spread_percentiles_converge_to_the_analytic_ones() {
             run: RunSettings::default(),
         },
         None,
-        &nothing,
+        &nothing(),
     )
     .unwrap();
     let sum = summarize(&t);
@@ -333,10 +340,16 @@ fn shards_merge_to_the_unsharded_bytes() {
     let s = lamp_12v();
     let grid = supply_sweep(&s, "supply.voltage_v=10.5:14:19");
     let rs = RunSettings::default();
-    let whole = sweep(&s, &grid, &rs, None, &nothing);
+    let whole = sweep(&s, &grid, &rs, None, &nothing());
     let shards: Vec<StudyTable> = (1..=3)
         .map(|k| {
-            let t = sweep(&s, &grid, &rs, Some(Shard { index: k, count: 3 }), &nothing);
+            let t = sweep(
+                &s,
+                &grid,
+                &rs,
+                Some(Shard { index: k, count: 3 }),
+                &nothing(),
+            );
             // Through the file text, as `chopwave merge` reads them.
             StudyTable::from_json_text(&t.to_json_text()).unwrap()
         })
@@ -355,7 +368,7 @@ fn shards_merge_to_the_unsharded_bytes() {
         seed: 5,
         run: rs,
     };
-    let whole = spread(&s, &limits, &set, None, &nothing).unwrap();
+    let whole = spread(&s, &limits, &set, None, &nothing()).unwrap();
     let parts: Vec<StudyTable> = (1..=4)
         .map(|k| {
             spread(
@@ -363,7 +376,7 @@ fn shards_merge_to_the_unsharded_bytes() {
                 &limits,
                 &set,
                 Some(Shard { index: k, count: 4 }),
-                &nothing,
+                &nothing(),
             )
             .unwrap()
         })
@@ -386,7 +399,7 @@ fn corners_name_the_worst_corner() {
         &s.spec.unwrap(),
         &RunSettings::default(),
         None,
-        &nothing,
+        &nothing(),
     )
     .unwrap();
     assert_eq!(t.rows.len(), 4);
@@ -475,4 +488,65 @@ fn points_apply_values_exactly() {
         }
         _ => unreachable!(),
     }
+}
+
+#[test]
+fn a_resumed_sweep_equals_one_run_and_a_deadline_stops_it() {
+    // Issue #6: rows stream out as points finish, and a study resumed from
+    // some of them (here every third point, so resumed points sit inside
+    // warm-start chains) writes exactly the table of one uninterrupted run.
+    let s = lamp_12v_with_output_cap();
+    let grid = supply_sweep(&s, "supply.voltage_v=12:14:20");
+    let settings = RunSettings::default();
+    let seen = std::sync::Mutex::new(Vec::new());
+    let keep = |f: &Finished| seen.lock().unwrap().push(f.clone());
+    let whole = sweep(
+        &s,
+        &grid,
+        &settings,
+        None,
+        &Hooks {
+            on_finish: Some(&keep),
+            resume: None,
+        },
+    );
+    let seen = seen.into_inner().unwrap();
+    assert_eq!(seen.len(), 20, "every point is streamed once");
+    let kept: BTreeMap<usize, Finished> = seen
+        .into_iter()
+        .filter(|f| f.row.index % 3 == 1)
+        .map(|f| (f.row.index, f))
+        .collect();
+    let count = std::sync::atomic::AtomicUsize::new(0);
+    let tally = |_: &Finished| {
+        count.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    };
+    let resumed = sweep(
+        &s,
+        &grid,
+        &settings,
+        None,
+        &Hooks {
+            on_finish: Some(&tally),
+            resume: Some(&kept),
+        },
+    );
+    assert_eq!(
+        count.into_inner(),
+        20 - kept.len(),
+        "kept points do not run"
+    );
+    assert_eq!(resumed.to_json_text(), whole.to_json_text());
+    assert_eq!(resumed.to_csv_text(), whole.to_csv_text());
+    assert!(whole.manifest.incomplete.is_none());
+
+    // A deadline already past: no point starts, and the table says so.
+    let late = RunSettings {
+        deadline: Some(std::time::Instant::now()),
+        ..settings
+    };
+    let t = sweep(&s, &grid, &late, None, &nothing());
+    assert!(t.rows.is_empty());
+    let inc = t.manifest.incomplete.expect("marked incomplete");
+    assert_eq!((inc.ran, inc.of), (0, 20));
 }

@@ -198,6 +198,9 @@ enum Failure {
     Run(String),
     /// A design check failed under `--strict`: exit 3.
     Checks(String),
+    /// A study stopped at its `--stop-after` time limit, after writing
+    /// what finished: exit 4.
+    TimeLimit(String),
 }
 
 impl Failure {
@@ -206,11 +209,12 @@ impl Failure {
             Failure::Input(_) => 2,
             Failure::Run(_) => 1,
             Failure::Checks(_) => 3,
+            Failure::TimeLimit(_) => 4,
         }
     }
     fn message(&self) -> &str {
         match self {
-            Failure::Input(m) | Failure::Run(m) | Failure::Checks(m) => m,
+            Failure::Input(m) | Failure::Run(m) | Failure::Checks(m) | Failure::TimeLimit(m) => m,
         }
     }
 }

@@ -48,6 +48,18 @@ pub fn write_text(path: &Path, text: &str) -> Result<()> {
     .with_context(|| format!("cannot write {}", path.display()))
 }
 
+/// Writes text given in pieces to `path` atomically, without joining
+/// the pieces first (a large table is never held as one string).
+pub fn write_pieces(path: &Path, pieces: impl Iterator<Item = String>) -> Result<()> {
+    write_atomic(path, |w| {
+        for p in pieces {
+            w.write_all(p.as_bytes())?;
+        }
+        Ok(())
+    })
+    .with_context(|| format!("cannot write {}", path.display()))
+}
+
 /// The CSV header: one column per signal, each `name (unit)`.
 pub fn csv_header() -> String {
     COLUMNS

@@ -13,15 +13,21 @@ use anyhow::{Context, Result};
 use indicatif::{ProgressBar, ProgressStyle};
 use sim_core::simulate::SELV_LIMIT_V;
 use sim_core::study::boundary::{boundary_curve, find_boundary, Boundary, BoundarySettings};
-use sim_core::study::rows::{RowExt, StudyKind, StudyTable};
-use sim_core::study::run::{RunSettings, Shard};
-use sim_core::study::spread::{corners, spread, summarize, SpreadSettings, SpreadSummary};
-use sim_core::study::sweep::sweep;
+use sim_core::study::journal::{header_line, read_journal, row_line};
+use sim_core::study::rows::{Manifest, Row, RowExt, StudyKind, StudyTable};
+use sim_core::study::run::{Finished, Hooks, RunSettings, Shard};
+use sim_core::study::spread::{
+    corners, corners_manifest, spread, spread_manifest, summarize, SpreadSettings, SpreadSummary,
+};
+use sim_core::study::sweep::{point_range, sweep, sweep_manifest};
 use sim_core::study::vary::{linspace, Grid, Vary};
 use sim_core::study::StudyError;
 use sim_core::Scenario;
-use std::io::IsTerminal;
+use std::collections::BTreeMap;
+use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
+use std::time::{Duration, Instant};
 
 /// Options every study shares.
 #[derive(Debug, clap::Args)]
@@ -47,6 +53,11 @@ pub struct Common {
     /// Write the table only, no PNG plots.
     #[arg(long)]
     no_plots: bool,
+    /// Stop starting new points after this many seconds of wall-clock
+    /// time; points already running finish, what finished is written
+    /// (marked incomplete) and the exit code is 4.
+    #[arg(long, value_name = "SECONDS")]
+    stop_after: Option<f64>,
 }
 
 /// `chopwave sweep`.
@@ -63,6 +74,10 @@ pub struct SweepArgs {
     /// slices with `chopwave merge`.
     #[arg(long, value_name = "K/N")]
     shard: Option<String>,
+    /// Take over the points the journal in the out folder already holds
+    /// (from a run that was stopped or killed) and run only the rest.
+    #[arg(long)]
+    resume: bool,
 }
 
 /// `chopwave boundary`.
@@ -109,6 +124,10 @@ pub struct SpreadArgs {
     /// Run only the K-th of N equal slices; join with `chopwave merge`.
     #[arg(long, value_name = "K/N")]
     shard: Option<String>,
+    /// Take over the points the journal in the out folder already holds
+    /// (from a run that was stopped or killed) and run only the rest.
+    #[arg(long)]
+    resume: bool,
 }
 
 /// `chopwave merge`.
@@ -128,6 +147,7 @@ pub struct MergeArgs {
 fn study_failure(e: StudyError) -> Failure {
     match e {
         StudyError::Nominal(_) => Failure::Run(e.to_string()),
+        StudyError::TimeLimit(_) => Failure::TimeLimit(e.to_string()),
         StudyError::Boundary { ref reason, .. } if reason.contains("failed") => {
             Failure::Run(e.to_string())
         }
@@ -152,12 +172,26 @@ fn set_threads(n: Option<usize>) -> Result<(), Failure> {
     Ok(())
 }
 
-fn settings(c: &Common) -> RunSettings {
-    RunSettings {
+/// Run settings from the common options; the `--stop-after` clock starts
+/// at `started`.
+fn settings(c: &Common, started: Instant) -> Result<RunSettings, Failure> {
+    let deadline = match c.stop_after {
+        None => None,
+        Some(t) if t.is_finite() && t > 0.0 && t < 1e9 => {
+            Some(started + Duration::from_secs_f64(t))
+        }
+        Some(t) => {
+            return Err(Failure::Input(format!(
+                "--stop-after {t}: give a number of seconds above 0 (and below 1e9)"
+            )))
+        }
+    };
+    Ok(RunSettings {
         engine: c.engine.into(),
         warm_start: !c.cold,
+        deadline,
         ..RunSettings::default()
-    }
+    })
 }
 
 /// A progress bar over points, on a terminal only.
@@ -174,13 +208,9 @@ fn progress(total: usize, quiet: bool, what: &str) -> Option<ProgressBar> {
     Some(b)
 }
 
-fn file_base(t: &StudyTable) -> String {
-    let mut s = format!(
-        "{}-{}",
-        output::file_stem(&t.manifest.scenario),
-        t.manifest.kind.word()
-    );
-    if let Some(sh) = t.manifest.shard {
+fn file_base(m: &Manifest) -> String {
+    let mut s = format!("{}-{}", output::file_stem(&m.scenario), m.kind.word());
+    if let Some(sh) = m.shard {
         s.push_str(&format!("-shard-{}-of-{}", sh.shard.index, sh.shard.count));
     }
     s
@@ -192,16 +222,16 @@ fn summary_json(s: &SpreadSummary) -> String {
 }
 
 /// Writes a table's files: CSV and JSON always; for a whole study also
-/// the spread summary and the plots.
+/// the spread summary; for a whole, complete study the plots.
 fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> {
     output::ensure_dir(dir)?;
-    let base = file_base(t);
+    let base = file_base(&t.manifest);
     let mut written = Vec::new();
     let csv = dir.join(format!("{base}.csv"));
-    output::write_text(&csv, &t.to_csv_text())?;
+    output::write_pieces(&csv, t.csv_lines())?;
     written.push(csv);
     let json = dir.join(format!("{base}.json"));
-    output::write_text(&json, &t.to_json_text())?;
+    output::write_pieces(&json, t.json_pieces())?;
     written.push(json);
     if t.manifest.shard.is_some() {
         return Ok(written);
@@ -211,7 +241,9 @@ fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> 
         output::write_text(&p, &summary_json(&summarize(t)))?;
         written.push(p);
     }
-    if !plots {
+    // Plots of an incomplete study would show gaps as if they were
+    // results: drawn only once every point has run.
+    if !plots || t.manifest.incomplete.is_some() {
         return Ok(written);
     }
     match (t.manifest.kind, t.manifest.inputs.len()) {
@@ -307,7 +339,7 @@ fn print_cautions(t: &StudyTable) {
     }
 }
 
-fn mode_word(r: &serde_json::Value) -> &str {
+fn mode_word(r: &Row) -> &str {
     match r.mode() {
         Some("ccm") => "CCM",
         Some("dcm") => "DCM",
@@ -383,11 +415,145 @@ fn study_unit(path: &str) -> &'static str {
     }
 }
 
-fn finish(t: &StudyTable, dir: &Path, plots: bool, quiet: bool) -> Result<(), Failure> {
+/// The journal beside a study's outputs: rows as they finish.
+fn journal_path(m: &Manifest, dir: &Path) -> PathBuf {
+    dir.join(format!("{}-journal.jsonl", file_base(m)))
+}
+
+/// Runs a sweep, spread or corners study with its journal: with
+/// `--resume`, takes over the points the journal holds (if it belongs to
+/// this very study); streams every finished row into it, one whole line
+/// at a time, as the points finish.
+fn run_journaled(
+    m: &Manifest,
+    dir: &Path,
+    resume: bool,
+    bar: Option<&ProgressBar>,
+    quiet: bool,
+    run: impl FnOnce(&Hooks<'_>) -> Result<StudyTable, Failure>,
+) -> Result<StudyTable, Failure> {
+    output::ensure_dir(dir).map_err(io_failure)?;
+    let path = journal_path(m, dir);
+    let mut resumed = BTreeMap::new();
+    if resume {
+        match std::fs::read_to_string(&path) {
+            Ok(text) => {
+                let j = read_journal(&text)
+                    .map_err(|e| Failure::Input(format!("{}: {e}", path.display())))?;
+                if let Some(j) = j {
+                    if j.manifest != *m {
+                        return Err(Failure::Input(format!(
+                            "--resume: {} belongs to a different study (scenario, options or \
+                             version differ); run the same command as before, or remove the \
+                             journal to start afresh",
+                            path.display()
+                        )));
+                    }
+                    resumed = j.finished;
+                }
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+            Err(e) => {
+                return Err(Failure::Input(format!(
+                    "cannot read {}: {e}",
+                    path.display()
+                )))
+            }
+        }
+        if !quiet {
+            eprintln!(
+                "resuming: {} points taken from {}",
+                resumed.len(),
+                path.display()
+            );
+        }
+    }
+    if !resume && !quiet && path.exists() {
+        eprintln!(
+            "note: replacing {} from an earlier run (--resume would take over its points)",
+            path.display()
+        );
+    }
+    // A clean journal first (header and the points taken over; a partly
+    // written last line is gone), then rows are appended to it.
+    let head = std::iter::once(header_line(m)).chain(resumed.values().map(row_line));
+    output::write_pieces(&path, head).map_err(io_failure)?;
+    let file = std::fs::OpenOptions::new()
+        .append(true)
+        .open(&path)
+        .map_err(|e| Failure::Run(format!("cannot open {}: {e}", path.display())))?;
+    let file = Mutex::new(file);
+    let trouble: Mutex<Option<std::io::Error>> = Mutex::new(None);
+    if let Some(b) = bar {
+        b.set_position(resumed.len() as u64);
+    }
+    let sink = |f: &Finished| {
+        let line = row_line(f);
+        let written = match file.lock() {
+            Ok(mut w) => w.write_all(line.as_bytes()),
+            Err(_) => Ok(()),
+        };
+        if let Err(e) = written {
+            if let Ok(mut t) = trouble.lock() {
+                t.get_or_insert(e);
+            }
+        }
+        if let Some(b) = bar {
+            b.inc(1);
+        }
+    };
+    let t = run(&Hooks {
+        on_finish: Some(&sink),
+        resume: Some(&resumed),
+    })?;
+    if let Some(e) = trouble.into_inner().ok().flatten() {
+        eprintln!(
+            "chopwave: warning: rows could not be added to {} ({e}); the study went on",
+            path.display()
+        );
+    }
+    Ok(t)
+}
+
+/// Writes the table, then removes the journal of a complete study (the
+/// table holds every row) or keeps it for `--resume` when the time limit
+/// stopped it; the exit status says which.
+fn finish(
+    t: &StudyTable,
+    dir: &Path,
+    plots: bool,
+    quiet: bool,
+    stop_after: Option<f64>,
+    own_journal: bool,
+) -> Result<(), Failure> {
     let written = write_table(t, dir, plots).map_err(io_failure)?;
     if !quiet {
         for p in &written {
             eprintln!("wrote {}", p.display());
+        }
+    }
+    let journal = journal_path(&t.manifest, dir);
+    if let Some(inc) = &t.manifest.incomplete {
+        return Err(Failure::TimeLimit(format!(
+            "time limit of {} s reached: {} of {} points ran; the table holds them (marked \
+             incomplete, no plots) and {} keeps them; run the same command with --resume to \
+             finish",
+            stop_after.unwrap_or(f64::NAN),
+            inc.ran,
+            inc.of,
+            journal.display()
+        )));
+    }
+    if own_journal {
+        match std::fs::remove_file(&journal) {
+            Ok(()) => {}
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+            Err(e) => {
+                return Err(Failure::Run(format!(
+                    "cannot remove {}: {e}",
+                    journal.display()
+                )))
+            }
         }
     }
     if t.any_failed() {
@@ -400,6 +566,46 @@ fn finish(t: &StudyTable, dir: &Path, plots: bool, quiet: bool) -> Result<(), Fa
     Ok(())
 }
 
+/// A sweep, spread or corners study from its manifest to its files: the
+/// progress bar, the journal, the printed summary, the files and the exit
+/// status.
+fn run_study(
+    manifest: &Manifest,
+    common: &Common,
+    resume: bool,
+    quiet: bool,
+    what: &str,
+    print: fn(&StudyTable),
+    run: impl FnOnce(&Hooks<'_>) -> Result<StudyTable, Failure>,
+) -> Result<(), Failure> {
+    let bar = progress(point_range(manifest).len(), quiet, what);
+    let t = run_journaled(manifest, &common.out, resume, bar.as_ref(), quiet, run)?;
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    print(&t);
+    print_incomplete(&t);
+    print_cautions(&t);
+    finish(
+        &t,
+        &common.out,
+        !common.no_plots,
+        quiet,
+        common.stop_after,
+        true,
+    )
+}
+
+/// One line on stdout for a table that stopped early.
+fn print_incomplete(t: &StudyTable) {
+    if let Some(inc) = &t.manifest.incomplete {
+        println!(
+            "\nINCOMPLETE: {} — {} of {} points ran; figures above cover those only",
+            inc.reason, inc.ran, inc.of
+        );
+    }
+}
+
 fn parse_shard(s: &Option<String>) -> Result<Option<Shard>, Failure> {
     s.as_deref()
         .map(Shard::parse)
@@ -409,6 +615,7 @@ fn parse_shard(s: &Option<String>) -> Result<Option<Shard>, Failure> {
 
 /// `chopwave sweep`.
 pub fn run_sweep(a: &SweepArgs, quiet: bool) -> Result<(), Failure> {
+    let started = Instant::now();
     set_threads(a.common.threads)?;
     let s = load(&a.common.file, &a.common.overrides)?;
     let axes = a
@@ -419,27 +626,22 @@ pub fn run_sweep(a: &SweepArgs, quiet: bool) -> Result<(), Failure> {
         .map_err(study_failure)?;
     let grid = Grid::new(axes).map_err(study_failure)?;
     let shard = parse_shard(&a.shard)?;
-    let settings = settings(&a.common);
-    let n = shard.map_or(grid.len(), |sh| {
-        sh.range(grid.len(), settings.chain_len).len()
-    });
-    let bar = progress(n, quiet, "points");
-    let tick = || {
-        if let Some(b) = &bar {
-            b.inc(1);
-        }
-    };
-    let t = sweep(&s, &grid, &settings, shard, &tick);
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
-    print_sweep(&t);
-    print_cautions(&t);
-    finish(&t, &a.common.out, !a.common.no_plots, quiet)
+    let settings = settings(&a.common, started)?;
+    let manifest = sweep_manifest(&s, &grid, &settings, shard);
+    run_study(
+        &manifest,
+        &a.common,
+        a.resume,
+        quiet,
+        "points",
+        print_sweep,
+        |hooks| Ok(sweep(&s, &grid, &settings, shard, hooks)),
+    )
 }
 
 /// `chopwave spread` (and `--corners`).
 pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
+    let started = Instant::now();
     set_threads(a.common.threads)?;
     let mut overrides = a.common.overrides.clone();
     for sp in &a.spec {
@@ -460,40 +662,34 @@ pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
     }
     let shard = parse_shard(&a.shard)?;
     let limits = s.spec.unwrap_or_default();
-    let run = settings(&a.common);
-    let total = if a.corners {
-        1usize << sim_core::study::spread::params(&s).map_or(0, |p| p.len().min(20))
-    } else {
-        a.samples
+    let run = settings(&a.common, started)?;
+    let set = SpreadSettings {
+        samples: a.samples,
+        seed: a.seed,
+        run,
     };
-    let bar = progress(total, quiet, if a.corners { "corners" } else { "samples" });
-    let tick = || {
-        if let Some(b) = &bar {
-            b.inc(1);
-        }
-    };
-    let t = if a.corners {
-        corners(&s, &limits, &run, shard, &tick)
+    let manifest = if a.corners {
+        corners_manifest(&s, &limits, &run, shard)
     } else {
-        spread(
-            &s,
-            &limits,
-            &SpreadSettings {
-                samples: a.samples,
-                seed: a.seed,
-                run,
-            },
-            shard,
-            &tick,
-        )
+        spread_manifest(&s, &limits, &set, shard)
     }
     .map_err(study_failure)?;
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
-    print_spread(&t);
-    print_cautions(&t);
-    finish(&t, &a.common.out, !a.common.no_plots, quiet)
+    run_study(
+        &manifest,
+        &a.common,
+        a.resume,
+        quiet,
+        if a.corners { "corners" } else { "samples" },
+        print_spread,
+        |hooks| {
+            if a.corners {
+                corners(&s, &limits, &run, shard, hooks)
+            } else {
+                spread(&s, &limits, &set, shard, hooks)
+            }
+            .map_err(study_failure)
+        },
+    )
 }
 
 /// Metrics the spread summary prints (all are in the summary JSON).
@@ -614,6 +810,7 @@ fn print_spread(t: &StudyTable) {
 
 /// `chopwave boundary`.
 pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
+    let started = Instant::now();
     set_threads(a.common.threads)?;
     let s = load(&a.common.file, &a.common.overrides)?;
     if a.vary.len() > 2 {
@@ -629,7 +826,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     }
     let (path, lo, hi) = Vary::parse_bracket(&a.vary[0], &s).map_err(study_failure)?;
     let bs = BoundarySettings {
-        run: settings(&a.common),
+        run: settings(&a.common, started)?,
         rel_tol: a.tolerance_pct / 100.0,
         ..BoundarySettings::default()
     };
@@ -660,6 +857,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     let across = Vary::parse(&a.vary[1], &s).map_err(study_failure)?;
     let curve = boundary_curve(&s, &path, lo, hi, &across, &bs);
     let mut failed = 0;
+    let mut out_of_time = 0;
     let mut pts = Vec::new();
     println!(
         "CCM/DCM boundary along {path} ({} to {}) across {}:",
@@ -682,6 +880,9 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             }
             Err(e) => {
                 failed += 1;
+                if matches!(e, StudyError::TimeLimit(_)) {
+                    out_of_time += 1;
+                }
                 println!("  {:>12}: {e}", eng(*v, study_unit(&across.path)));
             }
         }
@@ -697,12 +898,21 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     ])
     .map_err(study_failure)?;
     let bar = progress(grid.len(), quiet, "map points");
-    let tick = || {
+    let tick = |_: &Finished| {
         if let Some(b) = &bar {
             b.inc(1);
         }
     };
-    let t = sweep(&s, &grid, &settings(&a.common), None, &tick);
+    let t = sweep(
+        &s,
+        &grid,
+        &bs.run,
+        None,
+        &Hooks {
+            on_finish: Some(&tick),
+            resume: None,
+        },
+    );
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
@@ -722,7 +932,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         let p = dir.join(format!("{base}.json"));
         output::write_text(&p, &(serde_json::to_string_pretty(&json)? + "\n"))?;
         written.push(p);
-        if !a.common.no_plots {
+        if !a.common.no_plots && t.manifest.incomplete.is_none() {
             let p = dir.join(format!("{base}.png"));
             study_plot::grid_map(
                 &t,
@@ -748,6 +958,19 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         for p in &written {
             eprintln!("wrote {}", p.display());
         }
+    }
+    if out_of_time > 0 || t.manifest.incomplete.is_some() {
+        return Err(Failure::TimeLimit(format!(
+            "time limit of {} s reached: the boundary was found for {} of {} values{}",
+            a.common.stop_after.unwrap_or(f64::NAN),
+            curve.len() - failed,
+            curve.len(),
+            if t.manifest.incomplete.is_some() {
+                "; the mode map behind it is incomplete (no plot drawn)"
+            } else {
+                ""
+            }
+        )));
     }
     if failed > 0 {
         return Err(Failure::Run(format!(
@@ -802,5 +1025,5 @@ pub fn run_merge(a: &MergeArgs, quiet: bool) -> Result<(), Failure> {
         t.manifest.scenario,
         t.failed()
     );
-    finish(&t, &a.out, !a.no_plots, quiet)
+    finish(&t, &a.out, !a.no_plots, quiet, None, false)
 }

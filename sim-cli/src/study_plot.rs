@@ -14,7 +14,7 @@ use plotters::coord::Shift;
 use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
-use serde_json::Value;
+use sim_core::study::rows::Row;
 use sim_core::study::rows::{RowExt, StudyTable};
 use sim_core::study::spread::SpecLimits;
 use sim_core::study::vary::unit_of;
@@ -572,7 +572,7 @@ pub fn grid_map(
     let (ex, ey) = (edges(&xv), edges(&yv));
     let xa = Axis::for_magnitude(ex[0].abs().max(ex[ex.len() - 1].abs()));
     let ya = Axis::for_magnitude(ey[0].abs().max(ey[ey.len() - 1].abs()));
-    let value = |r: &Value| match kind {
+    let value = |r: &Row| match kind {
         MapKind::Heat(m, k, _, _) => r.metric(m).map(|v| v * k),
         MapKind::Mode => None,
     };

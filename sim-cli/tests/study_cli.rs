@@ -338,3 +338,264 @@ fn boundary_prints_value_side_and_margin() {
         text(&o.stderr)
     );
 }
+
+/// The command of an interrupted-study test: a supply sweep of the
+/// grow-light scenario on the reference engine (tens of milliseconds a
+/// point), long enough to stop midway on any machine.
+fn slow_sweep(out: &Path, points: usize, extra: &[&str]) -> Vec<String> {
+    let mut a = vec![
+        "sweep".to_string(),
+        scenario("grow-light-48v.json"),
+        "--vary".into(),
+        format!("supply.voltage_v=range:{points}"),
+        "--engine".into(),
+        "reference".into(),
+        "--threads".into(),
+        "2".into(),
+        "--no-plots".into(),
+        "-q".into(),
+        "--out".into(),
+        out.display().to_string(),
+    ];
+    a.extend(extra.iter().map(|s| s.to_string()));
+    a
+}
+
+fn run_owned(args: &[String]) -> Output {
+    run(&args.iter().map(String::as_str).collect::<Vec<_>>())
+}
+
+/// The complete lines of a journal (every one must parse), allowing one
+/// partly written last line, which is dropped.
+fn journal_lines(p: &Path) -> Vec<serde_json::Value> {
+    let text = String::from_utf8(read(p)).expect("the journal is UTF-8");
+    let Some(end) = text.rfind('\n') else {
+        return vec![];
+    };
+    text[..end]
+        .split('\n')
+        .enumerate()
+        .map(|(k, l)| {
+            serde_json::from_str(l).unwrap_or_else(|e| panic!("journal line {}: {e}", k + 1))
+        })
+        .collect()
+}
+
+/// Every file in `dir` is whole: a temporary file never stands alone, and
+/// every CSV and JSON file parses.
+fn check_files_whole(dir: &Path) {
+    for e in std::fs::read_dir(dir).unwrap() {
+        let p = e.unwrap().path();
+        let name = p.file_name().unwrap().to_string_lossy().into_owned();
+        // `.NAME.PID.tmp` is write_atomic's temporary name for NAME.
+        if let Some(inner) = name.strip_prefix('.').and_then(|n| n.strip_suffix(".tmp")) {
+            let real = inner.rsplit_once('.').map_or(inner, |(a, _)| a);
+            assert!(dir.join(real).exists(), "{name} is the only copy of {real}");
+            continue;
+        }
+        if name.ends_with(".json") {
+            serde_json::from_slice::<serde_json::Value>(&read(&p))
+                .unwrap_or_else(|e| panic!("{name}: {e}"));
+        } else if name.ends_with(".csv") {
+            let t = String::from_utf8(read(&p)).unwrap();
+            let width = t.lines().next().unwrap().split(',').count();
+            assert!(t.ends_with('\n'), "{name} ends mid-line");
+            for l in t.lines() {
+                assert!(l.split(',').count() >= width, "{name}: short line {l}");
+            }
+        }
+    }
+}
+
+#[test]
+fn a_killed_sweep_keeps_its_rows_and_resumes_to_the_same_files() {
+    let d = scratch("killed");
+    let (full, cut) = (d.join("full"), d.join("cut"));
+    let points = 96;
+    let o = run_owned(&slow_sweep(&full, points, &[]));
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let csv = "grow-light-48v-sweep.csv";
+    let json = "grow-light-48v-sweep.json";
+    let journal = "grow-light-48v-sweep-journal.jsonl";
+    assert!(
+        !full.join(journal).exists(),
+        "a finished study removes its journal"
+    );
+    let whole: serde_json::Value = serde_json::from_slice(&read(&full.join(json))).unwrap();
+    let rows = whole["rows"].as_array().unwrap();
+    assert_eq!(rows.len(), points);
+
+    // Start the same sweep, wait (polling, generous timeout) until its
+    // journal holds a few rows, then kill it outright.
+    let args = slow_sweep(&cut, points, &[]);
+    let mut child = Command::new(env!("CARGO_BIN_EXE_chopwave"))
+        .args(&args)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let t0 = std::time::Instant::now();
+    loop {
+        let kept = std::fs::read(cut.join(journal))
+            .map(|b| b.iter().filter(|&&c| c == b'\n').count())
+            .unwrap_or(0);
+        if kept >= 4 {
+            break;
+        }
+        assert!(
+            child.try_wait().unwrap().is_none(),
+            "the sweep ended before it could be killed"
+        );
+        assert!(
+            t0.elapsed().as_secs() < 300,
+            "no rows in the journal after 300 s"
+        );
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+
+    check_files_whole(&cut);
+    assert!(
+        !cut.join(csv).exists(),
+        "the table is written only at the end"
+    );
+    let lines = journal_lines(&cut.join(journal));
+    assert_eq!(lines[0]["journal"], "chopwave-journal-1");
+    assert_eq!(lines[0]["manifest"], whole["manifest"]);
+    let kept = &lines[1..];
+    assert!(
+        kept.len() >= 3 && kept.len() < points,
+        "{} rows",
+        kept.len()
+    );
+    for l in kept {
+        let k = l["row"]["index"].as_u64().unwrap() as usize;
+        // Every kept row equals the full run's, to the last printed digit.
+        assert_eq!(l["row"], rows[k], "row {k}");
+    }
+
+    // A resume with other options is refused and leaves the journal be.
+    let other = slow_sweep(&cut, points, &["--cold", "--resume"]);
+    let o = run_owned(&other);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains("belongs to a different study"),
+        "{}",
+        text(&o.stderr)
+    );
+    assert_eq!(journal_lines(&cut.join(journal)).len(), lines.len());
+
+    // Resumed, the study writes the very files one uninterrupted run did.
+    let o = run_owned(&slow_sweep(&cut, points, &["--resume"]));
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    for f in [csv, json] {
+        assert!(read(&full.join(f)) == read(&cut.join(f)), "{f} differs");
+    }
+    assert!(!cut.join(journal).exists());
+}
+
+#[test]
+fn the_time_limit_writes_what_finished_and_exits_4() {
+    let d = scratch("limit");
+    let o = run_owned(&slow_sweep(&d, 400, &["--stop-after", "0.3"]));
+    assert_eq!(o.status.code(), Some(4), "{}", text(&o.stderr));
+    let err = text(&o.stderr);
+    assert!(err.contains("time limit of 0.3 s reached"), "{err}");
+    assert!(err.contains("--resume"), "{err}");
+    assert!(
+        text(&o.stdout).contains("INCOMPLETE"),
+        "{}",
+        text(&o.stdout)
+    );
+    let t: serde_json::Value =
+        serde_json::from_slice(&read(&d.join("grow-light-48v-sweep.json"))).unwrap();
+    let inc = &t["manifest"]["incomplete"];
+    let ran = inc["ran"].as_u64().unwrap() as usize;
+    assert_eq!(inc["of"], 400);
+    assert!(ran < 400, "{ran}");
+    assert_eq!(t["rows"].as_array().unwrap().len(), ran);
+    let csv = std::fs::read_to_string(d.join("grow-light-48v-sweep.csv")).unwrap();
+    assert_eq!(csv.lines().count(), ran + 1);
+    // The journal is kept (for --resume) and holds the same rows.
+    assert_eq!(
+        journal_lines(&d.join("grow-light-48v-sweep-journal.jsonl")).len(),
+        ran + 1
+    );
+    check_files_whole(&d);
+
+    // A spread: the summary says how many samples ran of how many.
+    let o = run(&[
+        "spread",
+        &scenario("cabin-light-9-32v.json"),
+        "--samples",
+        "1000000",
+        "--stop-after",
+        "0.2",
+        "--out",
+        &d.display().to_string(),
+        "-q",
+    ]);
+    assert_eq!(o.status.code(), Some(4), "{}", text(&o.stderr));
+    let sum: serde_json::Value =
+        serde_json::from_slice(&read(&d.join("cabin-light-9-32v-spread-summary.json"))).unwrap();
+    assert_eq!(sum["incomplete"]["of"], 1_000_000);
+    assert_eq!(sum["incomplete"]["ran"], sum["points"]);
+    assert!(!d.join("cabin-light-9-32v-spread-histograms.png").exists());
+
+    // A boundary search out of time says so with the same exit code.
+    let o = run(&[
+        "boundary",
+        &scenario("undersized-inductor-dcm.json"),
+        "--vary",
+        "inductor.inductance_h=2u:60u",
+        "--stop-after",
+        "1e-9",
+    ]);
+    assert_eq!(o.status.code(), Some(4), "{}", text(&o.stderr));
+    assert!(text(&o.stderr).contains("time limit reached"));
+    // Not a number of seconds: bad input.
+    let o = run(&[
+        "sweep",
+        &scenario("headlamp-4cell.json"),
+        "--vary",
+        "supply.voltage_v=range:3",
+        "--stop-after",
+        "0",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(text(&o.stderr).contains("--stop-after"));
+}
+
+#[test]
+fn points_that_hit_the_scenario_caps_become_failed_rows() {
+    let d = scratch("caps");
+    for (set, says) in [
+        ("simulation.max_cycles=3", "no steady state after 3 cycles"),
+        ("simulation.max_time_s=20u", "simulated time limit"),
+    ] {
+        let o = run(&[
+            "sweep",
+            &scenario("cabin-light-9-32v.json"),
+            "--vary",
+            "supply.voltage_v=9,13.8,32",
+            "--set",
+            set,
+            "--out",
+            &d.display().to_string(),
+            "--no-plots",
+            "-q",
+        ]);
+        assert_eq!(o.status.code(), Some(1), "{set}: {}", text(&o.stderr));
+        assert!(text(&o.stderr).contains("3 of 3 points failed"));
+        let t: serde_json::Value =
+            serde_json::from_slice(&read(&d.join("cabin-light-9-32v-sweep.json"))).unwrap();
+        let rows = t["rows"].as_array().unwrap();
+        assert_eq!(rows.len(), 3);
+        for r in rows {
+            assert_eq!(r["status"], "failed");
+            let e = r["error"].as_str().unwrap();
+            assert!(e.contains(says), "{set}: {e}");
+        }
+    }
+}

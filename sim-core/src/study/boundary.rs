@@ -19,6 +19,7 @@ use crate::scenario::Scenario;
 use crate::simulate::{simulate, RunOptions};
 use rayon::prelude::*;
 use serde::Serialize;
+use std::time::Instant;
 
 /// Search settings.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -86,10 +87,27 @@ struct Searcher<'a> {
     settings: &'a BoundarySettings,
     known: Vec<(f64, [f64; N_STATES])>,
     trials: Vec<(f64, f64)>,
+    /// The bracket so far (for the time-limit message).
+    bracket: Option<(f64, f64)>,
 }
 
 impl Searcher<'_> {
     fn eval(&mut self, x: f64) -> Result<f64, StudyError> {
+        if self
+            .settings
+            .run
+            .deadline
+            .is_some_and(|d| Instant::now() >= d)
+        {
+            return Err(StudyError::TimeLimit(format!(
+                "the boundary search along {} stopped after {} runs{}",
+                self.path,
+                self.trials.len(),
+                self.bracket.map_or(String::new(), |(a, b)| format!(
+                    ", bracket so far {a:e} to {b:e}"
+                ))
+            )));
+        }
         let mut sets = self.fixed.to_vec();
         sets.push((self.path.to_string(), x));
         let s = scenario_with(&self.base, &sets).map_err(|e| StudyError::Boundary {
@@ -150,6 +168,7 @@ pub fn find_boundary(
         settings,
         known: vec![],
         trials: vec![],
+        bracket: None,
     };
     let (mut a, mut b) = (low, high);
     let mut fa = q.eval(a)?;
@@ -168,6 +187,7 @@ pub fn find_boundary(
     let ccm_above = fb > 0.0;
     let mut side = 0i8;
     loop {
+        q.bracket = Some((a, b));
         let mid = 0.5 * (a + b);
         let tol = settings.rel_tol * mid.abs().max(f64::MIN_POSITIVE);
         if b - a <= tol {

@@ -11,6 +11,8 @@
 //! - [`rows`] — the study table: a manifest describing the study and one
 //!   row per point, with deterministic text (CSV, JSON), sharding and the
 //!   merge of shard outputs.
+//! - [`journal`] — finished rows as lines of text while a study runs, so
+//!   an interrupted study keeps them and can be resumed.
 //! - [`sweep`] — sweep tables from a grid.
 //! - [`boundary`] — where the design crosses between CCM and DCM, found by
 //!   bracketing on the engine's own result.
@@ -24,6 +26,7 @@
 //! its index, and rows are ordered by index.
 
 pub mod boundary;
+pub mod journal;
 pub mod rows;
 pub mod run;
 pub mod spread;
@@ -78,6 +81,9 @@ pub enum StudyError {
     /// A study output could not be read back.
     #[error("study output: {0}")]
     Format(String),
+    /// The wall-clock time limit passed before the study finished.
+    #[error("time limit reached: {0}")]
+    TimeLimit(String),
 }
 
 /// The scenario as JSON, to which point values are applied.

@@ -1,10 +1,12 @@
 //! The study table: a manifest describing the study and one row per
 //! point, with deterministic text forms and the merge of shards.
 //!
-//! A row is kept as a JSON object (`index`, `inputs`, `status`, `error`,
-//! `label`, `cycles_to_settle`, `warm_start`, `metrics`), whose keys are
-//! written in sorted order and whose numbers are written in the shortest
-//! form that reads back to the same `f64`. The CSV is made from the rows
+//! A row is held compactly ([`Row`]: its metric values as [`Cell`]s
+//! aligned with the manifest's `metric_columns`, names shared by every
+//! row) and written as a JSON object (`index`, `inputs`, `status`,
+//! `error`, `label`, `cycles_to_settle`, `warm_start`, `metrics`), whose
+//! keys are in sorted order and whose numbers are in the shortest form
+//! that reads back to the same `f64`. The CSV is made from the rows
 //! alone, so a table read back from its JSON (e.g. shard files to merge)
 //! writes exactly the same bytes as the run that made it.
 
@@ -14,6 +16,7 @@ use super::StudyError;
 use crate::metrics::{Metrics, Totals};
 use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
+use std::sync::Arc;
 
 /// Layout version of study outputs.
 pub const STUDY_FORMAT: &str = "chopwave-study-1";
@@ -94,6 +97,21 @@ pub struct Manifest {
     pub metric_columns: Vec<String>,
     /// Which slice this file holds (None: the whole study).
     pub shard: Option<ShardInfo>,
+    /// Set when the study stopped before every point ran (absent from
+    /// the file otherwise).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub incomplete: Option<Incomplete>,
+}
+
+/// Why a table holds fewer rows than its study has points.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Incomplete {
+    /// In words, e.g. `time limit of 30 s reached`.
+    pub reason: String,
+    /// Points that ran (rows in the table).
+    pub ran: usize,
+    /// Points the study (or its shard) has.
+    pub of: usize,
 }
 
 /// FNV-1a, 64 bits, as 16 hex digits.
@@ -140,32 +158,278 @@ pub fn metric_columns() -> Vec<String> {
         .collect()
 }
 
-/// A point's row as a JSON object.
-pub fn row_value(p: &PointResult, label: Option<&str>) -> Value {
-    let mut r = Map::new();
-    r.insert("index".into(), p.index.into());
-    r.insert(
-        "inputs".into(),
-        Value::Array(p.inputs.iter().map(|&x| Value::from(x)).collect()),
-    );
-    r.insert("label".into(), label.map_or(Value::Null, Value::from));
-    match &p.outcome {
-        Ok(s) => {
-            r.insert("status".into(), "ok".into());
-            r.insert("error".into(), Value::Null);
-            r.insert("cycles_to_settle".into(), s.cycles_to_settle.into());
-            r.insert("warm_start".into(), s.warm_start.into());
-            r.insert("metrics".into(), Value::Object(flat_metrics(&s.metrics)));
-        }
-        Err(e) => {
-            r.insert("status".into(), "failed".into());
-            r.insert("error".into(), e.as_str().into());
-            r.insert("cycles_to_settle".into(), Value::Null);
-            r.insert("warm_start".into(), Value::Null);
-            r.insert("metrics".into(), Value::Object(Map::new()));
+/// One metric value of a row, held without its name: the row's cells are
+/// aligned with the manifest's `metric_columns`. Each kind writes back as
+/// the JSON it was made from, so tables read from files write the same
+/// bytes.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Cell {
+    /// No value (JSON `null`: a non-finite number or a missing figure).
+    Empty,
+    /// A finite real number.
+    Real(f64),
+    /// A whole number ≥ 0 (e.g. `cycles_measured`).
+    Count(u64),
+    /// A negative whole number.
+    Signed(i64),
+    /// A yes/no figure.
+    Flag(bool),
+    /// A word (e.g. `conduction_mode`).
+    Text(Box<str>),
+}
+
+impl Cell {
+    /// The cell for a JSON value (`None` for arrays and objects, which a
+    /// flat metric never is).
+    pub fn from_value(v: &Value) -> Option<Cell> {
+        Some(match v {
+            Value::Null => Cell::Empty,
+            Value::Bool(b) => Cell::Flag(*b),
+            Value::Number(n) => {
+                if let Some(u) = n.as_u64() {
+                    Cell::Count(u)
+                } else if let Some(i) = n.as_i64() {
+                    Cell::Signed(i)
+                } else {
+                    n.as_f64().map_or(Cell::Empty, Cell::Real)
+                }
+            }
+            Value::String(s) => Cell::Text(s.as_str().into()),
+            Value::Array(_) | Value::Object(_) => return None,
+        })
+    }
+
+    /// The cell as JSON.
+    pub fn to_value(&self) -> Value {
+        match self {
+            Cell::Empty => Value::Null,
+            Cell::Real(x) => Value::from(*x),
+            Cell::Count(u) => Value::from(*u),
+            Cell::Signed(i) => Value::from(*i),
+            Cell::Flag(b) => Value::Bool(*b),
+            Cell::Text(s) => Value::from(&**s),
         }
     }
-    Value::Object(r)
+
+    /// The value as a number, if it is one.
+    pub fn as_f64(&self) -> Option<f64> {
+        match self {
+            Cell::Real(x) => Some(*x),
+            Cell::Count(u) => Some(*u as f64),
+            Cell::Signed(i) => Some(*i as f64),
+            _ => None,
+        }
+    }
+}
+
+/// What became of a point.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RowOutcome {
+    /// It ran to steady state.
+    Ran {
+        /// Cycles run until steady state.
+        cycles_to_settle: u64,
+        /// Whether it started from a neighbour's steady state.
+        warm_start: bool,
+        /// One cell per metric column.
+        metrics: Box<[Cell]>,
+    },
+    /// It did not run; why, in words.
+    Failed(String),
+}
+
+/// One point of a study table, held compactly: metric values without
+/// their names, aligned with the table's `metric_columns` (shared by all
+/// rows of the table). [`Row::to_value`] gives the JSON object that the
+/// table files hold.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Row {
+    /// The point index.
+    pub index: usize,
+    /// The values of the study's inputs (NaN for a missing one).
+    pub inputs: Box<[f64]>,
+    /// The row's label (corners).
+    pub label: Option<Box<str>>,
+    /// Its outcome.
+    pub outcome: RowOutcome,
+    columns: Arc<Vec<String>>,
+}
+
+impl Row {
+    /// A point's row: its metrics laid out along `columns` (which must be
+    /// [`metric_columns`] for rows the engine made).
+    pub fn from_point(p: &PointResult, label: Option<&str>, columns: &Arc<Vec<String>>) -> Row {
+        let outcome = match &p.outcome {
+            Ok(s) => {
+                let flat = flat_metrics(&s.metrics);
+                RowOutcome::Ran {
+                    cycles_to_settle: s.cycles_to_settle,
+                    warm_start: s.warm_start,
+                    metrics: columns
+                        .iter()
+                        .map(|c| {
+                            flat.get(c)
+                                .and_then(Cell::from_value)
+                                .unwrap_or(Cell::Empty)
+                        })
+                        .collect(),
+                }
+            }
+            Err(e) => RowOutcome::Failed(e.clone()),
+        };
+        Row {
+            index: p.index,
+            inputs: p.inputs.as_slice().into(),
+            label: label.map(Into::into),
+            outcome,
+            columns: Arc::clone(columns),
+        }
+    }
+
+    /// The row as the JSON object the table files hold (keys sorted:
+    /// `cycles_to_settle`, `error`, `index`, `inputs`, `label`, `metrics`,
+    /// `status`, `warm_start`).
+    pub fn to_value(&self) -> Value {
+        let mut r = Map::new();
+        r.insert("index".into(), self.index.into());
+        r.insert(
+            "inputs".into(),
+            Value::Array(self.inputs.iter().map(|&x| Value::from(x)).collect()),
+        );
+        r.insert(
+            "label".into(),
+            self.label.as_deref().map_or(Value::Null, Value::from),
+        );
+        match &self.outcome {
+            RowOutcome::Ran {
+                cycles_to_settle,
+                warm_start,
+                metrics,
+            } => {
+                r.insert("status".into(), "ok".into());
+                r.insert("error".into(), Value::Null);
+                r.insert("cycles_to_settle".into(), (*cycles_to_settle).into());
+                r.insert("warm_start".into(), (*warm_start).into());
+                let m: Map<String, Value> = self
+                    .columns
+                    .iter()
+                    .zip(metrics.iter())
+                    .map(|(c, v)| (c.clone(), v.to_value()))
+                    .collect();
+                r.insert("metrics".into(), Value::Object(m));
+            }
+            RowOutcome::Failed(e) => {
+                r.insert("status".into(), "failed".into());
+                r.insert("error".into(), e.as_str().into());
+                r.insert("cycles_to_settle".into(), Value::Null);
+                r.insert("warm_start".into(), Value::Null);
+                r.insert("metrics".into(), Value::Object(Map::new()));
+            }
+        }
+        Value::Object(r)
+    }
+
+    /// Reads a row back from [`Row::to_value`]'s form, its metrics laid
+    /// out along `columns`.
+    pub fn from_value(v: &Value, columns: &Arc<Vec<String>>) -> Result<Row, StudyError> {
+        let bad = |what: &str| StudyError::Format(format!("row {}: {what}", v["index"]));
+        let index = v["index"]
+            .as_u64()
+            .ok_or_else(|| bad("`index` is not a whole number"))? as usize;
+        let inputs = v["inputs"]
+            .as_array()
+            .ok_or_else(|| bad("`inputs` is not a list"))?
+            .iter()
+            .map(|x| match x {
+                Value::Null => Ok(f64::NAN),
+                x => x.as_f64().ok_or_else(|| bad("an input is not a number")),
+            })
+            .collect::<Result<Box<[f64]>, _>>()?;
+        let label = match &v["label"] {
+            Value::Null => None,
+            Value::String(s) => Some(s.as_str().into()),
+            _ => return Err(bad("`label` is not text")),
+        };
+        let outcome = match v["status"].as_str() {
+            Some("ok") => {
+                let m = v["metrics"]
+                    .as_object()
+                    .ok_or_else(|| bad("`metrics` is not an object"))?;
+                if let Some(k) = m.keys().find(|k| !columns.contains(k)) {
+                    return Err(bad(&format!(
+                        "metric `{k}` is not among the manifest's columns"
+                    )));
+                }
+                let metrics = columns
+                    .iter()
+                    .map(|c| match m.get(c) {
+                        None => Ok(Cell::Empty),
+                        Some(x) => Cell::from_value(x)
+                            .ok_or_else(|| bad(&format!("metric `{c}` is not a plain value"))),
+                    })
+                    .collect::<Result<Box<[Cell]>, _>>()?;
+                RowOutcome::Ran {
+                    cycles_to_settle: v["cycles_to_settle"]
+                        .as_u64()
+                        .ok_or_else(|| bad("`cycles_to_settle` is not a whole number"))?,
+                    warm_start: v["warm_start"]
+                        .as_bool()
+                        .ok_or_else(|| bad("`warm_start` is not true or false"))?,
+                    metrics,
+                }
+            }
+            Some("failed") => RowOutcome::Failed(
+                v["error"]
+                    .as_str()
+                    .ok_or_else(|| bad("a failed row has no `error` text"))?
+                    .to_string(),
+            ),
+            _ => return Err(bad("`status` is neither ok nor failed")),
+        };
+        Ok(Row {
+            index,
+            inputs,
+            label,
+            outcome,
+            columns: Arc::clone(columns),
+        })
+    }
+
+    /// The row's metric cells (empty for a failed point).
+    pub fn cells(&self) -> &[Cell] {
+        match &self.outcome {
+            RowOutcome::Ran { metrics, .. } => metrics,
+            RowOutcome::Failed(_) => &[],
+        }
+    }
+
+    /// The `k`-th metric column's value as a number.
+    pub fn metric_at(&self, k: usize) -> Option<f64> {
+        self.cells().get(k).and_then(Cell::as_f64)
+    }
+
+    /// Cycles run until steady state (None for a failed point).
+    pub fn cycles_to_settle(&self) -> Option<u64> {
+        match &self.outcome {
+            RowOutcome::Ran {
+                cycles_to_settle, ..
+            } => Some(*cycles_to_settle),
+            RowOutcome::Failed(_) => None,
+        }
+    }
+
+    /// Whether the point started warm (None for a failed point).
+    pub fn warm_start(&self) -> Option<bool> {
+        match &self.outcome {
+            RowOutcome::Ran { warm_start, .. } => Some(*warm_start),
+            RowOutcome::Failed(_) => None,
+        }
+    }
+
+    fn cell(&self, name: &str) -> Option<&Cell> {
+        let k = self.columns.iter().position(|c| c == name)?;
+        self.cells().get(k)
+    }
 }
 
 /// A study's manifest and rows.
@@ -174,7 +438,7 @@ pub struct StudyTable {
     /// What the study is.
     pub manifest: Manifest,
     /// One row per point, in index order.
-    pub rows: Vec<Value>,
+    pub rows: Vec<Row>,
 }
 
 /// Reading rows back.
@@ -195,32 +459,33 @@ pub trait RowExt {
     fn label(&self) -> Option<&str>;
 }
 
-impl RowExt for Value {
+impl RowExt for Row {
     fn index(&self) -> usize {
-        self["index"].as_u64().unwrap_or(u64::MAX) as usize
+        self.index
     }
     fn ok(&self) -> bool {
-        self["status"] == "ok"
+        matches!(self.outcome, RowOutcome::Ran { .. })
     }
     fn metric(&self, name: &str) -> Option<f64> {
-        self["metrics"].get(name).and_then(Value::as_f64)
+        self.cell(name).and_then(Cell::as_f64)
     }
     fn mode(&self) -> Option<&str> {
-        self["metrics"]
-            .get("conduction_mode")
-            .and_then(Value::as_str)
+        match self.cell("conduction_mode") {
+            Some(Cell::Text(s)) => Some(s),
+            _ => None,
+        }
     }
     fn input(&self, k: usize) -> f64 {
-        self["inputs"]
-            .get(k)
-            .and_then(Value::as_f64)
-            .unwrap_or(f64::NAN)
+        self.inputs.get(k).copied().unwrap_or(f64::NAN)
     }
     fn error(&self) -> Option<&str> {
-        self["error"].as_str()
+        match &self.outcome {
+            RowOutcome::Failed(e) => Some(e),
+            RowOutcome::Ran { .. } => None,
+        }
     }
     fn label(&self) -> Option<&str> {
-        self["label"].as_str()
+        self.label.as_deref()
     }
 }
 
@@ -251,14 +516,22 @@ impl StudyTable {
 
     /// The table as JSON text: the manifest, then one row per line.
     pub fn to_json_text(&self) -> String {
+        self.json_pieces().collect()
+    }
+
+    /// [`StudyTable::to_json_text`] in pieces (the manifest, then one row
+    /// at a time), so a caller can write a large table without holding
+    /// all its text at once.
+    pub fn json_pieces(&self) -> impl Iterator<Item = String> + '_ {
         let manifest = serde_json::to_string(&self.manifest).unwrap_or_default();
-        let mut s = format!("{{\"manifest\":{manifest},\"rows\":[");
-        for (k, r) in self.rows.iter().enumerate() {
-            s.push_str(if k == 0 { "\n" } else { ",\n" });
-            s.push_str(&r.to_string());
-        }
-        s.push_str("\n]}\n");
-        s
+        let head = format!("{{\"manifest\":{manifest},\"rows\":[");
+        let rows = self.rows.iter().enumerate().map(|(k, r)| {
+            let sep = if k == 0 { "\n" } else { ",\n" };
+            format!("{sep}{}", r.to_value())
+        });
+        std::iter::once(head)
+            .chain(rows)
+            .chain(std::iter::once("\n]}\n".to_string()))
     }
 
     /// The table as CSV: a header naming every column (inputs, then
@@ -266,6 +539,12 @@ impl StudyTable {
     /// are SI, written so they read back exactly; a failed point keeps its
     /// row with empty metrics and its error message.
     pub fn to_csv_text(&self) -> String {
+        self.csv_lines().collect()
+    }
+
+    /// [`StudyTable::to_csv_text`] one line at a time (each with its
+    /// newline).
+    pub fn csv_lines(&self) -> impl Iterator<Item = String> + '_ {
         let m = &self.manifest;
         let labelled = m.kind == StudyKind::Corners;
         let mut head: Vec<String> = vec!["index".into()];
@@ -276,31 +555,38 @@ impl StudyTable {
         head.push("status".into());
         head.extend(m.metric_columns.iter().cloned());
         head.extend(["cycles_to_settle", "warm_start", "error"].map(String::from));
-        let mut s = head
+        let mut head = head
             .iter()
             .map(|h| csv_cell(&Value::from(h.as_str())))
             .collect::<Vec<_>>()
             .join(",");
-        s.push('\n');
-        for r in &self.rows {
-            let mut cells: Vec<String> = vec![r["index"].to_string()];
+        head.push('\n');
+        let rows = self.rows.iter().map(move |r| {
+            let mut cells: Vec<String> = vec![r.index.to_string()];
             for k in 0..m.inputs.len() {
-                cells.push(csv_cell(r["inputs"].get(k).unwrap_or(&Value::Null)));
+                cells.push(csv_cell(&Value::from(r.input(k))));
             }
             if labelled {
-                cells.push(csv_cell(&r["label"]));
+                cells.push(csv_cell(&r.label().map_or(Value::Null, Value::from)));
             }
-            cells.push(csv_cell(&r["status"]));
-            for c in &m.metric_columns {
-                cells.push(csv_cell(r["metrics"].get(c).unwrap_or(&Value::Null)));
+            cells.push(if r.ok() { "ok" } else { "failed" }.into());
+            let row_cells = r.cells();
+            for k in 0..m.metric_columns.len() {
+                cells.push(csv_cell(
+                    &row_cells.get(k).map_or(Value::Null, Cell::to_value),
+                ));
             }
-            for c in ["cycles_to_settle", "warm_start", "error"] {
-                cells.push(csv_cell(&r[c]));
-            }
-            s.push_str(&cells.join(","));
-            s.push('\n');
-        }
-        s
+            cells.push(
+                r.cycles_to_settle()
+                    .map_or(String::new(), |c| c.to_string()),
+            );
+            cells.push(r.warm_start().map_or(String::new(), |w| w.to_string()));
+            cells.push(csv_cell(&r.error().map_or(Value::Null, Value::from)));
+            let mut line = cells.join(",");
+            line.push('\n');
+            line
+        });
+        std::iter::once(head).chain(rows)
     }
 
     /// Reads a table back from [`StudyTable::to_json_text`] output.
@@ -318,10 +604,25 @@ impl StudyTable {
                 f.manifest.format
             )));
         }
+        let columns = Arc::new(f.manifest.metric_columns.clone());
+        let rows = f
+            .rows
+            .iter()
+            .map(|r| Row::from_value(r, &columns))
+            .collect::<Result<Vec<_>, _>>()?;
         Ok(StudyTable {
             manifest: f.manifest,
-            rows: f.rows,
+            rows,
         })
+    }
+
+    /// The rows' shared metric column list (the manifest's), for building
+    /// rows of this table.
+    pub fn columns(&self) -> Arc<Vec<String>> {
+        self.rows
+            .first()
+            .map(|r| Arc::clone(&r.columns))
+            .unwrap_or_else(|| Arc::new(self.manifest.metric_columns.clone()))
     }
 
     /// Joins the shards of one study into the table one run would have
@@ -351,6 +652,16 @@ impl StudyTable {
             };
             if info.shard.index != k + 1 || info.shard.count != n {
                 return err(format!("shard {}/{} is missing or given twice", k + 1, n));
+            }
+            if let Some(inc) = &t.manifest.incomplete {
+                return err(format!(
+                    "shard {}/{n} stopped before it finished ({}: {} of {} points ran); \
+                     run it again with --resume",
+                    k + 1,
+                    inc.reason,
+                    inc.ran,
+                    inc.of
+                ));
             }
             let mut m = t.manifest.clone();
             m.shard = None;
@@ -400,6 +711,32 @@ mod tests {
             let back: f64 = csv_cell(&Value::from(x)).parse().unwrap();
             assert_eq!(back.to_bits(), x.to_bits());
         }
+    }
+
+    #[test]
+    fn rows_read_back_write_the_same_text() {
+        let columns = Arc::new(vec![
+            "conduction_mode".to_string(),
+            "cycles_measured".to_string(),
+            "duty".to_string(),
+            "ripple".to_string(),
+        ]);
+        let text = r#"{"cycles_to_settle":12,"error":null,"index":3,"inputs":[9.0,0.00001],"label":null,"metrics":{"conduction_mode":"dcm","cycles_measured":8,"duty":0.30000000000000004,"ripple":null},"status":"ok","warm_start":true}"#;
+        let v: Value = serde_json::from_str(text).unwrap();
+        let r = Row::from_value(&v, &columns).unwrap();
+        assert_eq!(r.to_value().to_string(), text);
+        assert_eq!(r.mode(), Some("dcm"));
+        assert_eq!(r.metric("cycles_measured"), Some(8.0));
+        assert_eq!(r.metric("ripple"), None);
+        let failed = r#"{"cycles_to_settle":null,"error":"no, \"quoted\"","index":0,"inputs":[null],"label":"a low","metrics":{},"status":"failed","warm_start":null}"#;
+        let v: Value = serde_json::from_str(failed).unwrap();
+        let r = Row::from_value(&v, &columns).unwrap();
+        assert_eq!(r.to_value().to_string(), failed);
+        assert!(r.input(0).is_nan());
+        // A metric the manifest does not list is refused, naming it.
+        let odd: Value = serde_json::from_str(&text.replace("\"duty\"", "\"dutty\"")).unwrap();
+        let e = Row::from_value(&odd, &columns).unwrap_err();
+        assert!(e.to_string().contains("dutty"), "{e}");
     }
 
     #[test]

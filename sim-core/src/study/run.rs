@@ -9,14 +9,23 @@
 //! warm-started point that fails is retried from the chain's own start.
 //!
 //! Each [`crate::SimResult`] is dropped as soon as its summary is taken,
-//! so memory grows only by one small [`PointOutcome`] per point.
+//! and the summary as soon as its compact [`Row`] is made, so memory grows
+//! by one row per point. Finished rows can be streamed to the caller as
+//! they come ([`Hooks::on_finish`]), an interrupted study resumed from
+//! the rows it kept ([`Hooks::resume`]), and a wall-clock deadline stops
+//! new points from starting ([`RunSettings::deadline`]).
 
+use super::rows::Row;
 use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
 use crate::scenario::Scenario;
 use crate::simulate::{simulate, EngineKind, RunOptions};
 use rayon::prelude::*;
+use std::collections::BTreeMap;
 use std::ops::Range;
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Arc;
+use std::time::Instant;
 
 /// How points are run.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -30,6 +39,8 @@ pub struct RunSettings {
     pub initial_state: Option<[f64; N_STATES]>,
     /// Points per chain (1: every point starts from `initial_state`).
     pub chain_len: usize,
+    /// Wall-clock time after which no new point starts (None: no limit).
+    pub deadline: Option<Instant>,
 }
 
 impl Default for RunSettings {
@@ -39,6 +50,7 @@ impl Default for RunSettings {
             warm_start: true,
             initial_state: None,
             chain_len: DEFAULT_CHAIN_LEN,
+            deadline: None,
         }
     }
 }
@@ -78,13 +90,18 @@ pub struct PointResult {
 }
 
 fn run_one(s: &Scenario, engine: EngineKind, start: Option<[f64; N_STATES]>) -> PointOutcome {
-    let r = simulate(
-        s,
-        &RunOptions {
-            engine,
-            initial_state: start,
-        },
-    )
+    // A bug in one point (a panic) becomes that point's failed row, not
+    // the loss of the whole study.
+    let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        simulate(
+            s,
+            &RunOptions {
+                engine,
+                initial_state: start,
+            },
+        )
+    }))
+    .map_err(|_| "internal error while running this point (please report it)".to_string())?
     .map_err(|e| e.to_string())?;
     Ok(PointSummary {
         metrics: r.metrics,
@@ -96,60 +113,173 @@ fn run_one(s: &Scenario, engine: EngineKind, start: Option<[f64; N_STATES]>) -> 
     // `r` (with its waveforms) is dropped here.
 }
 
-/// Runs the points `range` of a study. `make(k)` gives point `k`'s input
-/// values and scenario (or why it has none); `done()` is called after
-/// each point, from any thread. Results come back in index order.
+/// What a study needs to make point `k`: its input values, its label (if
+/// rows are labelled) and its scenario (or why it has none).
+#[derive(Debug, Clone)]
+pub struct PointInput {
+    /// The values of the study's inputs at this point.
+    pub inputs: Vec<f64>,
+    /// The row's label (corners), if any.
+    pub label: Option<String>,
+    /// The scenario, or why the point has none.
+    pub scenario: Result<Scenario, String>,
+}
+
+/// A finished point as a study streams it: its row and, for a point that
+/// ran, the state at its first measured turn-on (what a warm start of the
+/// next point in its chain begins from).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Finished {
+    /// The point's row.
+    pub row: Row,
+    /// Its steady state at turn-on (None for a failed point).
+    pub state_at_turn_on: Option<[f64; N_STATES]>,
+}
+
+/// Called with each point as it finishes, from any worker thread, in
+/// finish order (not index order).
+pub type RowSink<'a> = &'a (dyn Fn(&Finished) + Sync);
+
+/// What a study does besides computing: stream finished rows to a caller
+/// and take over points an earlier, interrupted run already finished.
+#[derive(Default, Clone, Copy)]
+pub struct Hooks<'a> {
+    /// Receives every point run now, as it finishes (not the resumed ones).
+    pub on_finish: Option<RowSink<'a>>,
+    /// Points already finished, by index: they are not run again, and a
+    /// resumed point's state continues its warm-start chain exactly as if
+    /// it had just run, so the rows are the same as one uninterrupted run.
+    pub resume: Option<&'a BTreeMap<usize, Finished>>,
+}
+
+impl std::fmt::Debug for Hooks<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Hooks")
+            .field("on_finish", &self.on_finish.is_some())
+            .field("resume", &self.resume.map(BTreeMap::len))
+            .finish()
+    }
+}
+
+/// Rows of a run, in index order, and whether it stopped at the
+/// deadline before every point of its range had run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RunRows {
+    /// Finished rows (resumed ones included), in index order.
+    pub rows: Vec<Row>,
+    /// Whether [`RunSettings::deadline`] passed with points left unstarted.
+    pub stopped: bool,
+}
+
+/// Runs the points `range` of a study. `make(k)` gives point `k`'s inputs,
+/// label and scenario; rows are laid out along `columns`. Each finished
+/// point goes to `hooks.on_finish` at once; points in `hooks.resume` are
+/// taken as they are. Once `settings.deadline` has passed, no new point
+/// starts (points already running finish). Rows come back in index order.
 pub fn run_points<F>(
     range: Range<usize>,
     settings: &RunSettings,
+    columns: &Arc<Vec<String>>,
     make: F,
-    done: &(dyn Fn() + Sync),
-) -> Vec<PointResult>
+    hooks: &Hooks<'_>,
+) -> RunRows
 where
-    F: Fn(usize) -> (Vec<f64>, Result<Scenario, String>) + Sync,
+    F: Fn(usize) -> PointInput + Sync,
 {
-    let chain = settings.chain_len.max(1);
+    // Cold points do not depend on their neighbours: scheduled one by one
+    // (the same rows), so two threads do not wait on a last long chain.
+    let chain = if settings.warm_start {
+        settings.chain_len.max(1)
+    } else {
+        1
+    };
     let first_chain = range.start / chain;
     let last_chain = range.end.div_ceil(chain);
-    let chains: Vec<Vec<PointResult>> = (first_chain..last_chain)
-        .into_par_iter()
-        .map(|c| {
-            let lo = (c * chain).max(range.start);
-            let hi = ((c + 1) * chain).min(range.end);
-            let mut out = Vec::with_capacity(hi - lo);
-            let mut prev: Option<[f64; N_STATES]> = None;
-            for k in lo..hi {
-                let (inputs, scenario) = make(k);
-                let outcome = match scenario {
-                    Err(e) => Err(e),
-                    Ok(s) => {
-                        let warm = if settings.warm_start { prev } else { None };
-                        match warm {
-                            Some(x) => match run_one(&s, settings.engine, Some(x)) {
-                                Ok(mut p) => {
-                                    p.warm_start = true;
-                                    Ok(p)
-                                }
-                                Err(_) => run_one(&s, settings.engine, settings.initial_state),
-                            },
-                            None => run_one(&s, settings.engine, settings.initial_state),
-                        }
-                    }
-                };
-                if let Ok(p) = &outcome {
-                    prev = Some(p.state_at_turn_on);
+    let past_deadline = || settings.deadline.is_some_and(|d| Instant::now() >= d);
+    let run_chain = |c: usize| -> (Vec<Row>, bool) {
+        let lo = (c * chain).max(range.start);
+        let hi = ((c + 1) * chain).min(range.end);
+        let mut out = Vec::with_capacity(hi - lo);
+        let mut prev: Option<[f64; N_STATES]> = None;
+        for k in lo..hi {
+            if let Some(f) = hooks.resume.and_then(|r| r.get(&k)) {
+                if f.state_at_turn_on.is_some() {
+                    prev = f.state_at_turn_on;
                 }
-                out.push(PointResult {
-                    index: k,
-                    inputs,
-                    outcome,
-                });
-                done();
+                out.push(f.row.clone());
+                continue;
             }
-            out
+            if past_deadline() {
+                return (out, true);
+            }
+            let p = make(k);
+            let outcome = match p.scenario {
+                Err(e) => Err(e),
+                Ok(s) => {
+                    let warm = if settings.warm_start { prev } else { None };
+                    match warm {
+                        Some(x) => match run_one(&s, settings.engine, Some(x)) {
+                            Ok(mut p) => {
+                                p.warm_start = true;
+                                Ok(p)
+                            }
+                            Err(_) => run_one(&s, settings.engine, settings.initial_state),
+                        },
+                        None => run_one(&s, settings.engine, settings.initial_state),
+                    }
+                }
+            };
+            let state = outcome.as_ref().ok().map(|p| p.state_at_turn_on);
+            if state.is_some() {
+                prev = state;
+            }
+            let result = PointResult {
+                index: k,
+                inputs: p.inputs,
+                outcome,
+            };
+            let row = Row::from_point(&result, p.label.as_deref(), columns);
+            if let Some(sink) = hooks.on_finish {
+                let f = Finished {
+                    row,
+                    state_at_turn_on: state,
+                };
+                sink(&f);
+                out.push(f.row);
+            } else {
+                out.push(row);
+            }
+        }
+        (out, false)
+    };
+    // One job per worker thread, each taking the next chain from a shared
+    // counter until none is left: chains are handed out one at a time as
+    // threads become free (points differ in cost, e.g. along a supply
+    // sweep), with no task per chain to split, steal or wake a thread for;
+    // a worker that starts late simply finds fewer chains left.
+    let next = AtomicUsize::new(first_chain);
+    let workers = rayon::current_num_threads()
+        .min(last_chain.saturating_sub(first_chain))
+        .max(1);
+    let mut chains: Vec<(usize, (Vec<Row>, bool))> = (0..workers)
+        .into_par_iter()
+        .flat_map_iter(|_| {
+            let mut mine = Vec::new();
+            loop {
+                let c = next.fetch_add(1, Ordering::Relaxed);
+                if c >= last_chain {
+                    break mine;
+                }
+                mine.push((c, run_chain(c)));
+            }
         })
         .collect();
-    chains.into_iter().flatten().collect()
+    chains.sort_unstable_by_key(|c| c.0);
+    let stopped = chains.iter().any(|c| c.1 .1);
+    RunRows {
+        rows: chains.into_iter().flat_map(|c| c.1 .0).collect(),
+        stopped,
+    }
 }
 
 /// A `K/N` shard: the K-th (1-based) of N slices of a study.

@@ -16,9 +16,9 @@
 //! both extremes. [`summarize`] gives percentiles of every metric and the
 //! yield against the limits, from the rows alone.
 
-use super::rows::{row_value, RowExt, ShardInfo, StudyKind, StudyTable};
-use super::run::{run_points, RunSettings, Shard};
-use super::sweep::base_manifest;
+use super::rows::{Incomplete, Manifest, Row, RowExt, ShardInfo, StudyKind, StudyTable};
+use super::run::{Hooks, PointInput, RunSettings, Shard};
+use super::sweep::{base_manifest, run_table};
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::error::FieldProblem;
 use crate::scenario::de_quantity;
@@ -124,7 +124,7 @@ pub struct SpecLimits {
 }
 
 /// A pass/fail test of one row.
-pub type RowTest<'a> = Box<dyn Fn(&serde_json::Value) -> bool + 'a>;
+pub type RowTest<'a> = Box<dyn Fn(&Row) -> bool + 'a>;
 
 impl SpecLimits {
     /// Whether any limit is set.
@@ -650,7 +650,7 @@ fn table(
     limits: SpecLimits,
     settings: &RunSettings,
     shard: Option<Shard>,
-) -> (StudyTable, std::ops::Range<usize>) {
+) -> Manifest {
     let mut m = base_manifest(
         s,
         kind,
@@ -670,36 +670,28 @@ fn table(
             }
         }
     }
-    let range = shard.map_or(0..points, |sh| sh.range(points, 1));
     if let Some(sh) = shard {
+        let range = sh.range(points, 1);
         m.shard = Some(ShardInfo {
             shard: sh,
             first: range.start,
             end: range.end,
         });
     }
-    (
-        StudyTable {
-            manifest: m,
-            rows: vec![],
-        },
-        range,
-    )
+    m
 }
 
-/// Runs a Monte Carlo spread study (or one shard of it). `limits` are the
-/// spec limits to judge (usually the scenario's `spec` with command-line
-/// changes); an unset target current becomes the nominal's average.
-pub fn spread(
+/// Everything a spread needs before its samples run: the toleranced
+/// inputs, the run settings (warm start from the nominal) and the manifest.
+fn spread_setup(
     s: &Scenario,
     limits: &SpecLimits,
     settings: &SpreadSettings,
     shard: Option<Shard>,
-    done: &(dyn Fn() + Sync),
-) -> Result<StudyTable, StudyError> {
+) -> Result<(Vec<Param>, RunSettings, Manifest), StudyError> {
     let params = params(s)?;
     let (limits, run) = nominal(s, limits, &settings.run)?;
-    let (mut t, range) = table(
+    let mut m = table(
         s,
         StudyKind::Spread,
         &params,
@@ -708,35 +700,60 @@ pub fn spread(
         &run,
         shard,
     );
-    t.manifest.seed = Some(settings.seed);
-    t.manifest.warm_start = settings.run.warm_start;
+    m.seed = Some(settings.seed);
+    m.warm_start = settings.run.warm_start;
+    Ok((params, run, m))
+}
+
+/// The manifest [`spread`] will write, known before any sample runs (it
+/// runs the nominal design, which resolves the target current).
+pub fn spread_manifest(
+    s: &Scenario,
+    limits: &SpecLimits,
+    settings: &SpreadSettings,
+    shard: Option<Shard>,
+) -> Result<Manifest, StudyError> {
+    spread_setup(s, limits, settings, shard).map(|x| x.2)
+}
+
+/// Runs a Monte Carlo spread study (or one shard of it), streaming rows
+/// through `hooks`. `limits` are the spec limits to judge (usually the
+/// scenario's `spec` with command-line changes); an unset target current
+/// becomes the nominal's average.
+pub fn spread(
+    s: &Scenario,
+    limits: &SpecLimits,
+    settings: &SpreadSettings,
+    shard: Option<Shard>,
+    hooks: &Hooks<'_>,
+) -> Result<StudyTable, StudyError> {
+    let (params, run, manifest) = spread_setup(s, limits, settings, shard)?;
     let base = scenario_json(s);
-    let results = run_points(
-        range,
+    Ok(run_table(
+        manifest,
         &run,
         |k| {
             let x = sample_inputs(&params, settings.seed, k);
-            let sc = scenario_at(&base, &params, &x);
-            (x, sc)
+            let scenario = scenario_at(&base, &params, &x);
+            PointInput {
+                inputs: x,
+                label: None,
+                scenario,
+            }
         },
-        done,
-    );
-    t.rows = results.iter().map(|p| row_value(p, None)).collect();
-    Ok(t)
+        hooks,
+    ))
 }
 
 /// Most toleranced inputs for a corners study (2ⁿ runs).
 pub const MAX_CORNER_INPUTS: usize = 12;
 
-/// Runs every corner: each toleranced input at its low or high extreme
-/// (corner `k` has input `j` high when bit `j` of `k` is set).
-pub fn corners(
+fn corners_setup(
     s: &Scenario,
     limits: &SpecLimits,
     run: &RunSettings,
     shard: Option<Shard>,
-    done: &(dyn Fn() + Sync),
-) -> Result<StudyTable, StudyError> {
+) -> Result<(Vec<Param>, RunSettings, Manifest), StudyError> {
     let params = params(s)?;
     if params.len() > MAX_CORNER_INPUTS {
         return Err(StudyError::Scenario {
@@ -751,11 +768,35 @@ pub fn corners(
     }
     let (limits, settings) = nominal(s, limits, run)?;
     let n = 1usize << params.len();
-    let (mut t, range) = table(s, StudyKind::Corners, &params, n, limits, &settings, shard);
-    t.manifest.warm_start = run.warm_start;
+    let mut m = table(s, StudyKind::Corners, &params, n, limits, &settings, shard);
+    m.warm_start = run.warm_start;
+    Ok((params, settings, m))
+}
+
+/// The manifest [`corners`] will write, known before any corner runs.
+pub fn corners_manifest(
+    s: &Scenario,
+    limits: &SpecLimits,
+    run: &RunSettings,
+    shard: Option<Shard>,
+) -> Result<Manifest, StudyError> {
+    corners_setup(s, limits, run, shard).map(|x| x.2)
+}
+
+/// Runs every corner: each toleranced input at its low or high extreme
+/// (corner `k` has input `j` high when bit `j` of `k` is set), streaming
+/// rows through `hooks`.
+pub fn corners(
+    s: &Scenario,
+    limits: &SpecLimits,
+    run: &RunSettings,
+    shard: Option<Shard>,
+    hooks: &Hooks<'_>,
+) -> Result<StudyTable, StudyError> {
+    let (params, settings, manifest) = corners_setup(s, limits, run, shard)?;
     let base = scenario_json(s);
-    let results = run_points(
-        range,
+    Ok(run_table(
+        manifest,
         &settings,
         |k| {
             let x: Vec<f64> = params
@@ -763,16 +804,15 @@ pub fn corners(
                 .enumerate()
                 .map(|(j, p)| p.extreme(k >> j & 1 == 1))
                 .collect();
-            let sc = scenario_at(&base, &params, &x);
-            (x, sc)
+            let scenario = scenario_at(&base, &params, &x);
+            PointInput {
+                inputs: x,
+                label: Some(corner_label(&params, k)),
+                scenario,
+            }
         },
-        done,
-    );
-    t.rows = results
-        .iter()
-        .map(|p| row_value(p, Some(&corner_label(&params, p.index))))
-        .collect();
-    Ok(t)
+        hooks,
+    ))
 }
 
 /// A corner in words: `inductor.inductance_h low, supply.voltage_v high`.
@@ -862,9 +902,13 @@ pub struct SpreadSummary {
     /// inference, the law of succession, and statistical inference",
     /// JASA 22, 1927).
     pub yield_interval_95: Option<(f64, f64)>,
+    /// Set when the study stopped before every point ran: why, and how
+    /// many ran of how many (absent otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub incomplete: Option<Incomplete>,
 }
 
-fn who(r: &serde_json::Value) -> String {
+fn who(r: &Row) -> String {
     r.label()
         .map_or_else(|| format!("sample {}", r.index()), str::to_string)
 }
@@ -886,12 +930,12 @@ pub fn wilson(k: usize, n: usize, z: f64) -> (f64, f64) {
 /// limits, from the rows alone (so merged shards summarize identically).
 pub fn summarize(t: &StudyTable) -> SpreadSummary {
     let mut metrics = Vec::new();
-    for name in &t.manifest.metric_columns {
+    for (col, name) in t.manifest.metric_columns.iter().enumerate() {
         let mut v: Vec<(f64, usize)> = t
             .rows
             .iter()
             .enumerate()
-            .filter_map(|(k, r)| r.metric(name).filter(|x| x.is_finite()).map(|x| (x, k)))
+            .filter_map(|(k, r)| r.metric_at(col).filter(|x| x.is_finite()).map(|x| (x, k)))
             .collect();
         if v.is_empty() {
             continue;
@@ -937,12 +981,13 @@ pub fn summarize(t: &StudyTable) -> SpreadSummary {
         pass,
         yield_fraction: pass.map(|p| if n == 0 { 0.0 } else { p as f64 / n as f64 }),
         yield_interval_95: pass.map(|p| wilson(p, n, 1.959_964)),
+        incomplete: t.manifest.incomplete.clone(),
     }
 }
 
 /// The row furthest on the wrong side of a limit.
 fn worst_for(t: &StudyTable, label: &str, l: &SpecLimits) -> Option<String> {
-    let score = |r: &serde_json::Value| -> Option<f64> {
+    let score = |r: &Row| -> Option<f64> {
         if label.starts_with("LED current") {
             let target = l.target_current_a?;
             r.metric("led_current_avg_a").map(|i| (i - target).abs())

@@ -2,13 +2,15 @@
 //! parallel, one row per point.
 
 use super::rows::{
-    digest, metric_columns, row_value, Manifest, ShardInfo, StudyKind, StudyTable, STUDY_FORMAT,
+    digest, metric_columns, Incomplete, Manifest, ShardInfo, StudyKind, StudyTable, STUDY_FORMAT,
 };
-use super::run::{run_points, RunSettings, Shard};
+use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
 use super::vary::Grid;
 use super::{scenario_json, scenario_with};
 use crate::scenario::Scenario;
 use crate::simulate::EngineKind;
+use std::ops::Range;
+use std::sync::Arc;
 
 /// The manifest fields every study shares.
 pub(crate) fn base_manifest(
@@ -41,17 +43,18 @@ pub(crate) fn base_manifest(
         max_supply_v: s.supply.voltage_v,
         metric_columns: metric_columns(),
         shard: None,
+        incomplete: None,
     }
 }
 
-/// Runs a sweep (or one shard of it). `done()` is called after each point.
-pub fn sweep(
+/// The manifest of a sweep (or one shard of it), as [`sweep`] writes it,
+/// known before any point runs (e.g. to head a journal of its rows).
+pub fn sweep_manifest(
     s: &Scenario,
     grid: &Grid,
     settings: &RunSettings,
     shard: Option<Shard>,
-    done: &(dyn Fn() + Sync),
-) -> StudyTable {
+) -> Manifest {
     let n = grid.len();
     let mut manifest = base_manifest(
         s,
@@ -69,30 +72,72 @@ pub fn sweep(
             .copied()
             .fold(manifest.max_supply_v, f64::max);
     }
-    let range = shard.map_or(0..n, |sh| sh.range(n, manifest.chain_len));
     if let Some(sh) = shard {
+        let range = sh.range(n, manifest.chain_len);
         manifest.shard = Some(ShardInfo {
             shard: sh,
             first: range.start,
             end: range.end,
         });
     }
+    manifest
+}
+
+/// The point indices a manifest's table covers (its shard, or all).
+pub fn point_range(m: &Manifest) -> Range<usize> {
+    m.shard.map_or(0..m.points, |i| i.first..i.end)
+}
+
+/// Runs the points of `manifest`'s range (`make(k)` gives point `k`)
+/// and makes its table, marked incomplete when the run stopped at its
+/// deadline.
+pub(crate) fn run_table<F>(
+    mut manifest: Manifest,
+    settings: &RunSettings,
+    make: F,
+    hooks: &Hooks<'_>,
+) -> StudyTable
+where
+    F: Fn(usize) -> PointInput + Sync,
+{
+    let columns = Arc::new(manifest.metric_columns.clone());
+    let range = point_range(&manifest);
+    let of = range.len();
+    let run = run_points(range, settings, &columns, make, hooks);
+    if run.stopped || run.rows.len() < of {
+        manifest.incomplete = Some(Incomplete {
+            reason: "time limit reached".into(),
+            ran: run.rows.len(),
+            of,
+        });
+    }
+    StudyTable {
+        manifest,
+        rows: run.rows,
+    }
+}
+
+/// Runs a sweep (or one shard of it), streaming rows through `hooks`.
+pub fn sweep(
+    s: &Scenario,
+    grid: &Grid,
+    settings: &RunSettings,
+    shard: Option<Shard>,
+    hooks: &Hooks<'_>,
+) -> StudyTable {
+    let manifest = sweep_manifest(s, grid, settings, shard);
     let base = scenario_json(s);
-    let results = run_points(
-        range,
+    run_table(
+        manifest,
         settings,
         |k| {
             let sets = grid.point(k);
-            let inputs = sets.iter().map(|(_, v)| *v).collect();
-            (
-                inputs,
-                scenario_with(&base, &sets).map_err(|e| format!("invalid point: {e}")),
-            )
+            PointInput {
+                inputs: sets.iter().map(|(_, v)| *v).collect(),
+                label: None,
+                scenario: scenario_with(&base, &sets).map_err(|e| format!("invalid point: {e}")),
+            }
         },
-        done,
-    );
-    StudyTable {
-        manifest,
-        rows: results.iter().map(|p| row_value(p, None)).collect(),
-    }
+        hooks,
+    )
 }
