@@ -572,7 +572,7 @@ fn points_that_hit_the_scenario_caps_become_failed_rows() {
     let d = scratch("caps");
     for (set, says) in [
         ("simulation.max_cycles=3", "no steady state after 3 cycles"),
-        ("simulation.max_time_s=20u", "simulated time limit"),
+        ("simulation.max_time_s=2u", "simulated time limit"),
     ] {
         let o = run(&[
             "sweep",
