@@ -11,7 +11,8 @@
 //! nothing: all matrices are fixed-size and live on the stack.
 
 use crate::circuit::{
-    Aug, Circuit, Linear, Region, Row, Signal, N_STATES, X_IL, X_ONE, X_VCIN, X_VCO,
+    Aug, AugMatrix, Circuit, Linear, Region, Row, Signal, N_AUG, N_STATES, X_IL, X_ONE, X_VCIN,
+    X_VCO,
 };
 use crate::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
@@ -89,6 +90,9 @@ pub struct ExactEngine {
     cmd: Command,
     region: Region,
     switch_changed_t: f64,
+    /// The controller set its deadline at the end of the last interval,
+    /// so the coming interval starts with the timer.
+    timer_just_set: bool,
     max_interval_s: f64,
     max_step_s: f64,
     curve_segments: usize,
@@ -146,6 +150,7 @@ impl ExactEngine {
             cmd,
             region,
             switch_changed_t: 0.0,
+            timer_just_set: true,
             max_interval_s: s.simulation.max_interval_s,
             max_step_s,
             curve_segments: s.simulation.curve_segments as usize,
@@ -180,6 +185,7 @@ impl ExactEngine {
     pub fn restart_at_turn_on(&mut self, x: [f64; N_STATES]) {
         self.cmd = self.controller.start(self.t);
         self.switch_changed_t = self.t;
+        self.timer_just_set = true;
         self.chatter = ChatterGuard::default();
         self.led_range = (f64::INFINITY, f64::NEG_INFINITY);
         self.diode_range = (f64::INFINITY, f64::NEG_INFINITY);
@@ -350,9 +356,49 @@ impl ExactEngine {
         rec: Option<&mut Recorder>,
     ) -> Result<bool, SimError> {
         let region = self.region;
+        let to_deadline = self.cmd.deadline_s - self.t;
+        // A timer-ended interval that starts where its timer was set lasts
+        // the timer's length (to rounding of the absolute times): its
+        // transition matrix is kept with the region and reused, so the
+        // interval is one affine update when no event cuts it short.
+        let mut timer = None;
+        if to_deadline > 0.0 && to_deadline.is_finite() && self.timer_just_set {
+            // Within the rounding of the absolute times themselves: the
+            // reused matrix then errs by no more than that rounding does.
+            let slack = 2.0 * f64::EPSILON * (self.t.abs() + self.cmd.deadline_s.abs());
+            let known = set
+                .timers
+                .iter()
+                .position(|k| matches!(k, Some((t, _)) if (t - to_deadline).abs() <= slack));
+            let k = match known {
+                Some(k) => k,
+                None => {
+                    let full = Flow {
+                        m: &lin.m,
+                        spectral,
+                        timer: None,
+                    };
+                    let mut phi = AugMatrix::zeros();
+                    for c in 0..N_AUG {
+                        let mut e = Aug::zeros();
+                        e[c] = 1.0;
+                        phi.set_column(c, &full.advance(to_deadline, &e, &mut self.work));
+                    }
+                    let k = set.timer_next;
+                    set.timers[k] = Some((to_deadline, phi));
+                    set.timer_next = (k + 1) % TIMERS_PER_REGION;
+                    k
+                }
+            };
+            timer = Some(k);
+        }
         let flow = Flow {
             m: &lin.m,
             spectral,
+            timer: match timer.and_then(|k| set.timers[k].as_ref()) {
+                Some((_, phi)) => Some((to_deadline, phi)),
+                None => None,
+            },
         };
         let z0 = aug(&self.x);
         // The region's own events (cached), behind the controller's
@@ -401,7 +447,6 @@ impl ExactEngine {
             let tol = 1e-12 * ev.magnitude(&z0);
             h > tol || (h > -tol && rising)
         });
-        let to_deadline = self.cmd.deadline_s - self.t;
         let (dt, z1, fired) = if let Some(j) = due {
             (0.0, z0, Some(j))
         } else if to_deadline <= 0.0 {
@@ -487,6 +532,7 @@ impl ExactEngine {
             }
         }
 
+        self.timer_just_set = false;
         let act = fired.map(|j| acts[j + first]).unwrap_or(Action::Controller);
         let mut turned_on = false;
         match act {
@@ -506,6 +552,9 @@ impl ExactEngine {
                 turned_on = new.switch_on && !self.cmd.switch_on;
                 let changed = new.switch_on != self.cmd.switch_on;
                 self.cmd = new;
+                if new.deadline_s.is_finite() {
+                    self.timer_just_set = true;
+                }
                 if changed {
                     self.switch_changed_t = self.t;
                     let pre = lin.signals * aug(&self.x);
@@ -739,7 +788,15 @@ struct EventSet {
     n: usize,
     /// `i_L` rising through zero.
     il_event: EventFn,
+    /// `(t, e^{M t})` for the last few timer lengths spent in this region
+    /// (a fixed off-time, delay or blanking time: one region can see
+    /// several), replaced oldest first.
+    timers: [Option<(f64, AugMatrix)>; TIMERS_PER_REGION],
+    timer_next: usize,
 }
+
+/// Timer lengths remembered per region.
+const TIMERS_PER_REGION: usize = 3;
 
 fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> EventSet {
     let one = {
@@ -840,6 +897,8 @@ fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> EventSet {
         acts,
         n,
         il_event: EventFn::new(il_row, &lin.m),
+        timers: [None; TIMERS_PER_REGION],
+        timer_next: 0,
     }
 }
 

@@ -30,6 +30,8 @@ pub struct WorkCounts {
     pub exponentials: u64,
     /// Gramian evaluations (8x8 block exponentials).
     pub gramians: u64,
+    /// Timer-length intervals done as one precomputed affine update.
+    pub timer_updates: u64,
 }
 
 /// `e^{M t}`.
@@ -47,12 +49,23 @@ pub struct Flow<'a> {
     pub m: &'a AugMatrix,
     /// Its eigen-decomposition, if well conditioned.
     pub spectral: Option<&'a Spectral>,
+    /// A precomputed `(t, e^{M t})` for the interval's full length when a
+    /// timer ends it: advancing by exactly that `t` is one matrix-vector
+    /// product.
+    pub timer: Option<(f64, &'a AugMatrix)>,
 }
 
 impl Flow<'_> {
     /// `e^{M t} z`.
     #[inline]
     pub fn advance(&self, t: f64, z: &Aug, work: &mut WorkCounts) -> Aug {
+        if let Some((t_full, phi)) = self.timer {
+            // Exactly the full length (the scan's last step lands on it).
+            if t.to_bits() == t_full.to_bits() {
+                work.timer_updates += 1;
+                return phi * z;
+            }
+        }
         match self.spectral {
             Some(s) => {
                 work.exponentials += 1;
@@ -561,6 +574,7 @@ mod tests {
         let ev = EventFn::new(row, &m);
         let mut work = WorkCounts::default();
         let flow = Flow {
+            timer: None,
             m: &m,
             spectral: None,
         };
@@ -587,6 +601,7 @@ mod tests {
         let ev = EventFn::new(row, &m);
         let mut work = WorkCounts::default();
         let flow = Flow {
+            timer: None,
             m: &m,
             spectral: None,
         };
