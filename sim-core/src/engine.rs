@@ -118,9 +118,10 @@ pub struct ExactEngine {
     /// from the bulky entries so the lookup scans one small array.
     cache_keys: [Option<(Region, u64)>; CACHE_SIZE],
     cache_next: usize,
-    /// The slot the previous interval used (the next region is often the
-    /// one after it).
+    /// The slot the previous interval used.
     cache_last: usize,
+    /// For each slot, the slot used after it last time.
+    cache_successor: [usize; CACHE_SIZE],
     sens: Option<Sensitivity>,
 }
 
@@ -168,6 +169,7 @@ impl ExactEngine {
             cache_keys: [None; CACHE_SIZE],
             cache_next: 0,
             cache_last: 0,
+            cache_successor: [0; CACHE_SIZE],
             sens: None,
         }
     }
@@ -294,9 +296,9 @@ impl ExactEngine {
     /// filling it if needed.
     fn model_slot(&mut self, region: Region) -> usize {
         let key = Some((region, self.refits));
-        // The slot after the last one used holds the next region of a
-        // cycle seen before (slots fill in the order regions are met).
-        let next = (self.cache_last + 1) % CACHE_SIZE;
+        // In a periodic orbit each region is followed by the same one: try
+        // the slot that followed the last one used before scanning.
+        let next = self.cache_successor[self.cache_last];
         let k = if self.cache_keys[next] == key {
             next
         } else if let Some(k) = self.cache_keys.iter().position(|k| *k == key) {
@@ -315,6 +317,7 @@ impl ExactEngine {
             self.cache_next = (self.cache_next + 1) % CACHE_SIZE;
             k
         };
+        self.cache_successor[self.cache_last] = k;
         self.cache_last = k;
         k
     }
