@@ -996,6 +996,20 @@ impl Scenario {
         Scenario::from_text(&serde_json::to_string_pretty(&value).unwrap_or_default())
     }
 
+    /// Reads and validates a scenario already parsed as JSON (a study's
+    /// point: the base scenario with values set). Goes straight from the
+    /// value; only a value that fails is re-read as text, so its message
+    /// is exactly the one the same file would give.
+    pub fn from_json_value(value: &serde_json::Value) -> Result<Scenario, ScenarioError> {
+        match Scenario::deserialize(value) {
+            Ok(s) => {
+                s.validate()?;
+                Ok(s)
+            }
+            Err(_) => Scenario::from_text(&value.to_string()),
+        }
+    }
+
     fn from_text(text: &str) -> Result<Scenario, ScenarioError> {
         // serde_path_to_error adds the field path to line and column.
         let de = &mut serde_json::Deserializer::from_str(text);
@@ -1800,6 +1814,28 @@ pub fn template_with_parts() -> Scenario {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Reading from a parsed value gives the same scenario as reading the
+    /// text, and the same message for a bad value or an unknown field.
+    #[test]
+    fn from_json_value_agrees_with_text() {
+        let good = serde_json::to_value(template()).unwrap();
+        assert_eq!(
+            Scenario::from_json_value(&good).unwrap(),
+            Scenario::from_json_str(&good.to_string()).unwrap()
+        );
+        let mut bad_value = good.clone();
+        apply_override(&mut bad_value, "inductor.inductance_h", "-1u").unwrap();
+        let mut unknown = good.clone();
+        unknown["inductor"]["inductanse_h"] = serde_json::json!(1e-5);
+        for v in [bad_value, unknown] {
+            let a = Scenario::from_json_value(&v).unwrap_err().to_string();
+            let b = Scenario::from_json_str(&v.to_string())
+                .unwrap_err()
+                .to_string();
+            assert_eq!(a, b);
+        }
+    }
 
     #[test]
     fn template_with_parts_round_trips_and_validates() {

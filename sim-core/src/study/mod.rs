@@ -106,7 +106,7 @@ pub fn scenario_with(
     for (path, x) in sets {
         apply_override(&mut v, path, &exact_text(*x))?;
     }
-    Scenario::from_json_str(&v.to_string())
+    Scenario::from_json_value(&v)
 }
 
 /// The numeric value at a dotted path of a scenario held as JSON, or why
