@@ -1,6 +1,8 @@
 //! Study benchmark (plain main, `harness = false`): a 200-point
 //! input-voltage sweep of the bundled cabin-light scenario on one and two
-//! threads, cold and warm, and a 10,000-sample spread; wall times, points
+//! threads — steady state by shooting (the default, points independent),
+//! and by cycling cold and with warm-start chains — and a 10,000-sample
+//! spread; wall times, points
 //! per second, the speed-up, and the process's peak resident memory after
 //! each stage (Linux `VmHWM`). Sweep times are the best of five runs,
 //! spread times of three; the ceiling (the same number of independent
@@ -11,6 +13,7 @@
 //! size, `STUDY_BENCH_POINTS=N` the sweep's.
 
 use rayon::prelude::*;
+use sim_core::shooting::SteadyMethod;
 use sim_core::simulate::{simulate, RunOptions};
 use sim_core::study::run::{Hooks, RunSettings};
 use sim_core::study::spread::{spread, SpreadSettings};
@@ -62,7 +65,16 @@ fn main() {
     println!("study benchmark: {} ({n}-point supply sweep)", s.name);
     println!("peak RSS at start: {:?} KiB", peak_rss_kib());
     let mut times = std::collections::BTreeMap::new();
-    for warm in [false, true] {
+    // Shooting (the default: every point on its own from its averaged
+    // operating point), and cycling cold and with warm-start chains.
+    let modes = [
+        ("shooting", SteadyMethod::Shooting, true),
+        ("cycling, cold", SteadyMethod::Cycling, false),
+        ("cycling, warm chains", SteadyMethod::Cycling, true),
+    ];
+    for (mode, method, warm) in modes {
+        let mut s = s.clone();
+        s.simulation.steady_state_method = method;
         for threads in [1, 2] {
             let settings = RunSettings {
                 warm_start: warm,
@@ -84,27 +96,25 @@ fn main() {
             assert_eq!(t.failed(), 0);
             let cycles: u64 = t.rows.iter().filter_map(|r| r.cycles_to_settle()).sum();
             println!(
-                "sweep {:>4} start, {threads} thread(s): {dt:8.3} s, {:8.1} points/s, \
+                "sweep, {mode}, {threads} thread(s): {dt:8.3} s, {:8.1} points/s, \
                  CPU {cpu_per_point_ms:.3} ms per point, {:.0} cycles to settle per point, \
                  peak RSS {:?} KiB",
-                if warm { "warm" } else { "cold" },
                 n as f64 / dt,
                 cycles as f64 / n as f64,
                 peak_rss_kib()
             );
-            times.insert((warm, threads), dt);
+            times.insert((mode, threads), dt);
         }
     }
-    for warm in [false, true] {
+    for (mode, _, _) in modes {
         println!(
-            "speed-up 2 vs 1 thread ({}): {:.2}x",
-            if warm { "warm" } else { "cold" },
-            times[&(warm, 1)] / times[&(warm, 2)]
+            "speed-up 2 vs 1 thread (sweep, {mode}): {:.2}x",
+            times[&(mode, 1)] / times[&(mode, 2)]
         );
     }
     println!(
-        "warm start vs cold (2 threads): {:.2}x faster",
-        times[&(false, 2)] / times[&(true, 2)]
+        "shooting vs cycling with warm chains (2 threads): {:.2}x faster",
+        times[&("cycling, warm chains", 2)] / times[&("shooting", 2)]
     );
     // The ceiling: the same number of independent cold runs of the
     // nominal design with no study machinery at all (no scenario set-up,

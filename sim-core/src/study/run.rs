@@ -19,6 +19,7 @@ use super::rows::Row;
 use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
 use crate::scenario::Scenario;
+use crate::shooting::SteadyMethod;
 use crate::simulate::{simulate, EngineKind, RunOptions};
 use rayon::prelude::*;
 use std::collections::BTreeMap;
@@ -51,6 +52,23 @@ impl Default for RunSettings {
             initial_state: None,
             chain_len: DEFAULT_CHAIN_LEN,
             deadline: None,
+        }
+    }
+}
+
+impl RunSettings {
+    /// The settings a sweep of `s` really uses: with the exact engine
+    /// shooting for steady state (the default), a neighbour's steady state
+    /// is no better a start than the averaged operating point shooting
+    /// starts from (both settle in a handful of cycles), so warm-start
+    /// chains are dropped and every point runs on its own — scheduled one
+    /// by one, which keeps both cores busy to the end.
+    pub fn for_sweep_of(self, s: &Scenario) -> RunSettings {
+        let shooting = self.engine == EngineKind::Exact
+            && s.simulation.steady_state_method == SteadyMethod::Shooting;
+        RunSettings {
+            warm_start: self.warm_start && !shooting,
+            ..self
         }
     }
 }

@@ -56,6 +56,7 @@ pub fn sweep_manifest(
     shard: Option<Shard>,
 ) -> Manifest {
     let n = grid.len();
+    let settings = &settings.for_sweep_of(s);
     let mut manifest = base_manifest(
         s,
         StudyKind::Sweep,
@@ -125,6 +126,7 @@ pub fn sweep(
     shard: Option<Shard>,
     hooks: &Hooks<'_>,
 ) -> StudyTable {
+    let settings = &settings.for_sweep_of(s);
     let manifest = sweep_manifest(s, grid, settings, shard);
     let base = scenario_json(s);
     run_table(
