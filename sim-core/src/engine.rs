@@ -235,14 +235,15 @@ impl ExactEngine {
         let mut changed = false;
         if let Some(dev) = self.circuit.led_exact {
             let (lo, hi) = self.led_range;
-            if lo.is_finite() && self.circuit.led.needs_refit(lo, hi) {
+            // A current a hair below zero where it reached zero is zero.
+            if lo.is_finite() && self.circuit.led.needs_refit(lo.max(0.0), hi) {
                 self.circuit.led = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
                 changed = true;
             }
         }
         if let Some(dev) = self.circuit.diode_exact {
             let (lo, hi) = self.diode_range;
-            if lo.is_finite() && self.circuit.diode.needs_refit(lo, hi) {
+            if lo.is_finite() && self.circuit.diode.needs_refit(lo.max(0.0), hi) {
                 self.circuit.diode = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
                 changed = true;
             }
