@@ -205,7 +205,9 @@ fn floor(c: &mut Criterion) {
         "floor: {:.1} ns/cycle (two closed-form 2x2 exponentials + one affine update)",
         t_floor * 1e9
     );
-    for s in chopwave_suite::realistic_set() {
+    let mut designs = chopwave_suite::realistic_set();
+    designs.push(chopwave_suite::lamp_12v_hysteretic_with_output_cap());
+    for s in designs {
         let mut exact = settled(ExactEngine::new(&s), 200);
         let m = 5000;
         let t = Instant::now();

@@ -127,6 +127,15 @@ pub fn lamp_12v_hysteretic() -> Scenario {
     s
 }
 
+/// [`lamp_12v_hysteretic`] with the output capacitor of
+/// [`lamp_12v_with_output_cap`].
+pub fn lamp_12v_hysteretic_with_output_cap() -> Scenario {
+    let mut s = lamp_12v_hysteretic();
+    s.name = "lamp-12v-hyst-cout".into();
+    s.output_capacitor = lamp_12v_with_output_cap().output_capacitor;
+    s
+}
+
 /// [`lamp_12v`] with a Shockley freewheel diode.
 pub fn lamp_12v_shockley() -> Scenario {
     let mut s = lamp_12v();
