@@ -5,7 +5,15 @@ use sim_core::scenario::{template, Capacitor};
 fn main() {
     let which = std::env::args().nth(1).unwrap_or_default();
     let mut s = template();
-    if which == "cout" {
+    if which == "hyst" {
+        s.controller = sim_core::scenario::ControllerSpec::Hysteretic {
+            upper_current_a: 0.8,
+            lower_current_a: 0.6,
+            turn_off_delay_s: 60e-9,
+            turn_on_delay_s: 60e-9,
+        };
+    }
+    if which == "cout" || which == "hyst" {
         s.output_capacitor = Some(Capacitor {
             capacitance_f: 2.2e-6,
             esr_ohm: 0.01,

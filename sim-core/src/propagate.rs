@@ -254,16 +254,13 @@ fn predict_zero(h: f64, d: f64, c: f64) -> Option<f64> {
     if disc < 0.0 {
         return None;
     }
-    // Numerically stable roots of a·τ² + d·τ + h = 0.
+    // Numerically stable roots of a·τ² + d·τ + h = 0 are q/a and h/q.
+    // With h < 0 only one of them is wanted: for d ≥ 0, q < 0 and h/q is
+    // the smaller positive root (q/a is negative, or the larger one when
+    // a < 0); for d < 0, q > 0, h/q < 0 and q/a is the root when a > 0.
     let q = -0.5 * (d + d.signum() * disc.sqrt());
-    let (r1, r2) = (q / a, if q != 0.0 { h / q } else { f64::NAN });
-    let mut best = f64::INFINITY;
-    for r in [r1, r2] {
-        if r > 0.0 && r < best {
-            best = r;
-        }
-    }
-    best.is_finite().then_some(best)
+    let r = if d.is_sign_positive() { h / q } else { q / a };
+    (r > 0.0 && r.is_finite()).then_some(r)
 }
 
 /// Finds the first upward zero crossing of any event over `(0, t_limit]`
@@ -472,6 +469,37 @@ fn refine(
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    /// The one-division root picks the same root as taking both roots and
+    /// the smallest positive one.
+    #[test]
+    fn predicted_zero_is_the_smallest_positive_root() {
+        let both = |h: f64, d: f64, c: f64| -> Option<f64> {
+            let a = 0.5 * c;
+            if a.abs() * h.abs() <= 1e-12 * d * d {
+                return (d > 0.0).then(|| -h / d);
+            }
+            let disc = d * d - 4.0 * a * h;
+            if disc < 0.0 {
+                return None;
+            }
+            let q = -0.5 * (d + d.signum() * disc.sqrt());
+            let (r1, r2) = (q / a, if q != 0.0 { h / q } else { f64::NAN });
+            let best = [r1, r2]
+                .into_iter()
+                .filter(|r| *r > 0.0)
+                .fold(f64::INFINITY, f64::min);
+            best.is_finite().then_some(best)
+        };
+        let vals = [-3.0, -1.0, -1e-3, -1e-9, 0.0, 1e-9, 1e-3, 1.0, 3.0];
+        for &h in &[-1.0, -1e-3, -1e-9, -7.5] {
+            for &d in &vals {
+                for &c in &vals {
+                    assert_eq!(predict_zero(h, d, c), both(h, d, c), "h {h} d {d} c {c}");
+                }
+            }
+        }
+    }
 
     /// The cheap pre-check never hides a prediction inside the step: over
     /// a grid of quadratics, whenever `predict_zero` gives a root at or
