@@ -105,11 +105,7 @@ impl Recorder {
     pub fn push(&mut self, s: Sample) {
         self.samples.push(s);
         if self.cap > 0 && self.samples.len() >= self.cap {
-            let mut k = 0;
-            self.samples.retain(|_| {
-                k += 1;
-                k % 2 == 1
-            });
+            keep_every_other(&mut self.samples);
             self.stride *= 2;
         }
     }
@@ -118,17 +114,16 @@ impl Recorder {
     /// cycle starts as it thins samples (every other one kept when full),
     /// so a million-cycle start-up holds no per-cycle list either.
     pub fn cycle_start(&mut self, t: f64) {
+        // Cycles 0, s, 2s, ... (s the stride) are kept: halving the list
+        // keeps 0, 2s, 4s, ..., the same phase as the doubled stride.
+        let c = self.cycles_seen;
         self.cycles_seen += 1;
-        if !self.cycles_seen.is_multiple_of(self.cycle_stride) {
+        if !c.is_multiple_of(self.cycle_stride) {
             return;
         }
         self.cycle_starts.push(t);
         if self.cap > 0 && self.cycle_starts.len() >= self.cap {
-            let mut k = 0;
-            self.cycle_starts.retain(|_| {
-                k += 1;
-                k % 2 == 1
-            });
+            keep_every_other(&mut self.cycle_starts);
             self.cycle_stride *= 2;
         }
     }
@@ -142,5 +137,42 @@ impl Recorder {
                 .unwrap_or_else(|_| Array2::zeros((0, COLUMNS.len()))),
             cycle_starts_s: self.cycle_starts,
         }
+    }
+}
+
+/// Drops every other element (the 2nd, 4th, ...), keeping the first.
+fn keep_every_other<T>(v: &mut Vec<T>) {
+    let mut k = 0;
+    v.retain(|_| {
+        k += 1;
+        k % 2 == 1
+    });
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A bounded recorder never holds more than its cap of samples or of
+    /// cycle starts, however long the run, and keeps the start of the run.
+    #[test]
+    fn bounded_recorder_stays_bounded() {
+        let cap = 100;
+        let mut r = Recorder::new(0, cap);
+        for c in 0..100_000u32 {
+            r.cycle_start(f64::from(c));
+            if r.wants_interval() {
+                r.push([f64::from(c); 7]);
+            }
+            assert!(r.samples.len() < cap && r.cycle_starts.len() < cap);
+        }
+        let w = r.finish();
+        assert!(w.len() >= cap / 4, "{} samples", w.len());
+        assert!(w.cycle_starts_s.len() >= cap / 4);
+        assert_eq!(w.cycle_starts_s[0], 0.0);
+        assert_eq!(w.data[[0, COL_TIME]], 0.0);
+        // Cycle starts thinned evenly: equally spaced.
+        let gaps: Vec<f64> = w.cycle_starts_s.windows(2).map(|p| p[1] - p[0]).collect();
+        assert!(gaps.iter().all(|g| *g == gaps[0]), "{gaps:?}");
     }
 }
