@@ -305,3 +305,40 @@ fn shooting_from_power_on_reaches_the_same_orbit() {
         );
     }
 }
+
+/// A shooting run's start-up is a real run from power-on: it starts at
+/// zero current and ends (at a turn-on) within 0.1 % of the state scales
+/// of the steady orbit shooting found, the same as a cycling run's.
+#[test]
+fn shooting_runs_record_the_start_up_from_power_on() {
+    use sim_core::record::{COL_IL, COL_TIME};
+    for s in bundled() {
+        let mut s = s.clone();
+        s.simulation.record_startup = true;
+        let r = run(&s, SteadyMethod::Shooting, JacobianSource::Analytic);
+        let w = r.startup.as_ref().expect("start-up recorded");
+        assert_eq!(w.data[[0, COL_TIME]], 0.0, "{}", s.name);
+        assert_eq!(w.data[[0, COL_IL]], 0.0, "{}", s.name);
+        let last = w.len() - 1;
+        let scale = state_scales(&s);
+        let gap = (w.data[[last, COL_IL]] - r.steady.state_at_turn_on[0]).abs() / scale[0];
+        assert!(
+            gap <= 1.5e-3,
+            "{}: end of start-up {gap:.1e} from steady",
+            s.name
+        );
+        // Cycling records the same transient (both from power-on, same
+        // engine): its start-up's first cycle agrees.
+        let c = run(&s, SteadyMethod::Cycling, JacobianSource::Analytic);
+        let wc = c.startup.as_ref().expect("start-up recorded");
+        let n = w.len().min(wc.len()).min(50);
+        for k in 0..n {
+            assert_eq!(
+                w.data[[k, COL_IL]],
+                wc.data[[k, COL_IL]],
+                "{} sample {k}",
+                s.name
+            );
+        }
+    }
+}
