@@ -424,16 +424,27 @@ fn refine(
     let mut h_lo = ev.value(z0);
     let mut z_hi = *z_step;
     let mut h_hi = ev.value(z_step);
-    // Newton from the bracket end nearer the root.
+    // Halley's step from the bracket end nearer the root (the curvature is
+    // at hand), aimed a hair late so it lands just past the root: one
+    // evaluation then usually ends the search (accepted below when at most
+    // 1e-12 of the step late).
     let mut t = {
         let d = ev.slope(z_step);
-        let newton = hi - h_hi / d;
-        if d > 0.0 && newton > lo && newton < hi {
-            newton
+        let c = ev.curvature(z_step);
+        let denom = d * d - 0.5 * h_hi * c;
+        let delta = if denom > 0.0 {
+            h_hi * d / denom
+        } else {
+            h_hi / d
+        };
+        let guess = hi - delta + (1e-9 * delta.abs() + 1e-13 * step).min(0.5 * delta.abs());
+        if d > 0.0 && guess > lo && guess < hi {
+            guess
         } else {
             lo + (hi - lo) * (-h_lo) / (h_hi - h_lo)
         }
     };
+    let late = 1e-12 * step;
     for _ in 0..60 {
         if hi - lo <= EVENT_TIME_TOL_S * 1e-1 {
             break;
@@ -443,7 +454,7 @@ fn refine(
         }
         let z = flow.advance(t, z0, work);
         let h = ev.value(&z);
-        if h.abs() <= ev.zero_tol(&z) {
+        if h.abs() <= ev.zero_tol(&z) || (h >= 0.0 && h <= ev.slope(&z) * late) {
             return (t, z);
         }
         if h > 0.0 {
