@@ -11,8 +11,7 @@
 //! nothing: all matrices are fixed-size and live on the stack.
 
 use crate::circuit::{
-    Aug, AugMatrix, Circuit, Linear, Region, Row, Signal, N_AUG, N_STATES, X_IL, X_ONE, X_VCIN,
-    X_VCO,
+    Aug, AugMatrix, Circuit, Linear, Region, Row, Signal, N_STATES, X_IL, X_ONE, X_VCIN, X_VCO,
 };
 use crate::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
@@ -332,8 +331,7 @@ impl ExactEngine {
         let slot = self.model_slot(self.region);
         // Borrow the cached model without copying it: the cache is moved
         // out for the interval (an empty Vec allocates nothing) and back.
-        let cache = std::mem::take(&mut self.cache);
-        let mut cache = cache;
+        let mut cache = std::mem::take(&mut self.cache);
         let result = match &mut cache[slot] {
             Some(CacheEntry {
                 lin,
@@ -382,12 +380,7 @@ impl ExactEngine {
                         spectral,
                         timer: None,
                     };
-                    let mut phi = AugMatrix::zeros();
-                    for c in 0..N_AUG {
-                        let mut e = Aug::zeros();
-                        e[c] = 1.0;
-                        phi.set_column(c, &full.advance(to_deadline, &e, &mut self.work));
-                    }
+                    let phi = full.transition_matrix(to_deadline, &mut self.work);
                     let k = set.timer_next;
                     set.timers[k] = Some((to_deadline, phi));
                     set.timer_next = (k + 1) % TIMERS_PER_REGION;
@@ -399,10 +392,9 @@ impl ExactEngine {
         let flow = Flow {
             m: &lin.m,
             spectral,
-            timer: match timer.and_then(|k| set.timers[k].as_ref()) {
-                Some((_, phi)) => Some((to_deadline, phi)),
-                None => None,
-            },
+            timer: timer
+                .and_then(|k| set.timers[k].as_ref())
+                .map(|(_, phi)| (to_deadline, phi)),
         };
         let z0 = aug(&self.x);
         // The region's own events (cached), behind the controller's
@@ -410,7 +402,6 @@ impl ExactEngine {
         let n = set.n;
         let evs = &mut set.evs;
         let acts = &set.acts;
-        let mut threshold_slot = None;
         let first = match self.cmd.watch {
             Some(w) => {
                 // `±(i_L − level)`: the cached i_L event with the level in
@@ -426,13 +417,13 @@ impl ExactEngine {
                     ev.row[X_ONE] += w.level_a;
                 }
                 evs[0] = ev;
-                threshold_slot = Some(0);
                 0
             }
             None => 1,
         };
+        // The slice starts at the threshold when there is one.
         let evs = &evs[first..n];
-        let threshold_slot = threshold_slot;
+        let threshold_slot = (first == 0).then_some(0);
         let has_co = self.circuit.output_cap.is_some();
         let i_led_row = lin.row(Signal::LedCurrent);
 
@@ -547,18 +538,17 @@ impl ExactEngine {
                     Cause::Deadline
                 };
                 let new = self.controller.on_event(self.t, cause, self.x[X_IL]);
-                if let Some(sens) = self.sens.as_mut() {
-                    if new.deadline_s.is_finite() {
-                        // A timer set now: its end moves with this event.
+                if new.deadline_s.is_finite() {
+                    // A timer set now: the next interval starts with it, and
+                    // its end moves with this event.
+                    self.timer_just_set = true;
+                    if let Some(sens) = self.sens.as_mut() {
                         sens.deadline_tau = sens.tau;
                     }
                 }
                 turned_on = new.switch_on && !self.cmd.switch_on;
                 let changed = new.switch_on != self.cmd.switch_on;
                 self.cmd = new;
-                if new.deadline_s.is_finite() {
-                    self.timer_just_set = true;
-                }
                 if changed {
                     self.switch_changed_t = self.t;
                     let pre = lin.signals * aug(&self.x);
@@ -927,17 +917,12 @@ fn propagate_sensitivity(
     work: &mut WorkCounts,
 ) {
     if dt > 0.0 {
-        // Φ column by column: the flow of the unit states with the
-        // forcing switched off (the augmented 1 set to 0).
-        let mut phi = Matrix3::zeros();
-        for c in 0..N_STATES {
-            let mut e = Aug::zeros();
-            e[c] = 1.0;
-            let col = flow.advance(dt, &e, work);
-            for r in 0..N_STATES {
-                phi[(r, c)] = col[r];
-            }
-        }
+        // Φ: the state block of the transition (the forcing column is not
+        // needed for the sensitivities).
+        let phi: Matrix3<f64> = flow
+            .transition_matrix(dt, work)
+            .fixed_view::<N_STATES, N_STATES>(0, 0)
+            .into_owned();
         sens.j = phi * sens.j;
     }
     let fz = flow.m * z1;

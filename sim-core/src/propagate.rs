@@ -74,6 +74,19 @@ impl Flow<'_> {
             None => advance(self.m, t, z, work),
         }
     }
+
+    /// `e^{M t}` column by column, each the flow of a unit vector: the
+    /// same arithmetic as [`Flow::advance`], so a state advanced by the
+    /// matrix agrees with one advanced directly.
+    pub fn transition_matrix(&self, t: f64, work: &mut WorkCounts) -> AugMatrix {
+        let mut phi = AugMatrix::zeros();
+        for c in 0..N_AUG {
+            let mut e = Aug::zeros();
+            e[c] = 1.0;
+            phi.set_column(c, &self.advance(t, &e, work));
+        }
+        phi
+    }
 }
 
 /// `e^{M t} z` without forming the matrix when `‖M t‖` is moderate.

@@ -23,6 +23,7 @@ use crate::circuit::{Circuit, N_STATES};
 use crate::engine::ExactEngine;
 use crate::error::SimError;
 use crate::scenario::{ControllerSpec, Scenario};
+use crate::steady::scaled_change;
 use nalgebra::Matrix3;
 use serde::{Deserialize, Serialize};
 
@@ -110,13 +111,6 @@ pub struct Limits {
     pub max_time_s: f64,
 }
 
-/// Scaled max-norm of a state difference.
-fn scaled(r: &[f64; N_STATES], scale: &[f64; N_STATES]) -> f64 {
-    (0..N_STATES)
-        .map(|i| (r[i] / scale[i]).abs())
-        .fold(0.0, f64::max)
-}
-
 /// One evaluation of the cycle map.
 struct Eval {
     px: [f64; N_STATES],
@@ -154,8 +148,7 @@ impl Solver<'_> {
             None
         };
         let px = self.e.state_array();
-        let r = std::array::from_fn(|i| px[i] - x[i]);
-        let residual = scaled(&r, &self.scale);
+        let residual = scaled_change(&px, &x, &self.scale);
         if !residual.is_finite() {
             return Err(SimError::NonFinite {
                 time_s: self.e.t,
@@ -366,11 +359,10 @@ fn solve(s: &mut Solver) -> Result<Orbit, String> {
         s.e.freeze_fits = true;
         let (xs, residual, jac) = match s.newton(x) {
             Ok(found) => found,
-            Err(why) if restarts < MAX_RESTARTS => {
+            Err(_) if restarts < MAX_RESTARTS => {
                 // Far from the orbit the cycle map bends too much for
                 // Newton (an LED that only starts to conduct part-way, say):
                 // let a few ordinary cycles bring the state closer.
-                let _ = why;
                 restarts += 1;
                 s.e.freeze_fits = false;
                 s.e.restart_at_turn_on(s.best.0);

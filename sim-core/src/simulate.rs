@@ -14,7 +14,7 @@ use crate::scenario::{IntendedMode, Load, Scenario};
 use crate::shooting::{
     averaged_guess, find_orbit, JacobianSource, Limits, NoOrbit, Orbit, SteadyMethod,
 };
-use crate::steady::{SteadyDetector, Verdict};
+use crate::steady::{scaled_change, SteadyDetector, Verdict};
 use serde::Serialize;
 
 /// Which engine runs the circuit.
@@ -341,9 +341,9 @@ struct HeadStart {
     record_startup: bool,
 }
 
-/// Puts the exact engine at the scenario's start (power-on or the given
-/// state) and, unless cycling was asked for or the start-up is to be
-/// recorded, finds the orbit by shooting.
+/// Puts the exact engine at the scenario's start (the given state, else
+/// the averaged operating point) and, unless cycling was asked for, finds
+/// the orbit by shooting.
 fn exact_head_start(
     e: &mut ExactEngine,
     s: &Scenario,
@@ -418,10 +418,7 @@ fn record_startup<E: CycleEngine>(
     while near < 2 && cycles < sim.max_cycles && e.time_s() < sim.max_time_s {
         e.run_cycle(None, Some(&mut rec))?;
         cycles += 1;
-        let x = e.state();
-        let d = (0..N_STATES)
-            .map(|i| ((x[i] - steady_state[i]) / scale[i]).abs())
-            .fold(0.0, f64::max);
+        let d = scaled_change(&e.state(), &steady_state, &scale);
         near = if d <= STARTUP_SETTLED { near + 1 } else { 0 };
         if cycles.is_multiple_of(256) {
             progress(Progress {
@@ -476,10 +473,7 @@ fn drive_with<E: CycleEngine>(
             },
             None,
         ),
-        None => {
-            let (steady, _, startup) = settle_by_cycling(e, s, &head, progress)?;
-            (steady, startup)
-        }
+        None => settle_by_cycling(e, s, &head, progress)?,
     };
     measure(e, s, engine, steady, startup)
 }
@@ -490,7 +484,7 @@ fn settle_by_cycling<E: CycleEngine>(
     s: &Scenario,
     head: &HeadStart,
     progress: &mut dyn FnMut(Progress),
-) -> Result<(SteadyInfo, usize, Option<Waveform>), SimError> {
+) -> Result<(SteadyInfo, Option<Waveform>), SimError> {
     let sim = &s.simulation;
     let mut det = SteadyDetector::new(sim.steady_state_tolerance, state_scales(s));
     let mut startup = head.record_startup.then(startup_recorder);
@@ -537,7 +531,7 @@ fn settle_by_cycling<E: CycleEngine>(
         orbit_period_cycles: order,
         state_at_turn_on: e.state(),
     };
-    Ok((steady, order, startup.map(Recorder::finish)))
+    Ok((steady, startup.map(Recorder::finish)))
 }
 
 /// Records and measures `record_cycles` (rounded up to whole orbits)

@@ -17,6 +17,14 @@ const HISTORY: usize = 10;
 /// Longest subharmonic period looked for, cycles.
 pub const MAX_SUBHARMONIC: usize = 8;
 
+/// The largest per-state difference of two states, each in units of its
+/// scale: the measure of "how far apart" every steady-state test uses.
+pub fn scaled_change(a: &[f64; N_STATES], b: &[f64; N_STATES], scale: &[f64; N_STATES]) -> f64 {
+    (0..N_STATES)
+        .map(|i| (a[i] - b[i]).abs() / scale[i])
+        .fold(0.0, f64::max)
+}
+
 /// What the detector concluded after a cycle.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Verdict {
@@ -64,9 +72,7 @@ impl SteadyDetector {
     }
 
     fn change(&self, a: &[f64; N_STATES], b: &[f64; N_STATES]) -> f64 {
-        (0..N_STATES)
-            .map(|i| (a[i] - b[i]).abs() / self.scale[i])
-            .fold(0.0, f64::max)
+        scaled_change(a, b, &self.scale)
     }
 
     /// Adds the state at a cycle start and says whether it has settled.
