@@ -17,7 +17,7 @@ use crate::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
 use crate::error::SimError;
 use crate::metrics::Totals;
-use crate::propagate::{first_event, gramian, EventFn, Flow, WorkCounts, MAX_EVENTS};
+use crate::propagate::{dot4, first_event, gramian, EventFn, Flow, WorkCounts, MAX_EVENTS};
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
 use crate::simulate::ChatterGuard;
@@ -43,6 +43,23 @@ enum Action {
 
 /// Regions remembered with their matrices and eigen-decompositions.
 const CACHE_SIZE: usize = 64;
+
+/// A cache key no region packs to.
+const NO_KEY: u32 = u32::MAX;
+
+/// A region packed into one word for the cache lookup: the two switches
+/// in the low bits, then the diode, LED (one more than the segment, 0 for
+/// none) and inductance segments a byte each. The LED byte stays below
+/// 0xFF (there are at most [`crate::devices::MAX_SEGMENTS`] segments), so
+/// no region packs to [`NO_KEY`].
+fn region_key(r: Region) -> u32 {
+    let led = r.led_segment.map_or(0, |k| u32::from(k) + 1) & 0xFF;
+    u32::from(r.switch_on)
+        | u32::from(r.conducting) << 1
+        | u32::from(r.diode_segment) << 8
+        | led << 16
+        | u32::from(r.l_segment) << 24
+}
 
 /// One remembered region.
 #[derive(Debug, Clone, Copy)]
@@ -88,6 +105,8 @@ pub struct ExactEngine {
     pub x: SVector<f64, N_STATES>,
     cmd: Command,
     region: Region,
+    /// `region_key(region)`, kept in step by [`Self::set_region`].
+    region_key: u32,
     switch_changed_t: f64,
     /// The controller set its deadline at the end of the last interval,
     /// so the coming interval starts with the timer.
@@ -113,9 +132,10 @@ pub struct ExactEngine {
     pub refits: u64,
     /// Region cache (allocated once, at construction).
     cache: Vec<Option<CacheEntry>>,
-    /// Which region and fit generation each cache slot holds, kept apart
-    /// from the bulky entries so the lookup scans one small array.
-    cache_keys: [Option<(Region, u64)>; CACHE_SIZE],
+    /// Which region each cache slot holds ([`region_key`]; [`NO_KEY`] when
+    /// empty), kept apart from the bulky entries so the lookup scans one
+    /// small array. Emptied whenever the curve fits change.
+    cache_keys: [u32; CACHE_SIZE],
     cache_next: usize,
     /// The slot the previous interval used.
     cache_last: usize,
@@ -149,6 +169,7 @@ impl ExactEngine {
             x,
             cmd,
             region,
+            region_key: region_key(region),
             switch_changed_t: 0.0,
             timer_just_set: true,
             max_interval_s: s.simulation.max_interval_s,
@@ -165,7 +186,7 @@ impl ExactEngine {
             clamped_energy_j: 0.0,
             refits: 0,
             cache: vec![None; CACHE_SIZE],
-            cache_keys: [None; CACHE_SIZE],
+            cache_keys: [NO_KEY; CACHE_SIZE],
             cache_next: 0,
             cache_last: 0,
             cache_successor: [0; CACHE_SIZE],
@@ -177,7 +198,7 @@ impl ExactEngine {
     /// region is re-derived from it.
     pub fn set_state(&mut self, x: [f64; N_STATES]) {
         self.x = SVector::from(x);
-        self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+        self.set_region(self.circuit.region_for(self.cmd.switch_on, &self.x));
     }
 
     /// Puts the engine at a turn-on with state `x`, whatever it was doing
@@ -220,6 +241,15 @@ impl ExactEngine {
         self.region
     }
 
+    /// Sets the region and its cache key. The key is computed from the
+    /// value at hand, not read back from the region's bytes just written
+    /// one by one: a wide load of narrow stores in flight stalls store
+    /// forwarding, and the cache lookup comes right after.
+    fn set_region(&mut self, r: Region) {
+        self.region = r;
+        self.region_key = region_key(r);
+    }
+
     /// Re-fits the exponential curves when the currents the last cycle
     /// visited left the fitted range or use under half of it, so the fit
     /// follows the exponential curve cycle by cycle and settles with the
@@ -251,8 +281,10 @@ impl ExactEngine {
         self.diode_range = (f64::INFINITY, f64::NEG_INFINITY);
         if changed {
             self.refits += 1;
+            // Every cached model was built from the old fits.
+            self.cache_keys = [NO_KEY; CACHE_SIZE];
             // Segment indices refer to the new fits.
-            self.region = self.circuit.region_for(self.cmd.switch_on, &self.x);
+            self.set_region(self.circuit.region_for(self.cmd.switch_on, &self.x));
         }
     }
 
@@ -295,12 +327,17 @@ impl ExactEngine {
     /// The cache slot holding a region's linear model and decomposition,
     /// filling it if needed.
     fn model_slot(&mut self, region: Region) -> usize {
-        let key = Some((region, self.refits));
+        let key = self.region_key;
+        debug_assert_eq!(key, region_key(region));
         // In a periodic orbit each region is followed by the same one: try
-        // the slot that followed the last one used before scanning.
+        // the slot that followed the last one used, then the last one
+        // itself (a timer interval in the region a threshold ended), before
+        // scanning.
         let next = self.cache_successor[self.cache_last];
         let k = if self.cache_keys[next] == key {
             next
+        } else if self.cache_keys[self.cache_last] == key {
+            self.cache_last
         } else if let Some(k) = self.cache_keys.iter().position(|k| *k == key) {
             k
         } else {
@@ -485,8 +522,8 @@ impl ExactEngine {
         }
 
         // Track the visited current ranges for the next refit.
-        let i_led0 = (i_led_row * z0)[0];
-        let i_led1 = (i_led_row * z1)[0];
+        let i_led0 = dot4(&i_led_row, &z0);
+        let i_led1 = dot4(&i_led_row, &z1);
         if region.led_segment.is_some() {
             self.led_range.0 = self.led_range.0.min(i_led0.min(i_led1));
             self.led_range.1 = self.led_range.1.max(i_led0.max(i_led1));
@@ -530,6 +567,9 @@ impl ExactEngine {
         self.timer_just_set = false;
         let act = fired.map(|j| acts[j + first]).unwrap_or(Action::Controller);
         let mut turned_on = false;
+        // The next region is built in a local and stored once, with its
+        // key (see `set_region`).
+        let mut next = region;
         match act {
             Action::Controller => {
                 let cause = if fired.is_some() {
@@ -537,8 +577,13 @@ impl ExactEngine {
                 } else {
                     Cause::Deadline
                 };
-                let new = self.controller.on_event(self.t, cause, self.x[X_IL]);
-                if new.deadline_s.is_finite() {
+                let was_on = self.cmd.switch_on;
+                self.cmd = self.controller.on_event(self.t, cause, self.x[X_IL]);
+                // Read back field by field: copying the whole command would
+                // reload the callee's narrow stores in wide words, which
+                // stalls store forwarding.
+                let now_on = self.cmd.switch_on;
+                if self.cmd.deadline_s.is_finite() {
                     // A timer set now: the next interval starts with it, and
                     // its end moves with this event.
                     self.timer_just_set = true;
@@ -546,27 +591,29 @@ impl ExactEngine {
                         sens.deadline_tau = sens.tau;
                     }
                 }
-                turned_on = new.switch_on && !self.cmd.switch_on;
-                let changed = new.switch_on != self.cmd.switch_on;
-                self.cmd = new;
-                if changed {
+                turned_on = now_on && !was_on;
+                if now_on != was_on {
                     self.switch_changed_t = self.t;
-                    let pre = lin.signals * aug(&self.x);
-                    let il = self.x[X_IL];
-                    let diode_on = !region.switch_on && region.conducting && il > 0.0;
-                    self.switch_transition(new.switch_on);
-                    if let Some(tot) = totals {
+                    // The edge's figures for the switching losses, taken
+                    // before the transition changes the state.
+                    let edge = totals.is_some().then(|| {
+                        let il = self.x[X_IL];
+                        let diode_on = !region.switch_on && region.conducting && il > 0.0;
+                        (lin.signals * aug(&self.x), il, diode_on)
+                    });
+                    self.switch_transition(&mut next, now_on);
+                    if let (Some(tot), Some((pre, il, diode_on))) = (totals, edge) {
                         // The switch's blocked voltage on the open side of
                         // the edge, for the post-processed switching losses.
-                        let post = self.circuit.linearize(self.region).signals * aug(&self.x);
+                        let post = self.circuit.linearize(next).signals * aug(&self.x);
                         let (vin, vsw) = (Signal::InputNode as usize, Signal::SwitchNode as usize);
-                        let blocked = if new.switch_on {
+                        let blocked = if now_on {
                             pre[vin] - pre[vsw]
                         } else {
                             post[vin] - post[vsw]
                         };
-                        let recovery = (new.switch_on && diode_on).then_some(post[vsw]);
-                        tot.edges.note(new.switch_on, il, blocked, recovery);
+                        let recovery = (now_on && diode_on).then_some(post[vsw]);
+                        tot.edges.note(now_on, il, blocked, recovery);
                     }
                 }
             }
@@ -575,48 +622,50 @@ impl ExactEngine {
                 if let Some(sens) = self.sens.as_mut() {
                     sens.j.row_mut(X_IL).fill(0.0);
                 }
-                self.region.conducting = false;
-                self.region.l_segment = 0;
+                next.conducting = false;
+                next.l_segment = 0;
                 if !has_co {
-                    self.region.led_segment = None;
+                    next.led_segment = None;
                 }
             }
             Action::Unblock => {
-                self.region.conducting = true;
-                self.region.led_segment = Some(0);
+                next.conducting = true;
+                next.led_segment = Some(0);
             }
-            Action::DiodeDown => self.region.diode_segment -= 1,
-            Action::DiodeUp => self.region.diode_segment += 1,
+            Action::DiodeDown => next.diode_segment -= 1,
+            Action::DiodeUp => next.diode_segment += 1,
             Action::LedDown => {
-                self.region.led_segment = self.region.led_segment.map(|k| k - 1);
+                next.led_segment = next.led_segment.map(|k| k - 1);
             }
             Action::LedUp => {
-                self.region.led_segment = Some(self.region.led_segment.map_or(0, |k| k + 1));
+                next.led_segment = Some(next.led_segment.map_or(0, |k| k + 1));
             }
-            Action::LedOff => self.region.led_segment = None,
-            Action::LedOn => self.region.led_segment = Some(0),
-            Action::SatDown => self.region.l_segment -= 1,
-            Action::SatUp => self.region.l_segment += 1,
+            Action::LedOff => next.led_segment = None,
+            Action::LedOn => next.led_segment = Some(0),
+            Action::SatDown => next.l_segment -= 1,
+            Action::SatUp => next.l_segment += 1,
         }
+        self.set_region(next);
         Ok(turned_on)
     }
 
-    fn switch_transition(&mut self, on: bool) {
+    /// Moves `region` across a switch edge to `on`.
+    fn switch_transition(&mut self, region: &mut Region, on: bool) {
         let il = self.x[X_IL];
-        self.region.switch_on = on;
+        region.switch_on = on;
         if on {
-            if !self.region.conducting {
+            if !region.conducting {
                 // Leaving DCM idle: conducts if the drive pushes current forward
                 // (always with an output capacitor: the switch conducts both ways).
                 let r = self.circuit.region_for(true, &self.x);
-                self.region.conducting = r.conducting;
+                region.conducting = r.conducting;
                 if self.circuit.output_cap.is_none() {
-                    self.region.led_segment = r.led_segment;
+                    region.led_segment = r.led_segment;
                 }
             }
         } else if il > 0.0 {
-            self.region.conducting = true;
-            self.region.diode_segment = self.circuit.diode.segment_for_current(il) as u8;
+            region.conducting = true;
+            region.diode_segment = self.circuit.diode.segment_for_current(il) as u8;
         } else {
             // A reverse current is cut off at turn-off (the switch's body
             // diode returns it to the input within nanoseconds); count its
@@ -626,10 +675,10 @@ impl ExactEngine {
             if let Some(sens) = self.sens.as_mut() {
                 sens.j.row_mut(X_IL).fill(0.0);
             }
-            self.region.conducting = false;
-            self.region.l_segment = 0;
+            region.conducting = false;
+            region.l_segment = 0;
             if self.circuit.output_cap.is_none() {
-                self.region.led_segment = None;
+                region.led_segment = None;
             }
         }
     }

@@ -176,6 +176,12 @@ pub fn gramian(m: &AugMatrix, z0: &Aug, h: f64, work: &mut WorkCounts) -> (AugMa
     (g, phi)
 }
 
+/// `r · z`, written out (the generic product's loop does not unroll).
+#[inline]
+pub fn dot4(r: &Row, z: &Aug) -> f64 {
+    r[0] * z[0] + r[1] * z[1] + r[2] * z[2] + r[3] * z[3]
+}
+
 /// An affine function of the state whose upward zero crossing is an event.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct EventFn {
@@ -200,22 +206,23 @@ impl EventFn {
     /// Value at z.
     #[inline]
     pub fn value(&self, z: &Aug) -> f64 {
-        (self.row * z)[0]
+        dot4(&self.row, z)
     }
     /// Time derivative at z.
     #[inline]
     pub fn slope(&self, z: &Aug) -> f64 {
-        (self.drow * z)[0]
+        dot4(&self.drow, z)
     }
     /// Second time derivative at z.
     #[inline]
     pub fn curvature(&self, z: &Aug) -> f64 {
-        (self.d2row * z)[0]
+        dot4(&self.d2row, z)
     }
     /// Scale for "is this value zero": the size of the terms making it up.
     #[inline]
     pub fn magnitude(&self, z: &Aug) -> f64 {
-        self.row.abs().dot(&z.abs().transpose())
+        let (r, z) = (&self.row, z);
+        (r[0] * z[0]).abs() + (r[1] * z[1]).abs() + (r[2] * z[2]).abs() + (r[3] * z[3]).abs()
     }
     /// Values within this of zero are zero to round-off.
     #[inline]
@@ -407,8 +414,16 @@ fn hermite_may_cross(h0: f64, d0: f64, h1: f64, d1: f64, step: f64) -> bool {
         // Falling throughout.
         return false;
     }
-    // Sample the interpolant.
     let (m0, m1) = (d0 * step, d1 * step);
+    // The interpolant's Bernstein coefficients are h0, h0 + m0/3,
+    // h1 − m1/3, h1, and it lies in their convex hull (G. Farin, *Curves
+    // and Surfaces for CAGD*, 5th ed., the Bézier form of cubic Hermite
+    // interpolation): all negative, it stays below zero. This settles the common case, a function still rising towards
+    // its event, without sampling.
+    if h0 + m0 / 3.0 < 0.0 && h1 - m1 / 3.0 < 0.0 {
+        return false;
+    }
+    // Sample the interpolant.
     (1..8).any(|k| {
         let s = k as f64 / 8.0;
         let s2 = s * s;
