@@ -458,6 +458,19 @@ impl ExactEngine {
             }
             None => 1,
         };
+        // The threshold and a region event on the same current in the same
+        // direction differ by a constant: the one with the larger constant
+        // comes first (the threshold on a tie) and the other is left out.
+        let mut first = first;
+        let mut n = n;
+        let p = set.watch_partner;
+        if first == 0 && p != 0 && same_state_part(&evs[0], &evs[p]) {
+            if evs[0].row[X_ONE] >= evs[p].row[X_ONE] {
+                n = p;
+            } else {
+                first = 1;
+            }
+        }
         // The slice starts at the threshold when there is one.
         let evs = &evs[first..n];
         let threshold_slot = (first == 0).then_some(0);
@@ -829,6 +842,10 @@ struct EventSet {
     acts: [Action; MAX_EVENTS],
     /// Slots in use, counting the reserved slot 0.
     n: usize,
+    /// The last slot when it holds an event on the inductor current in
+    /// the direction a controller watches it in this region (rising while
+    /// on, falling while off), else 0.
+    watch_partner: usize,
     /// `i_L` rising through zero.
     il_event: EventFn,
     /// `(t, e^{M t})` for the last few timer lengths spent in this region
@@ -935,14 +952,73 @@ fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> EventSet {
         _ => {}
     }
 
+    let n = drop_dominated(&mut evs, &mut acts, n);
+    // The controller watches the inductor current rising while on and
+    // falling while off: the region event on the same current in that
+    // direction, if any, goes last, so the one of the two that cannot come
+    // first can be left out of the scan by shortening it.
+    let il_event = EventFn::new(il_row, &lin.m);
+    let mut probe = il_event;
+    if !region.switch_on {
+        probe.row = -probe.row;
+    }
+    let mut watch_partner = 0;
+    if let Some(p) = (1..n).find(|&k| same_state_part(&evs[k], &probe)) {
+        evs[p..n].rotate_left(1);
+        acts[p..n].rotate_left(1);
+        watch_partner = n - 1;
+    }
     EventSet {
         evs,
         acts,
         n,
-        il_event: EventFn::new(il_row, &lin.m),
+        watch_partner,
+        il_event,
         timers: [None; TIMERS_PER_REGION],
         timer_next: 0,
     }
+}
+
+/// Whether two events watch the same state function, `h_a − h_b`
+/// constant: their rows agree on every state column.
+fn same_state_part(a: &EventFn, b: &EventFn) -> bool {
+    // `+ 0.0` makes a negative zero positive: `−0` and `0 − 0` agree.
+    (0..N_STATES).all(|k| (a.row[k] + 0.0).to_bits() == (b.row[k] + 0.0).to_bits())
+}
+
+/// Drops the region events (slots `1..n`) that another one always
+/// precedes, and returns the new count. Two events on the same state
+/// function differ by a constant, `h_a = h_b + (c_a − c_b)`, so the one
+/// with the larger constant reaches zero first (together, on a tie: the
+/// earlier slot is kept, and the other is due at the start of the next
+/// interval); e.g. below the top LED segment the inductor current falling
+/// to the lower chord boundary always comes before it falling to zero.
+fn drop_dominated(
+    evs: &mut [EventFn; MAX_EVENTS],
+    acts: &mut [Action; MAX_EVENTS],
+    n: usize,
+) -> usize {
+    let mut keep = [true; MAX_EVENTS];
+    for a in 1..n {
+        for b in 1..n {
+            if a != b && keep[a] && keep[b] && same_state_part(&evs[a], &evs[b]) {
+                let (ca, cb) = (evs[a].row[X_ONE], evs[b].row[X_ONE]);
+                // `a` precedes `b`, or ties it from an earlier slot.
+                if ca > cb || (ca.to_bits() == cb.to_bits() && a < b) {
+                    keep[b] = false;
+                }
+            }
+        }
+    }
+    let mut m = 1;
+    for k in 1..n {
+        if keep[k] {
+            evs[m] = evs[k];
+            acts[m] = acts[k];
+            m += 1;
+        }
+    }
+    m
 }
 
 /// How an interval ended, for the sensitivities.
@@ -996,4 +1072,84 @@ fn propagate_sensitivity(
     };
     sens.j += f * shift;
     sens.tau += shift;
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scenario::template;
+
+    /// Builds an event `±i_L + c` on a toy region matrix.
+    fn il_event(sign: f64, c: f64, m: &AugMatrix) -> EventFn {
+        let mut row = Row::zeros();
+        row[X_IL] = sign;
+        row[X_ONE] = c;
+        EventFn::new(row, m)
+    }
+
+    #[test]
+    fn an_event_another_always_precedes_is_dropped() {
+        let mut m = AugMatrix::zeros();
+        m[(X_IL, X_IL)] = -1e3;
+        m[(X_IL, X_ONE)] = 5e3;
+        m[(X_VCIN, X_IL)] = 2.0;
+        let mut evs = [EventFn::new(Row::zeros(), &m); MAX_EVENTS];
+        let mut acts = [Action::Controller; MAX_EVENTS];
+        // Falling to 0 A (Block), falling to 0.2 A (LedDown), rising to
+        // 0.5 A (LedUp), a second falling one tying LedDown (DiodeDown), and
+        // one on another state (kept whatever its constant).
+        evs[1] = il_event(-1.0, 0.0, &m);
+        evs[2] = il_event(-1.0, 0.2, &m);
+        evs[3] = il_event(1.0, -0.5, &m);
+        evs[4] = il_event(-1.0, 0.2, &m);
+        let mut other = Row::zeros();
+        other[X_VCIN] = 1.0;
+        other[X_ONE] = -100.0;
+        evs[5] = EventFn::new(other, &m);
+        acts[1..6].copy_from_slice(&[
+            Action::Block,
+            Action::LedDown,
+            Action::LedUp,
+            Action::DiodeDown,
+            Action::SatUp,
+        ]);
+        let n = drop_dominated(&mut evs, &mut acts, 6);
+        assert_eq!(n, 4);
+        assert!(matches!(
+            acts[..n],
+            [
+                Action::Controller,
+                Action::LedDown,
+                Action::LedUp,
+                Action::SatUp
+            ]
+        ));
+        assert_eq!(evs[3].row, other);
+    }
+
+    /// In every region the template's cycles visit, an event marked as the
+    /// threshold's partner sits in the last slot (so the scan can be
+    /// shortened past it) and watches the inductor current itself.
+    #[test]
+    fn the_watch_partner_sits_last_on_the_watched_current() {
+        let s = template();
+        let mut e = ExactEngine::new(&s);
+        for _ in 0..50 {
+            e.run_cycle(None, None).expect("cycle");
+        }
+        let mut checked = 0;
+        for entry in e.cache.iter().flatten() {
+            let set = &entry.events;
+            if set.watch_partner != 0 {
+                checked += 1;
+                assert_eq!(set.watch_partner, set.n - 1);
+                let mut probe = set.il_event;
+                if !set.evs[set.n - 1].row[X_IL].is_sign_positive() {
+                    probe.row = -probe.row;
+                }
+                assert!(same_state_part(&set.evs[set.n - 1], &probe));
+            }
+        }
+        assert!(checked > 0, "no region had a partner event");
+    }
 }

@@ -116,7 +116,11 @@ impl Spectral {
         if let Some(r) = &self.real {
             let mut c = r.w * z;
             for k in 0..N_AUG {
-                c[k] *= (r.lambda[k] * t).exp();
+                // The constant's mode and an absent state's sit at exactly
+                // zero: e^0 = 1 needs no exponential.
+                if r.lambda[k] != 0.0 {
+                    c[k] *= (r.lambda[k] * t).exp();
+                }
             }
             return r.v * c;
         }
