@@ -17,7 +17,9 @@ use crate::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
 use crate::error::SimError;
 use crate::metrics::Totals;
-use crate::propagate::{dot4, first_event, gramian, EventFn, Flow, WorkCounts, MAX_EVENTS};
+use crate::propagate::{
+    dot4, first_event, gramian, EventFn, Flow, ScanStart, WorkCounts, MAX_EVENTS,
+};
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
 use crate::simulate::ChatterGuard;
@@ -126,6 +128,11 @@ pub struct ExactEngine {
     diode_range: (f64, f64),
     /// Freeze the curve fits (no refit at cycle starts).
     pub freeze_fits: bool,
+    /// Start each state-ended scan at the time its event fired last time
+    /// in that region (default): once the orbit is periodic the first
+    /// step lands on the event, within 1e-12 of the step. Off, every
+    /// cycle is a function of its start state alone to the last bit.
+    pub remember_event_times: bool,
     /// Energy dropped by cutting off reverse inductor current at turn-off, J.
     pub clamped_energy_j: f64,
     /// Times the curve fits were renewed.
@@ -183,6 +190,7 @@ impl ExactEngine {
             led_range: (f64::INFINITY, f64::NEG_INFINITY),
             diode_range: (f64::INFINITY, f64::NEG_INFINITY),
             freeze_fits: false,
+            remember_event_times: true,
             clamped_energy_j: 0.0,
             refits: 0,
             cache: vec![None; CACHE_SIZE],
@@ -196,7 +204,15 @@ impl ExactEngine {
 
     /// Sets the circuit state (e.g. to warm-start from a known orbit); the
     /// region is re-derived from it.
+    ///
+    /// The remembered event times (see [`ScanStart::last_fired`]) are
+    /// forgotten, so a cycle from here is a function of `x` alone, as
+    /// shooting's Newton steps and difference quotients need; the next
+    /// cycles remember afresh.
     pub fn set_state(&mut self, x: [f64; N_STATES]) {
+        for entry in self.cache.iter_mut().flatten() {
+            entry.events.last_fired = [f64::NAN; MAX_EVENTS];
+        }
         self.x = SVector::from(x);
         self.set_region(self.circuit.region_for(self.cmd.switch_on, &self.x));
     }
@@ -477,45 +493,47 @@ impl ExactEngine {
         let has_co = self.circuit.output_cap.is_some();
         let i_led_row = lin.row(Signal::LedCurrent);
 
-        // Events already due at the start.
-        let due = evs.iter().enumerate().position(|(j, ev)| {
-            let h = ev.value(&z0);
-            if Some(j) == threshold_slot {
-                return h >= 0.0;
-            }
-            let rising = ev.slope(&z0) > 0.0;
-            if h <= 0.0 && !rising {
-                // At or below zero and not rising: not due, whatever the
-                // round-off scale (the common case; skips computing it).
-                return false;
-            }
-            let tol = 1e-12 * ev.magnitude(&z0);
-            h > tol || (h > -tol && rising)
-        });
-        let (dt, z1, fired) = if let Some(j) = due {
-            (0.0, z0, Some(j))
-        } else if to_deadline <= 0.0 {
-            (0.0, z0, None)
+        // The scan ends at once on an event already due at the start, and
+        // at the start when the deadline has passed.
+        let t_limit = if to_deadline <= 0.0 {
+            0.0
+        } else if self.cmd.deadline_s.is_finite() {
+            to_deadline
         } else {
-            let limit_left = self.max_interval_s - (self.t - self.switch_changed_t);
-            let t_limit = if self.cmd.deadline_s.is_finite() {
-                to_deadline
-            } else {
-                limit_left.max(0.0)
-            };
-            let scan = first_event(&flow, &z0, evs, t_limit, self.max_step_s, &mut self.work);
-            if scan.event.is_none() && !self.cmd.deadline_s.is_finite() {
-                return Err(SimError::IntervalTooLong {
-                    switch: if self.cmd.switch_on { "on" } else { "off" },
-                    what: self.controller.waiting_for(),
-                    limit_s: self.max_interval_s,
-                    current_a: scan.z[X_IL],
-                    led_voltage_v: (lin.row(Signal::LedVoltage) * scan.z)[0],
-                    time_s: self.t + scan.t,
-                });
-            }
-            (scan.t, scan.z, scan.event)
+            (self.max_interval_s - (self.t - self.switch_changed_t)).max(0.0)
         };
+        let start = ScanStart {
+            due: true,
+            threshold: threshold_slot,
+            last_fired: if self.remember_event_times {
+                &set.last_fired[first..n]
+            } else {
+                &[]
+            },
+        };
+        let scan = first_event(
+            &flow,
+            &z0,
+            evs,
+            start,
+            t_limit,
+            self.max_step_s,
+            &mut self.work,
+        );
+        if scan.event.is_none() && !self.cmd.deadline_s.is_finite() {
+            return Err(SimError::IntervalTooLong {
+                switch: if self.cmd.switch_on { "on" } else { "off" },
+                what: self.controller.waiting_for(),
+                limit_s: self.max_interval_s,
+                current_a: scan.z[X_IL],
+                led_voltage_v: (lin.row(Signal::LedVoltage) * scan.z)[0],
+                time_s: self.t + scan.t,
+            });
+        }
+        let (dt, z1, fired) = (scan.t, scan.z, scan.event);
+        if let Some(j) = fired.filter(|_| dt > 0.0 && self.remember_event_times) {
+            set.last_fired[j + first] = scan.t_zero;
+        }
         if !z1.iter().all(|v| v.is_finite()) {
             return Err(SimError::NonFinite {
                 time_s: self.t + dt,
@@ -767,7 +785,15 @@ impl ExactEngine {
                 // A turning point: the derivative crosses zero.
                 let drow = if da > 0.0 { -dr } else { dr };
                 let ev = EventFn::new(drow, &lin.m);
-                let sc = first_event(flow, z0, &[ev], dt, f64::INFINITY, work);
+                let sc = first_event(
+                    flow,
+                    z0,
+                    &[ev],
+                    ScanStart::default(),
+                    dt,
+                    f64::INFINITY,
+                    work,
+                );
                 if sc.event.is_some() {
                     let v = (r * sc.z)[0];
                     vmax = vmax.max(v);
@@ -848,6 +874,9 @@ struct EventSet {
     watch_partner: usize,
     /// `i_L` rising through zero.
     il_event: EventFn,
+    /// Per slot, how long after its interval's start the event last fired
+    /// (NaN: not yet), the first guess of the next scan.
+    last_fired: [f64; MAX_EVENTS],
     /// `(t, e^{M t})` for the last few timer lengths spent in this region
     /// (a fixed off-time, delay or blanking time: one region can see
     /// several), replaced oldest first.
@@ -974,6 +1003,7 @@ fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> EventSet {
         n,
         watch_partner,
         il_event,
+        last_fired: [f64::NAN; MAX_EVENTS],
         timers: [None; TIMERS_PER_REGION],
         timer_next: 0,
     }
@@ -1125,6 +1155,55 @@ mod tests {
             ]
         ));
         assert_eq!(evs[3].row, other);
+    }
+
+    /// Remembered event times change the cycles by no more than their
+    /// acceptance window (1e-12 of a step in event time) and save
+    /// exponentials: the same designs run side by side with and without.
+    #[test]
+    fn remembered_event_times_save_work_and_change_nothing() {
+        let mut hyst = template();
+        hyst.controller = crate::scenario::ControllerSpec::Hysteretic {
+            upper_current_a: 0.8,
+            lower_current_a: 0.6,
+            turn_off_delay_s: 60e-9,
+            turn_on_delay_s: 60e-9,
+        };
+        for s in [template(), hyst] {
+            let mut with = ExactEngine::new(&s);
+            let mut without = ExactEngine::new(&s);
+            without.remember_event_times = false;
+            let scale = [1.0, 1.0, s.supply.voltage_v];
+            let mut worst: f64 = 0.0;
+            for k in 0..400 {
+                if k == 200 {
+                    with.work = WorkCounts::default();
+                    without.work = WorkCounts::default();
+                }
+                with.run_cycle(None, None).expect("cycle");
+                without.run_cycle(None, None).expect("cycle");
+                let (a, b) = (with.state_array(), without.state_array());
+                for i in 0..N_STATES {
+                    worst = worst.max(((a[i] - b[i]) / scale[i]).abs());
+                }
+            }
+            assert!(worst <= 1e-12, "{}: states differ by {worst:.1e}", s.name);
+            // Each event at most 1e-12 of its step late: the clocks agree
+            // to that share of the time run.
+            let dt = (with.t - without.t).abs();
+            assert!(
+                dt <= 1e-12 * with.t,
+                "{}: times differ by {dt:.1e} s",
+                s.name
+            );
+            assert_eq!(with.intervals, without.intervals, "{}", s.name);
+            let (a, b) = (with.work.exponentials, without.work.exponentials);
+            assert!(
+                2 * a < b,
+                "{}: {a} exponentials remembering, {b} not",
+                s.name
+            );
+        }
     }
 
     /// In every region the template's cycles visit, an event marked as the

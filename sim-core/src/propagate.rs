@@ -231,6 +231,18 @@ impl EventFn {
     }
 }
 
+/// A remembered firing time is tried when it is within this fraction of
+/// the start's second-order prediction (which is seen to err by up to about
+/// 1 %, the remembered time by round-off once the orbit is periodic).
+const REMEMBERED_AGREEMENT: f64 = 0.05;
+
+/// How far past a remembered firing time the first step aims, relative.
+const REMEMBERED_LATE: f64 = 5e-13;
+
+/// A step aimed at a remembered firing time lands on its event when at
+/// most this fraction of the step past it.
+const REMEMBERED_ACCEPT: f64 = 1e-12;
+
 /// Prediction-led steps in one scan before it falls back to even steps.
 const PREDICTED_STEPS: u32 = 200;
 
@@ -250,6 +262,9 @@ pub struct ScanResult {
     pub event: Option<usize>,
     /// State at `t`.
     pub z: Aug,
+    /// The fired event's zero, estimated by a Newton step from `t` (`t`
+    /// itself when no event fired): where a step aimed at it should land.
+    pub t_zero: f64,
 }
 
 /// Whether `h + d·τ + c·τ²/2` (with `h < 0`) reaches zero for some
@@ -283,8 +298,46 @@ fn predict_zero(h: f64, d: f64, c: f64) -> Option<f64> {
     (r > 0.0 && r.is_finite()).then_some(r)
 }
 
+/// How [`first_event`] starts: whether an event already at zero ends it
+/// at once, and when each event fired the last time this scan ran.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct ScanStart<'a> {
+    /// An event already due at the start ends the scan there (`t = 0`):
+    /// the threshold (below) when it is at or above zero, any other event
+    /// when above zero by more than round-off, or at zero to round-off and
+    /// rising. The first due in slot order is reported.
+    pub due: bool,
+    /// The slot, if any, of a threshold that fires at exactly zero.
+    pub threshold: Option<usize>,
+    /// Per slot, the time from the start at which that event fired the
+    /// last time (NaN: none). In a periodic orbit the same event fires at
+    /// the same time cycle after cycle; a remembered time that agrees with
+    /// this start's second-order prediction is tried first, aimed a hair
+    /// late, so the first step usually lands on the event.
+    pub last_fired: &'a [f64],
+}
+
+/// Whether event `ev`, at value `h` and slope `d`, is due at the start
+/// (see [`ScanStart::due`]).
+#[inline]
+fn due_at_start(ev: &EventFn, z: &Aug, h: f64, d: f64, threshold: bool) -> bool {
+    if threshold {
+        return h >= 0.0;
+    }
+    let rising = d > 0.0;
+    if h <= 0.0 && !rising {
+        // At or below zero and not rising: not due, whatever the round-off
+        // scale (the common case; skips computing it).
+        return false;
+    }
+    let tol = 1e-12 * ev.magnitude(z);
+    h > tol || (h > -tol && rising)
+}
+
 /// Finds the first upward zero crossing of any event over `(0, t_limit]`
-/// from `z0`, or reports reaching `t_limit`. `max_step` bounds the scan
+/// from `z0`, or reports reaching `t_limit` (`start` says whether an
+/// event already at zero at the start ends it there, and when each event
+/// fired the last time). `max_step` bounds the scan
 /// step (a fraction of the fastest natural period).
 ///
 /// Each step goes to the earliest second-order (Taylor) prediction of a
@@ -295,6 +348,7 @@ pub fn first_event(
     flow: &Flow,
     z0: &Aug,
     events: &[EventFn],
+    start: ScanStart,
     t_limit: f64,
     max_step: f64,
     work: &mut WorkCounts,
@@ -307,6 +361,19 @@ pub fn first_event(
     for j in 0..n {
         h_a[j] = events[j].value(&z_a);
         d_a[j] = events[j].slope(&z_a);
+    }
+    if start.due {
+        let due = (0..n).position(|j| {
+            due_at_start(&events[j], &z_a, h_a[j], d_a[j], start.threshold == Some(j))
+        });
+        if due.is_some() {
+            return ScanResult {
+                t: 0.0,
+                event: due,
+                z: z_a,
+                t_zero: 0.0,
+            };
+        }
     }
     // Step cap after a suspected double crossing, and retries at this point.
     let mut cap = f64::INFINITY;
@@ -322,9 +389,12 @@ pub fn first_event(
                 t: t_limit,
                 event: None,
                 z: z_a,
+                t_zero: t_limit,
             };
         }
         let mut step = remaining.min(max_step).min(cap);
+        // Whether this step aims at a remembered firing time.
+        let mut aimed = false;
         if steps > PREDICTED_STEPS {
             // Fall back to even steps over what is left (the Hermite test
             // still catches a crossing inside one).
@@ -333,6 +403,10 @@ pub fn first_event(
                 .max(remaining.min(1e-12));
         }
         if steps <= PREDICTED_STEPS {
+            // The largest step allowed, and the earliest remembered firing
+            // time that agrees with its event's prediction.
+            let allowed = step;
+            let mut remembered = f64::INFINITY;
             for j in 0..n {
                 if h_a[j] < 0.0 {
                     let c = events[j].curvature(&z_a);
@@ -345,8 +419,20 @@ pub fn first_event(
                     if let Some(tau) = predict_zero(h_a[j], d_a[j], c) {
                         // Aim a hair past the prediction so a good one brackets.
                         step = step.min(tau * (1.0 + 1e-9) + 1e-18);
+                        let last = start.last_fired.get(j).copied().unwrap_or(f64::NAN);
+                        if steps == 1 && (last - tau).abs() <= REMEMBERED_AGREEMENT * tau {
+                            remembered = remembered.min(last);
+                        }
                     }
                 }
+            }
+            // The remembered time, a hair late (so an unchanged orbit
+            // brackets its event by about 1e-12 of the step), when no other
+            // event is predicted clearly earlier and the step may be that long.
+            let aim = remembered * (1.0 + REMEMBERED_LATE);
+            if aim < allowed && aim <= step * (1.0 + REMEMBERED_AGREEMENT) {
+                step = aim;
+                aimed = true;
             }
         }
         let t_b = if step >= remaining {
@@ -366,8 +452,15 @@ pub fn first_event(
                 // Crossed. A step aimed a hair past a good prediction lands
                 // within a few 1e-9 of the step after the root: accept it
                 // there (the event time is then off by well under 1e-12 s).
-                let close =
-                    h_b[j] <= events[j].zero_tol(&z_b) || h_b[j] <= d_b[j] * (4e-9 * step + 1e-16);
+                // A step aimed at a remembered time is accepted only within
+                // 1e-12 of the step (as refinement ends): what was remembered
+                // must not move the result by more.
+                let late = if aimed {
+                    REMEMBERED_ACCEPT * step
+                } else {
+                    4e-9 * step + 1e-16
+                };
+                let close = h_b[j] <= events[j].zero_tol(&z_b) || h_b[j] <= d_b[j] * late;
                 let (tau, z) = if close {
                     (step, z_b)
                 } else {
@@ -379,10 +472,17 @@ pub fn first_event(
             }
         }
         if let Some((tau, j, z)) = best {
+            let (h, d) = (events[j].value(&z), events[j].slope(&z));
+            let back = if d > 0.0 {
+                (h / d).clamp(0.0, tau)
+            } else {
+                0.0
+            };
             return ScanResult {
                 t: t_a + tau,
                 event: Some(j),
                 z,
+                t_zero: t_a + tau - back,
             };
         }
         // No crossing at the step's ends: could one hide inside it?
@@ -645,7 +745,15 @@ mod tests {
             m: &m,
             spectral: None,
         };
-        let r = first_event(&flow, &z0, &[ev], 1.0, 0.25 / w_rad, &mut work);
+        let r = first_event(
+            &flow,
+            &z0,
+            &[ev],
+            ScanStart::default(),
+            1.0,
+            0.25 / w_rad,
+            &mut work,
+        );
         assert_eq!(r.event, Some(0));
         assert!(
             (r.t - std::f64::consts::FRAC_PI_6 / w_rad).abs() < 1e-13,
@@ -672,13 +780,29 @@ mod tests {
             m: &m,
             spectral: None,
         };
-        let r = first_event(&flow, &z0, &[ev], 5e-5, 0.25 / w_rad, &mut work);
+        let r = first_event(
+            &flow,
+            &z0,
+            &[ev],
+            ScanStart::default(),
+            5e-5,
+            0.25 / w_rad,
+            &mut work,
+        );
         assert_eq!(r.event, None);
         // ...but one just below the peak is found.
         let mut row2 = row;
         row2[3] = -0.9999 / w_rad;
         let ev2 = EventFn::new(row2, &m);
-        let r2 = first_event(&flow, &z0, &[ev2], 5e-5, 0.25 / w_rad, &mut work);
+        let r2 = first_event(
+            &flow,
+            &z0,
+            &[ev2],
+            ScanStart::default(),
+            5e-5,
+            0.25 / w_rad,
+            &mut work,
+        );
         assert_eq!(r2.event, Some(0));
     }
 }
