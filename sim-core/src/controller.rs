@@ -44,6 +44,19 @@ pub trait Controller: Send {
     fn start(&mut self, t_s: f64) -> Command;
     /// Called when the deadline passes or the threshold is crossed.
     fn on_event(&mut self, t_s: f64, cause: Cause, inductor_current_a: f64) -> Command;
+    /// [`Controller::on_event`], writing the command into `cmd`: the
+    /// callee's stores land where the engine reads them, with no copy of a
+    /// just-written command in between (a copy in wider words than the
+    /// fields were stored in waits for the stores to retire).
+    fn on_event_into(
+        &mut self,
+        t_s: f64,
+        cause: Cause,
+        inductor_current_a: f64,
+        cmd: &mut Command,
+    ) {
+        *cmd = self.on_event(t_s, cause, inductor_current_a);
+    }
     /// A short description of what the controller is waiting for, for
     /// error messages.
     fn waiting_for(&self) -> String;

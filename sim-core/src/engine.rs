@@ -530,7 +530,10 @@ impl ExactEngine {
                 time_s: self.t + scan.t,
             });
         }
-        let (dt, z1, fired) = (scan.t, scan.z, scan.event);
+        let (dt, fired) = (scan.t, scan.event);
+        // Read in place: a copy of the state the scan just stored, in wider
+        // words than it was stored in, would wait for those stores.
+        let z1 = &scan.z;
         if let Some(j) = fired.filter(|_| dt > 0.0 && self.remember_event_times) {
             set.last_fired[j + first] = scan.t_zero;
         }
@@ -549,12 +552,12 @@ impl ExactEngine {
                 None if dt > 0.0 => End::Deadline,
                 None => End::Immediate,
             };
-            propagate_sensitivity(sens, &flow, &z1, dt, ended, &mut self.work);
+            propagate_sensitivity(sens, &flow, z1, dt, ended, &mut self.work);
         }
 
         // Track the visited current ranges for the next refit.
         let i_led0 = dot4(&i_led_row, &z0);
-        let i_led1 = dot4(&i_led_row, &z1);
+        let i_led1 = dot4(&i_led_row, z1);
         if region.led_segment.is_some() {
             self.led_range.0 = self.led_range.0.min(i_led0.min(i_led1));
             self.led_range.1 = self.led_range.1.max(i_led0.max(i_led1));
@@ -567,11 +570,11 @@ impl ExactEngine {
 
         if dt > 0.0 {
             if let Some(tot) = totals.as_deref_mut() {
-                self.accumulate(&flow, tot, lin, region, &z0, &z1, dt);
+                self.accumulate(&flow, tot, lin, region, &z0, z1, dt);
             }
             if let Some(r) = rec {
                 if r.wants_interval() {
-                    self.record(r, &flow, lin, &z0, &z1, dt);
+                    self.record(r, &flow, lin, &z0, z1, dt);
                 }
             }
         }
@@ -601,6 +604,7 @@ impl ExactEngine {
         // The next region is built in a local and stored once, with its
         // key (see `set_region`).
         let mut next = region;
+        let mut key = None;
         match act {
             Action::Controller => {
                 let cause = if fired.is_some() {
@@ -609,7 +613,8 @@ impl ExactEngine {
                     Cause::Deadline
                 };
                 let was_on = self.cmd.switch_on;
-                self.cmd = self.controller.on_event(self.t, cause, self.x[X_IL]);
+                self.controller
+                    .on_event_into(self.t, cause, self.x[X_IL], &mut self.cmd);
                 // Read back field by field: copying the whole command would
                 // reload the callee's narrow stores in wide words, which
                 // stalls store forwarding.
@@ -663,20 +668,44 @@ impl ExactEngine {
                 next.conducting = true;
                 next.led_segment = Some(0);
             }
-            Action::DiodeDown => next.diode_segment -= 1,
-            Action::DiodeUp => next.diode_segment += 1,
-            Action::LedDown => {
-                next.led_segment = next.led_segment.map(|k| k - 1);
+            // A step of one segment moves one byte of the key by one; the
+            // key is stepped from the old one (see `region_key`) rather than
+            // recomputed from the bytes of `next` just stored one by one.
+            Action::DiodeDown => {
+                next.diode_segment -= 1;
+                key = Some(self.region_key - (1 << 8));
             }
-            Action::LedUp => {
+            Action::DiodeUp => {
+                next.diode_segment += 1;
+                key = Some(self.region_key + (1 << 8));
+            }
+            // LED segments are keyed one up (0 for none): LedOff leaves
+            // segment 0, LedOn enters it.
+            Action::LedDown | Action::LedOff => {
+                next.led_segment = next.led_segment.and_then(|k| k.checked_sub(1));
+                key = Some(self.region_key - (1 << 16));
+            }
+            Action::LedUp | Action::LedOn => {
                 next.led_segment = Some(next.led_segment.map_or(0, |k| k + 1));
+                key = Some(self.region_key + (1 << 16));
             }
-            Action::LedOff => next.led_segment = None,
-            Action::LedOn => next.led_segment = Some(0),
-            Action::SatDown => next.l_segment -= 1,
-            Action::SatUp => next.l_segment += 1,
+            Action::SatDown => {
+                next.l_segment -= 1;
+                key = Some(self.region_key - (1 << 24));
+            }
+            Action::SatUp => {
+                next.l_segment += 1;
+                key = Some(self.region_key + (1 << 24));
+            }
         }
-        self.set_region(next);
+        match key {
+            Some(k) => {
+                debug_assert_eq!(k, region_key(next));
+                self.region = next;
+                self.region_key = k;
+            }
+            None => self.set_region(next),
+        }
         Ok(turned_on)
     }
 
