@@ -872,7 +872,8 @@ impl ExactEngine {
 
     #[allow(clippy::too_many_arguments)] // One interval's ends and model.
     fn record(&mut self, r: &mut Recorder, flow: &Flow, lin: &Linear, z0: &Aug, z1: &Aug, dt: f64) {
-        r.push(self.sample(lin, z0, self.t));
+        // The start repeats the last interval's end unless a signal jumped.
+        r.push_unless_repeat(self.sample(lin, z0, self.t));
         let k = r.per_interval;
         for j in 1..=k {
             let tau = dt * j as f64 / (k + 1) as f64;

@@ -2,7 +2,8 @@
 //!
 //! A [`Waveform`] is an `ndarray` table, one row per sample and one column
 //! per [`COLUMNS`] entry. Samples fall at every event (twice, before and
-//! after, where a signal jumps) and at evenly spaced points in between.
+//! after, where a signal jumps: see [`Recorder::push_unless_repeat`]) and
+//! at evenly spaced points in between.
 //! The start-up recorder keeps memory bounded by dropping every other
 //! sample and thinning later intervals whenever it is full.
 
@@ -110,6 +111,21 @@ impl Recorder {
         }
     }
 
+    /// Adds a sample unless it repeats the last one: the same time and
+    /// every value equal to within round-off (1e-12 relative). An event
+    /// where no signal jumps (a timer, a chord boundary of a fitted curve)
+    /// is then sampled once, one where a signal jumps twice.
+    pub fn push_unless_repeat(&mut self, s: Sample) {
+        if let Some(last) = self.samples.last() {
+            let close = |k: usize| (last[k] - s[k]).abs() <= 1e-12 * (last[k].abs() + s[k].abs());
+            let same = last[0].to_bits() == s[0].to_bits() && (1..s.len()).all(close);
+            if same {
+                return;
+            }
+        }
+        self.push(s);
+    }
+
     /// Marks the start of a switching cycle. A bounded recorder thins the
     /// cycle starts as it thins samples (every other one kept when full),
     /// so a million-cycle start-up holds no per-cycle list either.
@@ -152,6 +168,27 @@ fn keep_every_other<T>(v: &mut Vec<T>) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A sample repeating the last one (same time, values equal to
+    /// round-off) is dropped; a jump in any value, or a later time, is kept.
+    #[test]
+    fn repeated_samples_are_kept_once() {
+        let mut r = Recorder::new(0, 0);
+        let a = [1e-3, 0.5, 0.5, 9.0, 12.0, 12.0, 1.0];
+        r.push(a);
+        let mut round_off = a;
+        round_off[3] = 9.0 * (1.0 + 4e-16);
+        r.push_unless_repeat(round_off);
+        assert_eq!(r.samples.len(), 1);
+        let mut jump = a;
+        jump[4] = -0.4;
+        r.push_unless_repeat(jump);
+        assert_eq!(r.samples.len(), 2);
+        let mut later = jump;
+        later[0] = 1e-3 + 1e-12;
+        r.push_unless_repeat(later);
+        assert_eq!(r.samples.len(), 3);
+    }
 
     /// A bounded recorder never holds more than its cap of samples or of
     /// cycle starts, however long the run, and keeps the start of the run.
