@@ -11,7 +11,11 @@
 //! floor is the least arithmetic a cycle of a two-state buck can cost —
 //! two closed-form 2x2 matrix exponentials (the on-time's threshold
 //! search, at its best two trajectory evaluations) and one precomputed
-//! affine update (the fixed off-time).
+//! affine update (the fixed off-time). The floor figures are each the
+//! least of many short batches, the floor's and the engine's taken in
+//! turn (see `BATCHES`), since the machines these run on are shared; event
+//! recording is timed with a bounded recorder already in use (as a long
+//! start-up recording runs) and with every sample kept in fresh memory.
 
 use chopwave_suite::{allocations, CountingAlloc};
 use criterion::{criterion_group, criterion_main, Criterion};
@@ -198,11 +202,25 @@ fn batch(n: usize, mut f: impl FnMut()) -> f64 {
     t.elapsed().as_secs_f64() / n as f64
 }
 
-/// Batches per figure: each figure is the least over this many batches,
-/// the floor's and the engine's taken in turn, so a burst of load from the
-/// rest of the machine (a shared host) slows a batch of each alike and the
-/// least batch of each is the undisturbed one.
-const BATCHES: usize = 25;
+/// Batches per figure and round: each figure is the least over this many
+/// batches in each of [`ROUNDS`] rounds through the designs, the floor's
+/// and the engine's taken in turn, so a burst of load from the rest of the
+/// machine (a shared host) slows a batch of each alike, and a longer one
+/// spoils one round of a design, not all.
+const BATCHES: usize = 10;
+
+/// Rounds through the designs (see [`BATCHES`]).
+const ROUNDS: usize = 4;
+
+/// One design's engine, recorders and least times so far (floor, exact,
+/// bounded recording, unbounded recording), s per cycle.
+struct Timed {
+    name: String,
+    exact: ExactEngine,
+    bounded: Recorder,
+    unbounded: Recorder,
+    least: [f64; 4],
+}
 
 fn floor(c: &mut Criterion) {
     let mut f = Floor::new();
@@ -210,43 +228,63 @@ fn floor(c: &mut Criterion) {
         f.cycle();
     }
     println!(
-        "floor and engines: least of {BATCHES} alternating batches each (floor 20 000 cycles, \
-         engine 2 000)"
+        "floor and engines: least of {} alternating batches each ({ROUNDS} rounds of {BATCHES}; \
+         floor 20 000 cycles, engine 2 000)",
+        ROUNDS * BATCHES
     );
     let mut designs = chopwave_suite::realistic_set();
     designs.push(chopwave_suite::lamp_12v_hysteretic_with_output_cap());
-    let mut floors = Vec::new();
-    for s in designs {
-        let mut exact = settled(ExactEngine::new(&s), 200);
-        // Event recording as a long run does it: a bounded recorder (as
-        // the start-up recording) whose buffer is already in use, and, for
-        // comparison, an unbounded one filling fresh memory (page faults
-        // included).
-        let mut bounded = Recorder::new(0, 1 << 16);
-        for _ in 0..20_000 {
-            exact.run_cycle(None, Some(&mut bounded)).expect("cycle");
+    let mut timed: Vec<Timed> = designs
+        .iter()
+        .map(|s| {
+            let mut exact = settled(ExactEngine::new(s), 200);
+            // Event recording as a long run does it: a bounded recorder (as
+            // the start-up recording) whose buffer is already in use, and,
+            // for comparison, an unbounded one filling fresh memory (page
+            // faults included).
+            let mut bounded = Recorder::new(0, 1 << 16);
+            for _ in 0..20_000 {
+                exact.run_cycle(None, Some(&mut bounded)).expect("cycle");
+            }
+            Timed {
+                name: s.name.clone(),
+                exact,
+                bounded,
+                unbounded: Recorder::new(0, 0),
+                least: [f64::INFINITY; 4],
+            }
+        })
+        .collect();
+    for _ in 0..ROUNDS {
+        for d in &mut timed {
+            for _ in 0..BATCHES {
+                let times = [
+                    batch(20_000, || f.cycle()),
+                    batch(2_000, || d.exact.run_cycle(None, None).expect("cycle")),
+                    batch(2_000, || {
+                        d.exact
+                            .run_cycle(None, Some(&mut d.bounded))
+                            .expect("cycle")
+                    }),
+                    batch(2_000, || {
+                        d.exact
+                            .run_cycle(None, Some(&mut d.unbounded))
+                            .expect("cycle")
+                    }),
+                ];
+                for (l, t) in d.least.iter_mut().zip(times) {
+                    *l = l.min(t);
+                }
+            }
         }
-        let mut unbounded = Recorder::new(0, 0);
-        let (mut t_floor, mut t_exact, mut t_rec, mut t_fresh) =
-            (f64::INFINITY, f64::INFINITY, f64::INFINITY, f64::INFINITY);
-        for _ in 0..BATCHES {
-            t_floor = t_floor.min(batch(20_000, || f.cycle()));
-            t_exact = t_exact.min(batch(2_000, || exact.run_cycle(None, None).expect("cycle")));
-            t_rec = t_rec.min(batch(2_000, || {
-                exact.run_cycle(None, Some(&mut bounded)).expect("cycle")
-            }));
-            t_fresh = t_fresh.min(batch(2_000, || {
-                exact.run_cycle(None, Some(&mut unbounded)).expect("cycle")
-            }));
-        }
-        black_box(f.x);
-        black_box(bounded.finish());
-        black_box(unbounded.finish());
-        floors.push(t_floor);
+    }
+    black_box(f.x);
+    for d in timed {
+        let [t_floor, t_exact, t_rec, t_fresh] = d.least;
         println!(
             "{}: exact {:.0} ns/cycle = {:.1}x the floor ({:.1} ns); with event recording {:.0} \
              ns/cycle ({:.2} M cycles/s), every sample kept in fresh memory {:.0} ns/cycle",
-            s.name,
+            d.name,
             t_exact * 1e9,
             t_exact / t_floor,
             t_floor * 1e9,
@@ -254,16 +292,9 @@ fn floor(c: &mut Criterion) {
             1e-6 / t_rec,
             t_fresh * 1e9,
         );
+        black_box(d.bounded.finish());
+        black_box(d.unbounded.finish());
     }
-    let (lo, hi) = floors
-        .iter()
-        .fold((f64::INFINITY, 0.0f64), |(a, b), &t| (a.min(t), b.max(t)));
-    println!(
-        "floor: {:.1}–{:.1} ns/cycle over the designs' runs (two closed-form 2x2 exponentials + \
-         one affine update)",
-        lo * 1e9,
-        hi * 1e9
-    );
     c.bench_function("floor/two-exponentials-one-affine", |b| {
         b.iter(|| f.cycle())
     });
