@@ -378,6 +378,8 @@ pub fn first_event(
     // Step cap after a suspected double crossing, and retries at this point.
     let mut cap = f64::INFINITY;
     let mut retries = 0u32;
+    // The event and remembered time the first step aimed at, if it did.
+    let mut aimed_at: Option<(usize, f64)> = None;
     // Steps taken; past PREDICTED_STEPS the predictions are ignored so a
     // function creeping towards zero cannot stall the scan (Zeno steps).
     let mut steps = 0u32;
@@ -393,7 +395,7 @@ pub fn first_event(
             };
         }
         let mut step = remaining.min(max_step).min(cap);
-        // Whether this step aims at a remembered firing time.
+        // Whether this step aims at a remembered firing time, and which.
         let mut aimed = false;
         if steps > PREDICTED_STEPS {
             // Fall back to even steps over what is left (the Hermite test
@@ -407,6 +409,7 @@ pub fn first_event(
             // time that agrees with its event's prediction.
             let allowed = step;
             let mut remembered = f64::INFINITY;
+            let mut remembered_slot = usize::MAX;
             for j in 0..n {
                 if h_a[j] < 0.0 {
                     let c = events[j].curvature(&z_a);
@@ -420,8 +423,12 @@ pub fn first_event(
                         // Aim a hair past the prediction so a good one brackets.
                         step = step.min(tau * (1.0 + 1e-9) + 1e-18);
                         let last = start.last_fired.get(j).copied().unwrap_or(f64::NAN);
-                        if steps == 1 && (last - tau).abs() <= REMEMBERED_AGREEMENT * tau {
-                            remembered = remembered.min(last);
+                        if steps == 1
+                            && (last - tau).abs() <= REMEMBERED_AGREEMENT * tau
+                            && last < remembered
+                        {
+                            remembered = last;
+                            remembered_slot = j;
                         }
                     }
                 }
@@ -433,6 +440,7 @@ pub fn first_event(
             if aim < allowed && aim <= step * (1.0 + REMEMBERED_AGREEMENT) {
                 step = aim;
                 aimed = true;
+                aimed_at = Some((remembered_slot, remembered));
             }
         }
         let t_b = if step >= remaining {
@@ -473,16 +481,24 @@ pub fn first_event(
         }
         if let Some((tau, j, z)) = best {
             let (h, d) = (events[j].value(&z), events[j].slope(&z));
-            let back = if d > 0.0 {
-                (h / d).clamp(0.0, tau)
-            } else {
-                0.0
+            let hit = tau.to_bits() == step.to_bits() && h >= -events[j].zero_tol(&z);
+            let t_zero = match aimed_at {
+                // Landed where aimed, at zero to round-off or past it: the
+                // remembered time still serves. (A fresh estimate from every
+                // landing would carry the round-off of the state there into
+                // the next aim, and drift.)
+                Some((slot, last)) if aimed && slot == j && hit => last,
+                // Else from the landing by a Newton step, either way: a
+                // touch accepted just short of zero has its zero a hair
+                // later, and the next aim should move there.
+                _ if d > 0.0 => t_a + tau - (h / d).clamp(-tau, tau),
+                _ => t_a + tau,
             };
             return ScanResult {
                 t: t_a + tau,
                 event: Some(j),
                 z,
-                t_zero: t_a + tau - back,
+                t_zero,
             };
         }
         // No crossing at the step's ends: could one hide inside it?
