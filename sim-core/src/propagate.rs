@@ -262,8 +262,10 @@ pub struct ScanResult {
     pub event: Option<usize>,
     /// State at `t`.
     pub z: Aug,
-    /// The fired event's zero, estimated by a Newton step from `t` (`t`
-    /// itself when no event fired): where a step aimed at it should land.
+    /// Where the next scan's first step should aim for the fired event
+    /// (see [`ScanStart::last_fired`]): the remembered time when a step
+    /// aimed at it landed on the event, else the event's zero estimated by
+    /// a Newton step from `t` (`t` itself when no event fired).
     pub t_zero: f64,
 }
 
@@ -526,30 +528,33 @@ fn hermite_may_cross(h0: f64, d0: f64, h1: f64, d1: f64, step: f64) -> bool {
         // Falling then rising: a minimum inside, no crossing from below.
         return false;
     }
-    if d0 <= 0.0 && d1 <= 0.0 && h1 <= h0 {
-        // Falling throughout.
-        return false;
-    }
     let (m0, m1) = (d0 * step, d1 * step);
     // The interpolant's Bernstein coefficients are h0, h0 + m0/3,
     // h1 − m1/3, h1, and it lies in their convex hull (G. Farin, *Curves
     // and Surfaces for CAGD*, 5th ed., the Bézier form of cubic Hermite
-    // interpolation): all negative, it stays below zero. This settles the common case, a function still rising towards
-    // its event, without sampling.
+    // interpolation): all negative, it stays below zero. This settles the
+    // common case, a function still rising towards its event, without
+    // sampling.
     if h0 + m0 / 3.0 < 0.0 && h1 - m1 / 3.0 < 0.0 {
         return false;
     }
-    // Sample the interpolant.
-    (1..8).any(|k| {
-        let s = k as f64 / 8.0;
-        let s2 = s * s;
-        let s3 = s2 * s;
-        let v = (2.0 * s3 - 3.0 * s2 + 1.0) * h0
-            + (s3 - 2.0 * s2 + s) * m0
-            + (-2.0 * s3 + 3.0 * s2) * h1
-            + (s3 - s2) * m1;
-        v >= 0.0
-    })
+    // Its largest value inside: at a turning point, where the derivative
+    // m0 + 2b·s + 3a·s² (the power form's coefficients below) is zero.
+    let a = 2.0 * h0 + m0 - 2.0 * h1 + m1;
+    let b = -3.0 * h0 - 2.0 * m0 + 3.0 * h1 - m1;
+    let value = |s: f64| h0 + s * (m0 + s * (b + s * a));
+    let inside = |s: f64| s > 0.0 && s < 1.0 && value(s) >= 0.0;
+    if a == 0.0 {
+        // A quadratic (or a line): one turning point, if any.
+        return b != 0.0 && inside(-m0 / (2.0 * b));
+    }
+    let disc = b * b - 3.0 * a * m0;
+    if disc < 0.0 {
+        // Monotone: no turning point inside, and both ends are negative.
+        return false;
+    }
+    let r = disc.sqrt();
+    inside((-b + r) / (3.0 * a)) || inside((-b - r) / (3.0 * a))
 }
 
 /// Locates the crossing of `ev` in `(0, step]` given `h(0) < 0 < h(step)`
@@ -624,6 +629,48 @@ fn refine(
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    /// The convex-hull shortcut never hides a crossing: over a grid of
+    /// cubic Hermite pieces negative at both ends, whenever dense sampling
+    /// of the piece finds it at or above zero, `hermite_may_cross` says a
+    /// crossing may hide inside.
+    #[test]
+    fn hermite_test_never_misses_a_sampled_crossing() {
+        let vals = [-3.0, -1.0, -0.3, -1e-3, 0.0, 1e-3, 0.3, 1.0, 3.0, 10.0];
+        let ends = [-1.0, -0.3, -1e-2, -1e-6];
+        let mut crossings = 0;
+        for &h0 in &ends {
+            for &h1 in &ends {
+                for &d0 in &vals {
+                    for &d1 in &vals {
+                        let step = 0.7;
+                        let (m0, m1) = (d0 * step, d1 * step);
+                        let peak = (0..=400)
+                            .map(|k| {
+                                let s = f64::from(k) / 400.0;
+                                let (s2, s3) = (s * s, s * s * s);
+                                (2.0 * s3 - 3.0 * s2 + 1.0) * h0
+                                    + (s3 - 2.0 * s2 + s) * m0
+                                    + (-2.0 * s3 + 3.0 * s2) * h1
+                                    + (s3 - s2) * m1
+                            })
+                            .fold(f64::NEG_INFINITY, f64::max);
+                        if peak >= 0.0 {
+                            crossings += 1;
+                            assert!(
+                                hermite_may_cross(h0, d0, h1, d1, step),
+                                "h0 {h0} d0 {d0} h1 {h1} d1 {d1}: peak {peak}"
+                            );
+                        }
+                    }
+                }
+            }
+        }
+        assert!(
+            crossings > 20,
+            "only {crossings} crossing pieces in the grid"
+        );
+    }
 
     /// The one-division root picks the same root as taking both roots and
     /// the smallest positive one.
