@@ -477,13 +477,14 @@ impl ExactEngine {
         // The threshold and a region event on the same current in the same
         // direction differ by a constant: the one with the larger constant
         // comes first (the threshold on a tie) and the other is left out.
+        // A threshold already reached stays, to fire at once.
         let mut first = first;
         let mut n = n;
         let p = set.watch_partner;
         if first == 0 && p != 0 && same_state_part(&evs[0], &evs[p]) {
             if evs[0].row[X_ONE] >= evs[p].row[X_ONE] {
                 n = p;
-            } else {
+            } else if evs[0].value(&z0) < 0.0 {
                 first = 1;
             }
         }
