@@ -57,11 +57,18 @@ const NO_KEY: u32 = u32::MAX;
 fn region_key(r: Region) -> u32 {
     let led = r.led_segment.map_or(0, |k| u32::from(k) + 1) & 0xFF;
     u32::from(r.switch_on)
-        | u32::from(r.conducting) << 1
-        | u32::from(r.diode_segment) << 8
-        | led << 16
-        | u32::from(r.l_segment) << 24
+        | (u32::from(r.conducting) << 1)
+        | (u32::from(r.diode_segment) * KEY_DIODE_STEP)
+        | (led * KEY_LED_STEP)
+        | (u32::from(r.l_segment) * KEY_L_STEP)
 }
+
+/// One diode segment up in [`region_key`].
+const KEY_DIODE_STEP: u32 = 1 << 8;
+/// One LED segment up in [`region_key`].
+const KEY_LED_STEP: u32 = 1 << 16;
+/// One inductance segment up in [`region_key`].
+const KEY_L_STEP: u32 = 1 << 24;
 
 /// One remembered region.
 #[derive(Debug, Clone, Copy)]
@@ -674,29 +681,29 @@ impl ExactEngine {
             // recomputed from the bytes of `next` just stored one by one.
             Action::DiodeDown => {
                 next.diode_segment -= 1;
-                key = Some(self.region_key - (1 << 8));
+                key = Some(self.region_key - KEY_DIODE_STEP);
             }
             Action::DiodeUp => {
                 next.diode_segment += 1;
-                key = Some(self.region_key + (1 << 8));
+                key = Some(self.region_key + KEY_DIODE_STEP);
             }
             // LED segments are keyed one up (0 for none): LedOff leaves
             // segment 0, LedOn enters it.
             Action::LedDown | Action::LedOff => {
                 next.led_segment = next.led_segment.and_then(|k| k.checked_sub(1));
-                key = Some(self.region_key - (1 << 16));
+                key = Some(self.region_key - KEY_LED_STEP);
             }
             Action::LedUp | Action::LedOn => {
                 next.led_segment = Some(next.led_segment.map_or(0, |k| k + 1));
-                key = Some(self.region_key + (1 << 16));
+                key = Some(self.region_key + KEY_LED_STEP);
             }
             Action::SatDown => {
                 next.l_segment -= 1;
-                key = Some(self.region_key - (1 << 24));
+                key = Some(self.region_key - KEY_L_STEP);
             }
             Action::SatUp => {
                 next.l_segment += 1;
-                key = Some(self.region_key + (1 << 24));
+                key = Some(self.region_key + KEY_L_STEP);
             }
         }
         match key {

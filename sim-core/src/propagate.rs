@@ -397,8 +397,6 @@ pub fn first_event(
             };
         }
         let mut step = remaining.min(max_step).min(cap);
-        // Whether this step aims at a remembered firing time, and which.
-        let mut aimed = false;
         if steps > PREDICTED_STEPS {
             // Fall back to even steps over what is left (the Hermite test
             // still catches a crossing inside one).
@@ -441,10 +439,12 @@ pub fn first_event(
             let aim = remembered * (1.0 + REMEMBERED_LATE);
             if aim < allowed && aim <= step * (1.0 + REMEMBERED_AGREEMENT) {
                 step = aim;
-                aimed = true;
                 aimed_at = Some((remembered_slot, remembered));
             }
         }
+        // Whether this step aims at a remembered firing time (only the first
+        // can; a retry after a suspected double crossing does not).
+        let aimed = steps == 1 && aimed_at.is_some();
         let t_b = if step >= remaining {
             t_limit
         } else {
