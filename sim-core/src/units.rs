@@ -50,7 +50,8 @@ impl Unit {
         match self {
             Unit::Volt => &["V"],
             Unit::Ampere => &["A"],
-            Unit::Ohm => &["ohm", "Ohm", "Ω"],
+            // GREEK CAPITAL LETTER OMEGA (U+03A9) and OHM SIGN (U+2126).
+            Unit::Ohm => &["ohm", "Ohm", "\u{3a9}", "\u{2126}"],
             Unit::Henry => &["H"],
             Unit::Farad => &["F"],
             Unit::Second => &["s"],
@@ -70,16 +71,19 @@ impl Unit {
     }
 }
 
-fn prefix_scale(c: char) -> Option<f64> {
+/// The power of ten an SI prefix stands for (the prefixes the loader
+/// accepts: f p n u/µ/μ m k M G).
+fn prefix_exponent(c: char) -> Option<i32> {
     Some(match c {
-        'f' => 1e-15,
-        'p' => 1e-12,
-        'n' => 1e-9,
-        'u' | 'µ' | 'μ' => 1e-6,
-        'm' => 1e-3,
-        'k' => 1e3,
-        'M' => 1e6,
-        'G' => 1e9,
+        'f' => -15,
+        'p' => -12,
+        'n' => -9,
+        // `u`, MICRO SIGN (U+00B5) and GREEK SMALL LETTER MU (U+03BC).
+        'u' | '\u{b5}' | '\u{3bc}' => -6,
+        'm' => -3,
+        'k' => 3,
+        'M' => 6,
+        'G' => 9,
         _ => return None,
     })
 }
@@ -88,6 +92,11 @@ fn prefix_scale(c: char) -> Option<f64> {
 ///
 /// Returns the value in SI units, or a reason the text is not a number of
 /// that unit. Non-finite results are rejected here too.
+///
+/// The decimal mantissa, its exponent and the prefix are read together as
+/// one decimal number (`"10u"` is read as the text `10e-6`) and rounded to
+/// the nearest `f64` once, so `"10u"` is exactly the same number as `1e-5`
+/// (multiplying 10 by 1e-6 would round twice and give 9.999999999999999e-6).
 pub fn parse_quantity(text: &str, unit: Unit) -> Result<f64, String> {
     let s = text.trim();
     if s.is_empty() {
@@ -106,7 +115,13 @@ pub fn parse_quantity(text: &str, unit: Unit) -> Result<f64, String> {
     if end == digits_start {
         return Err(format!("`{s}` does not start with a number"));
     }
+    let mantissa = &s[..end];
+    // The mantissa alone must be a number (`1.2.3` is not).
+    mantissa
+        .parse::<f64>()
+        .map_err(|_| format!("`{mantissa}` is not a number"))?;
     // Exponent only if followed by digits.
+    let mut exponent: i64 = 0;
     if end < bytes.len() && (bytes[end] == b'e' || bytes[end] == b'E') {
         let mut k = end + 1;
         if k < bytes.len() && (bytes[k] == b'+' || bytes[k] == b'-') {
@@ -117,49 +132,62 @@ pub fn parse_quantity(text: &str, unit: Unit) -> Result<f64, String> {
             k += 1;
         }
         if k > exp_digits {
+            let text = &s[end + 1..k];
+            // A huge exponent saturates: the value is then 0 or infinite.
+            exponent = text.parse::<i64>().unwrap_or(if text.starts_with('-') {
+                -1_000_000
+            } else {
+                1_000_000
+            });
             end = k;
         } else {
             return Err(format!("`{s}` has an exponent with no digits"));
         }
     }
-    let number: f64 = s[..end]
-        .parse()
-        .map_err(|_| format!("`{}` is not a number", &s[..end]))?;
     let suffix = s[end..].trim_start();
-    let scale = suffix_scale(suffix, unit).ok_or_else(|| {
+    let (scale_exp, percent) = suffix_exponent(suffix, unit).ok_or_else(|| {
         let expected = if unit == Unit::Ratio {
             "no unit, or `%`".to_string()
         } else {
             format!(
-                "an optional SI prefix (f p n u m k M G) and optionally `{}`",
+                "an optional SI prefix (f p n u µ m k M G) and optionally `{}`",
                 unit.symbol()
             )
         };
         format!("`{s}`: unknown suffix `{suffix}` (expected {expected})")
     })?;
-    let value = number * scale;
+    let total = exponent
+        .saturating_add(i64::from(scale_exp))
+        .saturating_sub(if percent { 2 } else { 0 })
+        .clamp(-1_000_000, 1_000_000);
+    // One correctly rounded conversion of the whole decimal number.
+    let value: f64 = format!("{mantissa}e{total}")
+        .parse()
+        .map_err(|_| format!("`{s}` is not a number"))?;
     if !value.is_finite() {
         return Err(format!("`{s}` is not a finite number"));
     }
     Ok(value)
 }
 
-fn suffix_scale(suffix: &str, unit: Unit) -> Option<f64> {
+/// The decimal exponent a suffix (prefix and unit symbol) stands for, and
+/// whether it is a percent sign.
+fn suffix_exponent(suffix: &str, unit: Unit) -> Option<(i32, bool)> {
     if suffix.is_empty() {
-        return Some(1.0);
+        return Some((0, false));
     }
     if unit == Unit::Ratio {
-        return (suffix == "%").then_some(0.01);
+        return (suffix == "%").then_some((0, true));
     }
     if unit.symbols().contains(&suffix) {
-        return Some(1.0);
+        return Some((0, false));
     }
     let mut chars = suffix.chars();
     let first = chars.next()?;
-    let scale = prefix_scale(first)?;
+    let exp = prefix_exponent(first)?;
     let rest = chars.as_str();
     if rest.is_empty() || unit.symbols().contains(&rest) {
-        Some(scale)
+        Some((exp, false))
     } else {
         None
     }
@@ -194,6 +222,131 @@ mod tests {
         }
     }
 
+    /// Every prefix the parser accepts, with mantissas engineers write,
+    /// read back bit for bit as the literal decimal value (Rust's float
+    /// literals are correctly rounded; IEEE 754-2008 §5.12.2).
+    #[test]
+    fn prefixes_read_back_as_the_exact_decimal() {
+        let cases: &[(&str, f64)] = &[
+            ("10u", 1e-5),
+            ("10u", 10e-6),
+            ("10µ", 1e-5),
+            ("10μ", 1e-5),
+            ("4.7u", 4.7e-6),
+            ("4.7µ", 4.7e-6),
+            ("4.7μ", 4.7e-6),
+            ("68u", 68e-6),
+            ("68u", 6.8e-5),
+            ("3.3u", 3.3e-6),
+            ("2.2u", 2.2e-6),
+            ("0.1u", 1e-7),
+            ("100u", 1e-4),
+            ("470u", 4.7e-4),
+            ("1f", 1e-15),
+            ("10f", 1e-14),
+            ("4.7f", 4.7e-15),
+            ("50p", 5e-11),
+            ("1p", 1e-12),
+            ("3.3p", 3.3e-12),
+            ("680p", 6.8e-10),
+            ("1n", 1e-9),
+            ("2.2n", 2.2e-9),
+            ("80n", 8e-8),
+            ("150n", 1.5e-7),
+            ("10n", 1e-8),
+            ("1m", 1e-3),
+            ("3m", 0.003),
+            ("7m", 0.007),
+            ("10m", 0.01),
+            ("30m", 0.03),
+            ("50m", 0.05),
+            ("120m", 0.12),
+            ("350m", 0.35),
+            ("700m", 0.7),
+            ("0.3m", 3e-4),
+            ("1k", 1e3),
+            ("2.2k", 2200.0),
+            ("4.7k", 4700.0),
+            ("0.1k", 100.0),
+            ("400k", 4e5),
+            ("1.3k", 1300.0),
+            ("1M", 1e6),
+            ("2.2M", 2.2e6),
+            ("0.33M", 3.3e5),
+            ("1G", 1e9),
+            ("1.5G", 1.5e9),
+            ("0.7G", 7e8),
+            ("1.5e3n", 1.5e-6),
+            ("1.5e3 n", 1.5e-6),
+            ("12e-3k", 12.0),
+            ("-4.7u", -4.7e-6),
+            ("+10u", 1e-5),
+            (".1u", 1e-7),
+            ("10.u", 1e-5),
+            ("0.0001G", 1e5),
+        ];
+        for &(text, want) in cases {
+            let got = parse_quantity(text, Unit::Farad).unwrap();
+            assert_eq!(got.to_bits(), want.to_bits(), "{text}: {got:e} != {want:e}");
+        }
+        for &(text, want) in &[
+            ("45%", 0.45_f64),
+            ("0.1%", 0.001),
+            ("7%", 0.07),
+            ("33%", 0.33),
+            ("1e1%", 0.1),
+        ] {
+            let got = parse_quantity(text, Unit::Ratio).unwrap();
+            assert_eq!(got.to_bits(), want.to_bits(), "{text}: {got:e} != {want:e}");
+        }
+    }
+
+    /// Every unit symbol the parser accepts, bare and after a prefix.
+    #[test]
+    fn every_unit_symbol_reads_back_exactly() {
+        let units = [
+            Unit::Volt,
+            Unit::Ampere,
+            Unit::Ohm,
+            Unit::Henry,
+            Unit::Farad,
+            Unit::Second,
+            Unit::Hertz,
+            Unit::Celsius,
+            Unit::Coulomb,
+        ];
+        let mut seen = 0;
+        for unit in units {
+            for sym in unit.symbols() {
+                for (text, want) in [
+                    (format!("10u{sym}"), 1e-5_f64),
+                    (format!("10µ{sym}"), 1e-5),
+                    (format!("10μ{sym}"), 1e-5),
+                    (format!("68 u{sym}"), 6.8e-5),
+                    (format!("120m{sym}"), 0.12),
+                    (format!("4.7k{sym}"), 4700.0),
+                    (format!("3.3M{sym}"), 3.3e6),
+                    (format!("1G{sym}"), 1e9),
+                    (format!("5n{sym}"), 5e-9),
+                    (format!("50p{sym}"), 5e-11),
+                    (format!("10f{sym}"), 1e-14),
+                    (format!("0.7{sym}"), 0.7),
+                    (format!("12 {sym}"), 12.0),
+                ] {
+                    let got = parse_quantity(&text, unit)
+                        .unwrap_or_else(|e| panic!("{text} for {unit:?}: {e}"));
+                    assert_eq!(got.to_bits(), want.to_bits(), "{text}: {got:e} != {want:e}");
+                    seen += 1;
+                }
+                // A symbol of another unit is refused.
+                let other = if unit == Unit::Volt { "A" } else { "V" };
+                assert!(parse_quantity(&format!("1{other}"), unit).is_err());
+            }
+        }
+        // V, A, four ohm spellings, H, F, s, Hz, two Celsius spellings, C.
+        assert_eq!(seen, 13 * 13);
+    }
+
     #[test]
     fn rejects_bad_text() {
         for (text, unit) in [
@@ -204,6 +357,13 @@ mod tests {
             ("", Unit::Volt),
             ("5%", Unit::Volt),
             ("1e999", Unit::Volt),
+            ("1e99999999999999999999999", Unit::Volt),
+            ("1.2.3", Unit::Volt),
+            ("1e3e3", Unit::Volt),
+            ("10x", Unit::Volt),
+            ("10uu", Unit::Volt),
+            ("1T", Unit::Volt),
+            ("1kV", Unit::Ampere),
         ] {
             assert!(parse_quantity(text, unit).is_err(), "{text} accepted");
         }
