@@ -8,3 +8,4 @@ mod reference;
 mod shooting;
 mod study;
 mod textbook;
+mod toolchain;
