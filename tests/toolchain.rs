@@ -40,7 +40,13 @@ fn metadata() -> serde_json::Value {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
     let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".to_string());
     let out = Command::new(cargo)
-        .args(["metadata", "--format-version", "1", "--locked", "--manifest-path"])
+        .args([
+            "metadata",
+            "--format-version",
+            "1",
+            "--locked",
+            "--manifest-path",
+        ])
         .arg(root.join("Cargo.toml"))
         .output()
         .expect("cargo metadata runs");
@@ -71,10 +77,12 @@ fn declared_rust_version_is_the_true_minimum_of_the_locked_packages() {
         let version = p["version"].as_str().unwrap_or_default();
         let rv = p["rust_version"].as_str().map(parse_version);
         if members.contains(&id) {
-            let rv = rv.unwrap_or_else(|| panic!("workspace member {name} declares no rust-version"));
+            let rv =
+                rv.unwrap_or_else(|| panic!("workspace member {name} declares no rust-version"));
             if let Some(d) = declared {
                 assert_eq!(
-                    d, rv,
+                    d,
+                    rv,
                     "workspace members declare different rust-versions ({name}: {})",
                     show(rv)
                 );
@@ -138,7 +146,10 @@ fn documents_state_the_declared_rust_version() {
                 rest.split_whitespace().next().unwrap_or_default()
             })
             .collect();
-        assert!(!stated.is_empty(), "{doc} does not name the Rust toolchain version");
+        assert!(
+            !stated.is_empty(),
+            "{doc} does not name the Rust toolchain version"
+        );
         for v in stated {
             assert_eq!(
                 parse_version(v),

@@ -267,9 +267,7 @@ fn dispatch(cli: Cli) -> Result<(), Failure> {
         Command::Spread(a) => study_cmd::run_spread(&a, quiet),
         Command::Merge(a) => study_cmd::run_merge(&a, quiet),
         Command::Template => {
-            let text = serde_json::to_string_pretty(&sim_core::scenario::template_with_parts())
-                .map_err(|e| Failure::Run(e.to_string()))?;
-            println!("{text}");
+            println!("{}", sim_core::scenario::template_text());
             Ok(())
         }
         Command::FitLed(args) => fit_led(&args),

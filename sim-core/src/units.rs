@@ -193,6 +193,47 @@ fn suffix_exponent(suffix: &str, unit: Unit) -> Option<(i32, bool)> {
     }
 }
 
+/// `v` as engineering-notation text that [`parse_quantity`] reads back as
+/// exactly `v`: the shortest decimal that round-trips, its point moved to
+/// a power of ten that is a multiple of three, the SI prefix for that
+/// power and then `symbol` (`6.8e-5` with `"H"` is `68uH`, `0.12` with
+/// `"Ohm"` is `120mOhm`; micro is written `u`).
+///
+/// `None` for zero, non-finite values and values outside the prefixes the
+/// loader accepts (femto to giga): those read better as plain numbers.
+pub fn exact_engineering_text(v: f64, symbol: &str) -> Option<String> {
+    if v == 0.0 || !v.is_finite() {
+        return None;
+    }
+    // Shortest round-trip digits: `d.ddde±x`.
+    let sci = format!("{:e}", v.abs());
+    let (mantissa, exp) = sci.split_once('e')?;
+    let exp: i32 = exp.parse().ok()?;
+    let digits: String = mantissa.chars().filter(char::is_ascii_digit).collect();
+    let power = exp.div_euclid(3) * 3;
+    let prefix = match power {
+        -15 => "f",
+        -12 => "p",
+        -9 => "n",
+        -6 => "u",
+        -3 => "m",
+        0 => "",
+        3 => "k",
+        6 => "M",
+        9 => "G",
+        _ => return None,
+    };
+    // Digits before the point: 1 to 3.
+    let whole = (exp - power + 1) as usize;
+    let number = if digits.len() <= whole {
+        format!("{digits:0<whole$}")
+    } else {
+        format!("{}.{}", &digits[..whole], &digits[whole..])
+    };
+    let sign = if v < 0.0 { "-" } else { "" };
+    Some(format!("{sign}{number}{prefix}{symbol}"))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -345,6 +386,43 @@ mod tests {
         }
         // V, A, four ohm spellings, H, F, s, Hz, two Celsius spellings, C.
         assert_eq!(seen, 13 * 13);
+    }
+
+    /// Written values read back bit for bit, in the form engineers write.
+    #[test]
+    fn engineering_text_reads_back_exactly() {
+        for (v, sym, want) in [
+            (68e-6, "H", "68uH"),
+            (4.7e-6, "F", "4.7uF"),
+            (0.12, "Ohm", "120mOhm"),
+            (12.0, "V", "12V"),
+            (10.5, "V", "10.5V"),
+            (400e3, "Hz", "400kHz"),
+            (1e6, "Hz", "1MHz"),
+            (80e-9, "s", "80ns"),
+            (50e-12, "F", "50pF"),
+            (5e-9, "C", "5nC"),
+            (2.5e9, "Hz", "2.5GHz"),
+            (1e-15, "F", "1fF"),
+            (-0.0123, "A", "-12.3mA"),
+            (150.0, "V", "150V"),
+            (1234.5, "Ohm", "1.2345kOhm"),
+        ] {
+            assert_eq!(exact_engineering_text(v, sym).as_deref(), Some(want));
+        }
+        for v in [0.0, f64::NAN, f64::INFINITY, 1e-18, 1e13] {
+            assert_eq!(exact_engineering_text(v, "V"), None, "{v:e}");
+        }
+        // Any value in range, however many digits, reads back exactly.
+        let mut x = 1.234_567_890_123_456_7e-15_f64;
+        while x < 1e12 {
+            for v in [x, -x, x * 0.987_654_321, 1.0 / x.recip()] {
+                let t = exact_engineering_text(v, "F").unwrap();
+                let back = parse_quantity(&t, Unit::Farad).unwrap();
+                assert_eq!(back.to_bits(), v.to_bits(), "{v:e} -> {t}");
+            }
+            x *= 3.7;
+        }
     }
 
     #[test]
