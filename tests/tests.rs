@@ -4,6 +4,7 @@
 mod bad_input;
 mod parts;
 mod properties;
+mod readme;
 mod reference;
 mod shooting;
 mod study;
