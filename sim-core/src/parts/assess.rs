@@ -47,6 +47,9 @@ pub struct Assessment {
     pub temperatures: Vec<PartTemperature>,
     /// The design-check table.
     pub checks: Vec<Check>,
+    /// Highest inductor current from power-on to steady state, A (None
+    /// when the start-up was neither recorded nor needed for a check).
+    pub startup_peak_a: Option<f64>,
     /// The resistor and linear alternatives beside the switching design.
     pub comparison: Option<Comparison>,
 }
@@ -125,7 +128,29 @@ pub fn assess_with_progress(
     let mut a = assess_at(s, opts, progress)?;
     if let Some(range) = s.supply.input_range_v {
         let v_nom = s.supply.voltage_v;
-        let mut tables = vec![a.checks.clone()];
+        // The nominal rows at the nominal supply itself (the ends bring
+        // their own); the rows held at the range's highest supply are
+        // kept only as a fallback when an end does not run.
+        let mut own = s.clone();
+        own.supply.input_range_v = None;
+        let caps: Vec<CapacitorState> = a
+            .capacitors
+            .iter()
+            .cloned()
+            .map(|mut c| {
+                if c.part == "input_capacitor" {
+                    c.peak_v = v_nom;
+                }
+                c
+            })
+            .collect();
+        let mut tables = vec![checks::design_checks(
+            &own,
+            &a.result.metrics,
+            &a.temperatures,
+            &caps,
+            a.startup_peak_a,
+        )];
         let mut ends = Vec::new();
         for (end, v) in [("low", range.min_v), ("high", range.max_v)] {
             if (v - v_nom).abs() <= 1e-9 * v_nom.abs() {
@@ -160,6 +185,12 @@ pub fn assess_with_progress(
                     reason,
                 }),
             }
+        }
+        if ends
+            .iter()
+            .any(|e| matches!(e, checks::RangeEnd::Failed { .. }))
+        {
+            tables.push(a.checks.clone());
         }
         let mut merged = checks::worst_over_supplies(&tables);
         merged.extend(checks::range_checks(
@@ -326,6 +357,7 @@ fn assess_at(
         capacitors,
         temperatures,
         checks,
+        startup_peak_a: startup_peak,
         comparison,
     })
 }

@@ -157,7 +157,10 @@ fn flux_density_points(s: &Scenario, core: &Core, w: &Waveform) -> Vec<(f64, f64
     let il = w.column(COL_IL);
     if curve.is_empty() {
         let l = s.inductor.inductance_h;
-        t.iter().zip(il.iter()).map(|(&t, &i)| (t, l * i / na)).collect()
+        t.iter()
+            .zip(il.iter())
+            .map(|(&t, &i)| (t, l * i / na))
+            .collect()
     } else {
         let pts: Vec<(f64, f64)> = curve
             .iter()
