@@ -516,6 +516,11 @@ fn a_design_that_cannot_run_at_its_range_end_fails_a_row_not_the_run() {
     assert!(c.source.contains("8 V"), "{}", c.source);
     assert!(c.source.contains("settles at"), "{}", c.source);
     assert_eq!(worst(&a.checks), Status::Fail);
+    assert!(
+        a.result.warnings.iter().any(|w| w.contains("at 8 V")),
+        "{:?}",
+        a.result.warnings
+    );
     // The high end ran: its regulation row is there.
     assert!(a
         .checks

@@ -179,11 +179,17 @@ pub fn assess_with_progress(
                     });
                     tables.push(at_end.checks);
                 }
-                Err(reason) => ends.push(checks::RangeEnd::Failed {
-                    supply_v: v,
-                    end,
-                    reason,
-                }),
+                Err(reason) => {
+                    a.result.warnings.push(format!(
+                        "at {v} V, the {end} end of the declared input range, the design does \
+                         not run: {reason}"
+                    ));
+                    ends.push(checks::RangeEnd::Failed {
+                        supply_v: v,
+                        end,
+                        reason,
+                    });
+                }
             }
         }
         if ends
