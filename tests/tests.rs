@@ -2,6 +2,7 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod part_checks;
 mod parts;
 mod properties;
 mod readme;

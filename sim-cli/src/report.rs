@@ -92,6 +92,10 @@ pub struct Report {
     /// Whether the design has an input capacitor (text layout only).
     #[serde(skip)]
     has_input_capacitor: bool,
+    /// Whether a supply range is declared: each check row then names the
+    /// supply of its worst case (text layout only).
+    #[serde(skip)]
+    range_given: bool,
     /// Whether the design has an output capacitor (text layout only).
     #[serde(skip)]
     has_output_capacitor: bool,
@@ -145,6 +149,7 @@ impl Report {
             cautions: cautions(scenario, &m),
             controller: controller_words(&scenario.controller),
             has_input_capacitor: scenario.input_capacitor.is_some(),
+            range_given: scenario.supply.input_range_v.is_some(),
             has_output_capacitor: scenario.output_capacitor.is_some(),
             design_verdict: worst(&a.checks),
             design_checks: a.checks.clone(),
@@ -167,6 +172,7 @@ impl Report {
                     || p.switch.gate_charge_c > 0.0
                     || p.switch.output_capacitance_f > 0.0
                     || p.diode.reverse_recovery_charge_c > 0.0
+                    || p.diode.junction_capacitance_f > 0.0
                     || p.inductor.core.is_some()
                     || p.controller.quiescent_current_a > 0.0
             },
@@ -280,8 +286,9 @@ impl Report {
         if self.has_part_losses {
             let _ = writeln!(
                 o,
-                "  (switching-edge, gate, output-capacitance, recovery, core and quiescent losses \
-                 are estimates from the simulated edges and ripple, drawn from the supply)"
+                "  (switching-edge, gate, output- and junction-capacitance, recovery, core and \
+                 quiescent losses are estimates from the simulated edges and flux, drawn from \
+                 the supply)"
             );
         } else {
             let _ = writeln!(
@@ -396,9 +403,14 @@ impl Report {
             };
             let value = check_value(c.value, c.unit);
             let limit = c.limit.map_or("—".to_string(), |l| check_value(l, c.unit));
+            let at = if self.range_given {
+                format!(" at {}", eng(c.supply_v, "V"))
+            } else {
+                String::new()
+            };
             let _ = writeln!(
                 o,
-                "  {status:<5} {:<48}{value:>11} (limit {limit})",
+                "  {status:<5} {:<48}{value:>11} (limit {limit}){at}",
                 c.check
             );
             let _ = writeln!(o, "        {}", c.source);
@@ -597,6 +609,11 @@ fn loss_rows(w: &LossEnergies, p: &LossEnergies) -> Vec<(&'static str, f64, f64)
             "diode reverse recovery",
             w.diode_reverse_recovery,
             p.diode_reverse_recovery,
+        ),
+        (
+            "diode junction capacitance",
+            w.diode_junction_capacitance,
+            p.diode_junction_capacitance,
         ),
         ("inductor core", w.inductor_core, p.inductor_core),
         (

@@ -180,3 +180,62 @@ fn the_template_carries_every_part_field_and_runs_with_its_checks() {
     assert!(v["energy_balance_residual"].as_f64().unwrap().abs() < 1e-8);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn strict_fails_when_only_the_start_up_peak_exceeds_the_saturation_current() {
+    // The template's start-up meets an empty output: its inductor peak
+    // then exceeds the steady-state peak. A saturation rating between the
+    // two must fail the table (and --strict exit 3), not only warn.
+    let mut s: Value = serde_json::from_slice(&run(&["template"]).stdout).unwrap();
+    s["supply"]["input_range_v"] = Value::Null;
+    s["output_capacitor"] = serde_json::json!({"capacitance_f": "2.2u", "esr_ohm": 0.01});
+    let dir = scratch("startup-peak");
+    let f = dir.join("s.json");
+    std::fs::write(&f, s.to_string()).unwrap();
+    let o = run(&["run", "--json", f.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let steady = v["inductor_current_peak_a"].as_f64().unwrap();
+    let startup = v["startup_inductor_current_peak_a"].as_f64().unwrap();
+    assert!(startup > steady + 2e-3, "{startup} vs {steady}");
+    s["inductor"]["saturation_current_a"] = (0.5 * (steady + startup)).into();
+    std::fs::write(&f, s.to_string()).unwrap();
+    let o = run(&["run", "--strict", f.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o.stdout));
+    let out = text(&o.stdout);
+    assert!(
+        out.contains("FAIL  inductor start-up peak vs saturation current"),
+        "{out}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn check_rows_name_the_supply_of_their_worst_case() {
+    // With a declared range (the template's 10.5-14 V) each row says at
+    // which supply its worst case occurred; the switch blocks most at the
+    // top of the range. The JSON carries it as supply_v.
+    let dir = scratch("range-rows");
+    let f = dir.join("t.json");
+    std::fs::write(&f, run(&["template"]).stdout).unwrap();
+    let o = run(&["run", "--json", f.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let checks = v["design_checks"].as_array().unwrap();
+    let sw = checks
+        .iter()
+        .find(|c| c["check"] == "switch blocking voltage vs rating")
+        .unwrap();
+    assert!(
+        (sw["supply_v"].as_f64().unwrap() - 14.0).abs() < 1e-9,
+        "{sw}"
+    );
+    let o = run(&["run", f.to_str().unwrap()]);
+    let out = text(&o.stdout);
+    assert!(
+        out.lines()
+            .any(|l| l.contains("switch blocking voltage vs rating") && l.contains("at 14 V")),
+        "{out}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

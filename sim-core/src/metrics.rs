@@ -163,7 +163,11 @@ pub struct LossEnergies {
     pub switch_output_capacitance: f64,
     /// Diode reverse recovery, Q_rr·V per turn-on.
     pub diode_reverse_recovery: f64,
-    /// Inductor core (Steinmetz equation).
+    /// Diode junction capacitance charged at each turn-on, ½·C_j·ΔV²
+    /// (dissipated in the switch channel).
+    pub diode_junction_capacitance: f64,
+    /// Inductor core (improved generalized Steinmetz equation on the
+    /// simulated flux).
     pub inductor_core: f64,
     /// Controller quiescent current from the supply.
     pub controller_quiescent: f64,
@@ -183,6 +187,7 @@ impl LossEnergies {
             + self.switch_gate_drive
             + self.switch_output_capacitance
             + self.diode_reverse_recovery
+            + self.diode_junction_capacitance
             + self.inductor_core
             + self.controller_quiescent
     }
@@ -201,6 +206,7 @@ impl LossEnergies {
             switch_gate_drive: self.switch_gate_drive * k,
             switch_output_capacitance: self.switch_output_capacitance * k,
             diode_reverse_recovery: self.diode_reverse_recovery * k,
+            diode_junction_capacitance: self.diode_junction_capacitance * k,
             inductor_core: self.inductor_core * k,
             controller_quiescent: self.controller_quiescent * k,
         }
@@ -219,6 +225,7 @@ impl LossEnergies {
         self.switch_gate_drive += o.switch_gate_drive;
         self.switch_output_capacitance += o.switch_output_capacitance;
         self.diode_reverse_recovery += o.diode_reverse_recovery;
+        self.diode_junction_capacitance += o.diode_junction_capacitance;
         self.inductor_core += o.inductor_core;
         self.controller_quiescent += o.controller_quiescent;
     }

@@ -448,12 +448,45 @@ pub struct DiodeData {
     /// Rated repetitive peak forward current, A.
     #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
     pub peak_current_rating_a: Option<f64>,
-    /// Rated RMS forward current, A.
+    /// Rated RMS forward current, A (optional: diodes are rated by their
+    /// average current, `average_current_rating_a`).
     #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
     pub rms_current_rating_a: Option<f64>,
     /// Thermal path.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub thermal: Option<Thermal>,
+    /// Rated average forward current I_F(AV), A: the figure a diode
+    /// datasheet rates its forward current by.
+    #[serde(deserialize_with = "de_opt_a", skip_serializing_if = "Option::is_none")]
+    pub average_current_rating_a: Option<f64>,
+    /// Junction capacitance C_j (taken as constant), F: charged by each
+    /// turn-on of the switch, ½·C_j·ΔV² lost per turn-on (0: not given).
+    #[serde(deserialize_with = "de_f", skip_serializing_if = "is_zero")]
+    pub junction_capacitance_f: f64,
+}
+
+fn is_zero(v: &f64) -> bool {
+    *v == 0.0
+}
+
+/// Where the controller IC and its gate driver take their power from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ControllerFeed {
+    /// From the converter's input through the controller's own regulator:
+    /// gate charge and quiescent current are drawn at the supply voltage
+    /// (Q_g·V_in·f and V_in·I_q).
+    #[default]
+    Input,
+    /// From a separate rail at the gate-drive voltage
+    /// (`parts.switch.gate_drive_v`): Q_g·V_drive·f and V_drive·I_q.
+    SeparateRail,
+}
+
+impl ControllerFeed {
+    fn is_input(&self) -> bool {
+        *self == ControllerFeed::Input
+    }
 }
 
 /// Inductor core, saturation curve and ratings.
@@ -624,6 +657,11 @@ pub struct ControllerIc {
     /// Shortest on-time the controller can make, s.
     #[serde(deserialize_with = "de_opt_s", skip_serializing_if = "Option::is_none")]
     pub min_on_time_s: Option<f64>,
+    /// Where the controller and its gate driver are fed from: `input`
+    /// (the default) or `separate_rail`; the gate-drive and quiescent
+    /// losses are drawn at that voltage.
+    #[serde(skip_serializing_if = "ControllerFeed::is_input")]
+    pub fed_from: ControllerFeed,
 }
 
 fn default_one() -> f64 {
@@ -706,6 +744,19 @@ impl PartData {
             d.rms_current_rating_a,
             1e4,
             "A",
+        );
+        c.opt_positive(
+            "parts.diode.average_current_rating_a",
+            d.average_current_rating_a,
+            1e4,
+            "A",
+        );
+        c.range(
+            "parts.diode.junction_capacitance_f",
+            d.junction_capacitance_f,
+            0.0,
+            1e-7,
+            "F",
         );
         c.thermal("parts.diode.thermal", d.thermal);
         let l = &p.inductor;
@@ -898,6 +949,16 @@ impl PartData {
             1e-2,
             "s",
         );
+        if ic.fed_from == ControllerFeed::SeparateRail
+            && p.switch.gate_drive_v <= 0.0
+            && (ic.quiescent_current_a > 0.0 || p.switch.gate_charge_c > 0.0)
+        {
+            c.push(
+                "parts.controller.fed_from",
+                "separate_rail",
+                "the separate rail is at the gate-drive voltage: give parts.switch.gate_drive_v",
+            );
+        }
         if let (Some(lo), Some(hi)) = (ic.min_frequency_hz, ic.max_frequency_hz) {
             if lo >= hi {
                 c.push(
@@ -1777,8 +1838,10 @@ pub fn template_with_parts() -> Scenario {
             reverse_recovery_charge_c: 0.0,
             voltage_rating_v: Some(30.0),
             peak_current_rating_a: Some(3.0),
-            rms_current_rating_a: Some(1.0),
+            rms_current_rating_a: None,
             thermal: thermal(120.0, 150.0),
+            average_current_rating_a: Some(1.0),
+            junction_capacitance_f: 40e-12,
         },
         inductor: InductorData {
             saturation_curve: Vec::new(),
@@ -1824,6 +1887,7 @@ pub fn template_with_parts() -> Scenario {
             min_frequency_hz: Some(20e3),
             max_frequency_hz: Some(1e6),
             min_on_time_s: Some(100e-9),
+            fed_from: ControllerFeed::Input,
         },
     };
     // Every optional section is shown, so a user sees what exists.

@@ -557,7 +557,8 @@ fn measure<E: CycleEngine>(
     }
     totals.stored_end_j = e.stored_energy_j();
     totals.loss.reverse_current_clamp = e.clamped_energy_j() - clamp0;
-    crate::parts::losses::apply(s, &mut totals);
+    let waveform = rec.finish();
+    crate::parts::losses::apply(s, &mut totals, &waveform);
     let metrics = Metrics::from_totals(&totals);
     let warnings = warnings(s, &metrics, order);
     Ok(SimResult {
@@ -571,7 +572,7 @@ fn measure<E: CycleEngine>(
             led_segments: 1,
             diode_segments: 1,
         },
-        waveform: rec.finish(),
+        waveform,
         startup,
         warnings,
         stats: e.stats(),

@@ -10,6 +10,10 @@
 //! run repeats (warm-started from the last steady state) until the
 //! capacitances move by under 0.1 % and the junction by under 0.05 K, at
 //! most [`MAX_ITERATIONS`] runs. A scenario with neither gets one run.
+//!
+//! With a declared input range the same assessment runs at both ends of
+//! the range, and the check table holds each check's worst case over the
+//! nominal supply and the ends (see [`assess_with_progress`]).
 
 use super::alternatives::{self, Comparison, OperatingPoint};
 use super::bias;
@@ -17,6 +21,7 @@ use super::checks::{self, CapacitorState, Check};
 use super::thermal::{self, PartTemperature};
 use crate::error::SimError;
 use crate::metrics::Metrics;
+use crate::record::{Waveform, COL_IL};
 use crate::scenario::Scenario;
 use crate::simulate::{simulate_with_progress, Progress, RunOptions, SimResult};
 use serde::Serialize;
@@ -42,6 +47,9 @@ pub struct Assessment {
     pub temperatures: Vec<PartTemperature>,
     /// The design-check table.
     pub checks: Vec<Check>,
+    /// Highest inductor current from power-on to steady state, A (None
+    /// when the start-up was neither recorded nor needed for a check).
+    pub startup_peak_a: Option<f64>,
     /// The resistor and linear alternatives beside the switching design.
     pub comparison: Option<Comparison>,
 }
@@ -103,7 +111,120 @@ pub fn assess(s: &Scenario, opts: &AssessOptions) -> Result<Assessment, SimError
 }
 
 /// As [`assess`], calling `progress` during each run.
+///
+/// With a declared input range (`supply.input_range_v`) the design is
+/// also assessed the same way at each end of the range (bias and
+/// temperature loop, start-up peak, temperatures, checks), and the check
+/// table keeps, for each check, the worst of the nominal supply and the
+/// ends, with the supply it occurred at; [`checks::range_checks`] adds
+/// whether the LED current stays in regulation there, and a failing row
+/// for an end where the design does not run (the error, with what was
+/// reached, in its source) instead of failing the whole run.
 pub fn assess_with_progress(
+    s: &Scenario,
+    opts: &AssessOptions,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Assessment, SimError> {
+    let mut a = assess_at(s, opts, progress)?;
+    if let Some(range) = s.supply.input_range_v {
+        let v_nom = s.supply.voltage_v;
+        // The nominal rows at the nominal supply itself (the ends bring
+        // their own); the rows held at the range's highest supply are
+        // kept only as a fallback when an end does not run.
+        let mut own = s.clone();
+        own.supply.input_range_v = None;
+        let caps: Vec<CapacitorState> = a
+            .capacitors
+            .iter()
+            .cloned()
+            .map(|mut c| {
+                if c.part == "input_capacitor" {
+                    c.peak_v = v_nom;
+                }
+                c
+            })
+            .collect();
+        let mut tables = vec![checks::design_checks(
+            &own,
+            &a.result.metrics,
+            &a.temperatures,
+            &caps,
+            a.startup_peak_a,
+        )];
+        let mut ends = Vec::new();
+        for (end, v) in [("low", range.min_v), ("high", range.max_v)] {
+            if (v - v_nom).abs() <= 1e-9 * v_nom.abs() {
+                continue;
+            }
+            let mut e = s.clone();
+            e.supply.voltage_v = v;
+            e.supply.input_range_v = None;
+            e.simulation.record_startup = false;
+            let run = AssessOptions {
+                run: RunOptions {
+                    initial_state: None,
+                    ..opts.run
+                },
+                alternatives: false,
+            };
+            let got = match e.validate() {
+                Err(err) => Err(err.to_string()),
+                Ok(()) => assess_at(&e, &run, progress).map_err(|err| err.to_string()),
+            };
+            match got {
+                Ok(at_end) => {
+                    ends.push(checks::RangeEnd::Ran {
+                        supply_v: v,
+                        led_current_avg_a: at_end.result.metrics.led_current_avg_a,
+                    });
+                    tables.push(at_end.checks);
+                }
+                Err(reason) => {
+                    a.result.warnings.push(format!(
+                        "at {v} V, the {end} end of the declared input range, the design does \
+                         not run: {reason}"
+                    ));
+                    ends.push(checks::RangeEnd::Failed {
+                        supply_v: v,
+                        end,
+                        reason,
+                    });
+                }
+            }
+        }
+        if ends
+            .iter()
+            .any(|e| matches!(e, checks::RangeEnd::Failed { .. }))
+        {
+            tables.push(a.checks.clone());
+        }
+        let mut merged = checks::worst_over_supplies(&tables);
+        merged.extend(checks::range_checks(
+            s,
+            a.result.metrics.led_current_avg_a,
+            &ends,
+        ));
+        a.checks = merged;
+    }
+    if opts.alternatives {
+        a.comparison = Some(compare(&a.effective, &a.result, opts, progress)?);
+    }
+    Ok(a)
+}
+
+/// The highest inductor current of a recorded waveform, A.
+fn peak_inductor_current_a(w: &Waveform) -> Option<f64> {
+    (!w.is_empty()).then(|| {
+        w.column(COL_IL)
+            .iter()
+            .copied()
+            .fold(f64::NEG_INFINITY, f64::max)
+    })
+}
+
+/// The assessment at the scenario's own supply (no range, no
+/// alternatives).
+fn assess_at(
     s: &Scenario,
     opts: &AssessOptions,
     progress: &mut dyn FnMut(Progress),
@@ -172,8 +293,24 @@ pub fn assess_with_progress(
              the figures are those of the last run"
         ));
     }
+    // The start-up peak for its check against the saturation rating: from
+    // the recorded start-up, else from a start-up run made for it alone.
+    let startup_peak = match (&result.startup, s.inductor.saturation_current_a) {
+        (Some(w), _) => peak_inductor_current_a(w),
+        (None, Some(_)) => peak_inductor_current_a(&crate::simulate::startup_transient(
+            &eff,
+            run.engine,
+            result.steady.state_at_turn_on,
+            progress,
+        )?),
+        (None, None) => None,
+    };
     let m = result.metrics;
     let (vin_avg, vout_avg) = capacitor_averages(&eff, &m);
+    // An ideal source (no resistance) holds the input node: the simulated
+    // input capacitor carries no ripple, so its check uses the textbook
+    // worst case instead.
+    let ideal_source = s.supply.source_resistance_ohm <= 0.0;
     let mut capacitors = Vec::new();
     if let (Some(nom), Some(effc)) = (&s.input_capacitor, &eff.input_capacitor) {
         capacitors.push(CapacitorState {
@@ -183,7 +320,12 @@ pub fn assess_with_progress(
             effective_min_f: effc.capacitance_f * (1.0 - p.input_capacitor.tolerance_pct / 100.0),
             average_v: vin_avg,
             peak_v: checks::max_supply_v(s),
-            ripple_rms_a: m.input_capacitor_ripple_rms_a,
+            ripple_rms_a: if ideal_source {
+                checks::buck_input_ripple_rms_a(m.inductor_current_avg_a, m.duty)
+            } else {
+                m.input_capacitor_ripple_rms_a
+            },
+            ripple_estimated: ideal_source,
             esr_loss_w: m.losses_w.input_capacitor_esr,
         });
     }
@@ -196,11 +338,12 @@ pub fn assess_with_progress(
             average_v: vout_avg,
             peak_v: m.led_voltage_max_v,
             ripple_rms_a: m.output_capacitor_ripple_rms_a,
+            ripple_estimated: false,
             esr_loss_w: m.losses_w.output_capacitor_esr,
         });
     }
     let temperatures = thermal::temperatures(s, &m);
-    let checks = checks::design_checks(s, &m, &temperatures, &capacitors);
+    let checks = checks::design_checks(s, &m, &temperatures, &capacitors, startup_peak);
     for t in &temperatures {
         if t.part != "led" && t.temperature_c > thermal::TOUCH_HOT_C {
             result.warnings.push(format!(
@@ -211,11 +354,7 @@ pub fn assess_with_progress(
             ));
         }
     }
-    let comparison = if opts.alternatives {
-        Some(compare(&eff, &result, opts, progress)?)
-    } else {
-        None
-    };
+    let comparison = None;
     Ok(Assessment {
         result,
         effective: eff,
@@ -224,6 +363,7 @@ pub fn assess_with_progress(
         capacitors,
         temperatures,
         checks,
+        startup_peak_a: startup_peak,
         comparison,
     })
 }

@@ -39,6 +39,16 @@ pub struct Check {
     pub unit: &'static str,
     /// Where the limit and the rule come from.
     pub source: String,
+    /// The supply voltage of the run this row comes from, V: with a
+    /// declared input range, the end (or the nominal supply) where the
+    /// row's worst case occurred.
+    pub supply_v: f64,
+    /// How close to or past its limit the row is, for picking the worst
+    /// row over the supply range (larger is worse; compared only between
+    /// rows of the same check): value/limit against an upper limit,
+    /// limit/value against a lower one.
+    #[serde(skip)]
+    pub severity: f64,
 }
 
 /// What a capacitor saw in the run, for its checks and the report.
@@ -56,8 +66,14 @@ pub struct CapacitorState {
     pub average_v: f64,
     /// Highest voltage applied, V.
     pub peak_v: f64,
-    /// RMS ripple current, A.
+    /// RMS ripple current, A (for an input capacitor fed by an ideal
+    /// source, the textbook estimate: see `ripple_estimated`).
     pub ripple_rms_a: f64,
+    /// True when `ripple_rms_a` is the textbook worst case
+    /// I_out·√(D(1−D)) rather than the simulated value (an input
+    /// capacitor with an ideal, zero-resistance source carries no ripple
+    /// in the simulation).
+    pub ripple_estimated: bool,
     /// ESR dissipation, W.
     pub esr_loss_w: f64,
 }
@@ -85,7 +101,58 @@ fn upper(
         limit: Some(limit),
         unit,
         source: source.to_string(),
+        supply_v: 0.0,
+        severity: value / limit,
     });
+}
+
+/// A row from its parts; `severity` as in [`Check::severity`].
+fn row(
+    check: &str,
+    status: Status,
+    value: f64,
+    limit: Option<f64>,
+    unit: &'static str,
+    source: &str,
+    severity: f64,
+) -> Check {
+    Check {
+        check: check.to_string(),
+        status,
+        value,
+        limit,
+        unit,
+        source: source.to_string(),
+        supply_v: 0.0,
+        severity,
+    }
+}
+
+/// Margin below a part's maximum temperature inside which a temperature
+/// check warns, K (**common practice**).
+pub const TEMPERATURE_MARGIN_K: f64 = 10.0;
+
+/// The status of a temperature against its maximum: fail above it, warn
+/// within [`TEMPERATURE_MARGIN_K`] kelvin below it (a difference of
+/// temperatures, never a fraction of a Celsius value).
+pub fn temperature_status(t_c: f64, max_c: f64) -> Status {
+    if t_c > max_c {
+        Status::Fail
+    } else if t_c > max_c - TEMPERATURE_MARGIN_K {
+        Status::Warn
+    } else {
+        Status::Ok
+    }
+}
+
+/// The textbook RMS current of a buck's input capacitor, A:
+/// I_out·√(D(1−D)), the switch current's AC part with a flat inductor
+/// current (Erickson & Maksimovic, Fundamentals of Power Electronics,
+/// 3rd ed., ch. 2, capacitor charge balance applied to the input
+/// capacitor).
+pub fn buck_input_ripple_rms_a(i_out_a: f64, duty: f64) -> f64 {
+    let d = duty.clamp(0.0, 1.0);
+    i_out_a.abs() * (d * (1.0 - d)).sqrt()
 }
 
 /// The highest supply voltage the design sees, V.
@@ -96,11 +163,30 @@ pub fn max_supply_v(s: &Scenario) -> f64 {
 }
 
 /// Every applicable design check for a run of scenario `s` with metrics `m`.
+///
+/// `startup_peak_a` is the highest inductor current from power-on (None
+/// when the start-up was not run). Every row carries `s.supply.voltage_v`
+/// as its supply.
 pub fn design_checks(
     s: &Scenario,
     m: &Metrics,
     temps: &[PartTemperature],
     caps: &[CapacitorState],
+    startup_peak_a: Option<f64>,
+) -> Vec<Check> {
+    let mut c = design_checks_at(s, m, temps, caps, startup_peak_a);
+    for r in &mut c {
+        r.supply_v = s.supply.voltage_v;
+    }
+    c
+}
+
+fn design_checks_at(
+    s: &Scenario,
+    m: &Metrics,
+    temps: &[PartTemperature],
+    caps: &[CapacitorState],
+    startup_peak_a: Option<f64>,
 ) -> Vec<Check> {
     let mut c = Vec::new();
     let p = &s.parts;
@@ -116,6 +202,20 @@ pub fn design_checks(
             "A",
             &format!("part rating inductor.saturation_current_a; {MARGIN}"),
         );
+        if let Some(peak) = startup_peak_a {
+            upper(
+                &mut c,
+                "inductor start-up peak vs saturation current",
+                peak,
+                isat,
+                0.9,
+                "A",
+                &format!(
+                    "part rating inductor.saturation_current_a against the highest inductor \
+                     current from power-on to steady state; {MARGIN}"
+                ),
+            );
+        }
     }
     if let Some(r) = p.inductor.rms_current_rating_a {
         upper(
@@ -192,6 +292,17 @@ pub fn design_checks(
             &format!("part rating parts.diode.peak_current_rating_a; {MARGIN}"),
         );
     }
+    if let Some(r) = d.average_current_rating_a {
+        upper(
+            &mut c,
+            "diode average current vs rating",
+            m.diode_current_avg_a,
+            r,
+            0.9,
+            "A",
+            &format!("part rating parts.diode.average_current_rating_a (I_F(AV)); {MARGIN}"),
+        );
+    }
     if let Some(r) = d.rms_current_rating_a {
         upper(
             &mut c,
@@ -220,20 +331,29 @@ pub fn design_checks(
             } else {
                 Status::Ok
             };
-            c.push(Check {
-                check: format!("{name} peak voltage vs rating"),
+            c.push(row(
+                &format!("{name} peak voltage vs rating"),
                 status,
-                value: cs.peak_v,
-                limit: Some(r),
-                unit: "V",
-                source: format!(
+                cs.peak_v,
+                Some(r),
+                "V",
+                &format!(
                     "part rating; fail above the rating, warn above {:.0} % of it ({why})",
                     100.0 * frac
                 ),
-            });
+                cs.peak_v / r,
+            ));
         }
         if let Some(r) = data.ripple_current_rating_a {
             let (frac, why) = bias::ripple_margin(data.dielectric);
+            let how = if cs.ripple_estimated {
+                "source resistance 0 (an ideal source): the simulated capacitor carries no \
+                 ripple, so the textbook worst case I_out·√(D(1−D)) is used (Erickson & \
+                 Maksimovic, Fundamentals of Power Electronics, 3rd ed., ch. 2, charge balance) \
+                 until the supply path has an inductance; "
+            } else {
+                ""
+            };
             upper(
                 &mut c,
                 &format!("{name} RMS ripple current vs rating"),
@@ -241,35 +361,35 @@ pub fn design_checks(
                 r,
                 frac,
                 "A",
-                &format!("part rating ripple_current_rating_a; {why}"),
+                &format!("{how}part rating ripple_current_rating_a; {why}"),
             );
         }
         if bias::bias_dependent(data) {
             let frac = cs.effective_f / cs.nominal_f;
-            c.push(Check {
-                check: format!("{name} capacitance left under DC bias"),
-                status: if frac < 0.5 { Status::Warn } else { Status::Ok },
-                value: 100.0 * frac,
-                limit: Some(50.0),
-                unit: "%",
-                source: "bias curve (the part's own, or the class's typical curve, from memory); \
-                         warn below 50 % of nominal (common practice)"
-                    .into(),
-            });
+            c.push(row(
+                &format!("{name} capacitance left under DC bias"),
+                if frac < 0.5 { Status::Warn } else { Status::Ok },
+                100.0 * frac,
+                Some(50.0),
+                "%",
+                "bias curve (the part's own, or the class's typical curve, from memory); \
+                 warn below 50 % of nominal (common practice)",
+                0.5 / frac.max(1e-12),
+            ));
         }
         if data.dielectric != crate::scenario::Dielectric::Unspecified
             || data.ripple_current_rating_a.is_some()
         {
-            c.push(Check {
-                check: format!("{name} ESR dissipation"),
-                status: Status::Ok,
-                value: cs.esr_loss_w,
-                limit: None,
-                unit: "W",
-                source: "ESR·I_rms² from the run (reported; its heating is checked with a thermal \
-                         path)"
-                    .into(),
-            });
+            c.push(row(
+                &format!("{name} ESR dissipation"),
+                Status::Ok,
+                cs.esr_loss_w,
+                None,
+                "W",
+                "ESR·I_rms² from the run (reported; its heating is checked with a thermal \
+                 path)",
+                cs.esr_loss_w,
+            ));
         }
     }
     // Temperatures.
@@ -279,25 +399,28 @@ pub fn design_checks(
         } else {
             t.part.replace('_', " ")
         };
-        upper(
-            &mut c,
+        c.push(row(
             &format!("{name} temperature vs maximum"),
+            temperature_status(t.temperature_c, t.max_temperature_c),
             t.temperature_c,
-            t.max_temperature_c,
-            0.9,
+            Some(t.max_temperature_c),
             "°C",
-            "part rating (thermal.max_temperature_c) with T = T_ambient + R_th·P; warn within \
-             10 % (common practice)",
-        );
+            &format!(
+                "part rating (thermal.max_temperature_c) with T = T_ambient + R_th·P; warn \
+                 within {TEMPERATURE_MARGIN_K} K of it (common practice)"
+            ),
+            t.temperature_c - t.max_temperature_c,
+        ));
         if t.part != "led" && t.temperature_c > TOUCH_HOT_C {
-            c.push(Check {
-                check: format!("{name} too hot to touch"),
-                status: Status::Warn,
-                value: t.temperature_c,
-                limit: Some(TOUCH_HOT_C),
-                unit: "°C",
-                source: "common practice: above about 60 °C a surface burns a finger".into(),
-            });
+            c.push(row(
+                &format!("{name} too hot to touch"),
+                Status::Warn,
+                t.temperature_c,
+                Some(TOUCH_HOT_C),
+                "°C",
+                "common practice: above about 60 °C a surface burns a finger",
+                t.temperature_c - TOUCH_HOT_C,
+            ));
         }
     }
     // Conduction mode.
@@ -309,42 +432,45 @@ pub fn design_checks(
                 ConductionMode::Boundary => Status::Warn,
                 ConductionMode::Dcm => Status::Fail,
             };
-            c.push(Check {
-                check: "CCM intended: inductor valley over average".into(),
+            c.push(row(
+                "CCM intended: inductor valley over average",
                 status,
-                value: m.ccm_margin,
-                limit: Some(0.0),
-                unit: "",
-                source: "parts.intended_mode = ccm; fail in DCM, warn at the boundary".into(),
-            });
+                m.ccm_margin,
+                Some(0.0),
+                "",
+                "parts.intended_mode = ccm; fail in DCM, warn at the boundary",
+                -m.ccm_margin,
+            ));
         }
         IntendedMode::Dcm => {
-            c.push(Check {
-                check: "DCM intended: idle time per period".into(),
-                status: if m.conduction_mode == ConductionMode::Ccm {
+            c.push(row(
+                "DCM intended: idle time per period",
+                if m.conduction_mode == ConductionMode::Ccm {
                     Status::Fail
                 } else {
                     Status::Ok
                 },
-                value: m.idle_time_s / m.period_s,
-                limit: Some(0.0),
-                unit: "",
-                source: "parts.intended_mode = dcm; fail in CCM".into(),
-            });
+                m.idle_time_s / m.period_s,
+                Some(0.0),
+                "",
+                "parts.intended_mode = dcm; fail in CCM",
+                -m.idle_time_s / m.period_s,
+            ));
         }
     }
     // Frequency.
     let f = m.switching_frequency_hz;
     let ic = &p.controller;
     if let Some(lo) = ic.min_frequency_hz {
-        c.push(Check {
-            check: "switching frequency vs controller minimum".into(),
-            status: if f < lo { Status::Fail } else { Status::Ok },
-            value: f,
-            limit: Some(lo),
-            unit: "Hz",
-            source: "controller data parts.controller.min_frequency_hz".into(),
-        });
+        c.push(row(
+            "switching frequency vs controller minimum",
+            if f < lo { Status::Fail } else { Status::Ok },
+            f,
+            Some(lo),
+            "Hz",
+            "controller data parts.controller.min_frequency_hz",
+            lo / f,
+        ));
     }
     if let Some(hi) = ic.max_frequency_hz {
         upper(
@@ -357,33 +483,33 @@ pub fn design_checks(
             "controller data parts.controller.max_frequency_hz",
         );
     }
-    c.push(Check {
-        check: "switching frequency above the audible band".into(),
-        status: if f < 20e3 { Status::Warn } else { Status::Ok },
-        value: f,
-        limit: Some(20e3),
-        unit: "Hz",
-        source: "common practice: human hearing reaches about 20 kHz; inductors and ceramic \
-                 capacitors sing below it"
-            .into(),
-    });
+    c.push(row(
+        "switching frequency above the audible band",
+        if f < 20e3 { Status::Warn } else { Status::Ok },
+        f,
+        Some(20e3),
+        "Hz",
+        "common practice: human hearing reaches about 20 kHz; inductors and ceramic \
+         capacitors sing below it",
+        20e3 / f,
+    ));
     if let Some(ton) = ic.min_on_time_s {
-        c.push(Check {
-            check: "on-time vs controller minimum".into(),
-            status: if m.on_time_s < ton {
+        c.push(row(
+            "on-time vs controller minimum",
+            if m.on_time_s < ton {
                 Status::Fail
             } else if m.on_time_s < 1.5 * ton {
                 Status::Warn
             } else {
                 Status::Ok
             },
-            value: m.on_time_s,
-            limit: Some(ton),
-            unit: "s",
-            source: "controller data parts.controller.min_on_time_s; warn below 1.5× it \
-                     (common practice: the highest supply shortens it further)"
-                .into(),
-        });
+            m.on_time_s,
+            Some(ton),
+            "s",
+            "controller data parts.controller.min_on_time_s; warn below 1.5× it \
+             (common practice: room for the controller's spread)",
+            ton / m.on_time_s,
+        ));
     }
     let target = p.led_current_target_a.or_else(|| s.target_current_a());
     if let (Some(acc), Some(target)) = (p.current_accuracy_pct, target) {
@@ -405,4 +531,127 @@ pub fn design_checks(
 /// The worst status in a table (Ok for an empty one).
 pub fn worst(checks: &[Check]) -> Status {
     checks.iter().map(|c| c.status).max().unwrap_or(Status::Ok)
+}
+
+/// Allowed change of the average LED current over the declared input
+/// range when `parts.current_accuracy_pct` is not given, % (**common
+/// practice**).
+pub const DEFAULT_REGULATION_PCT: f64 = 10.0;
+
+/// One end of the declared input range, as the assessment met it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RangeEnd {
+    /// The design ran there and delivered this average LED current.
+    Ran {
+        /// Supply voltage, V.
+        supply_v: f64,
+        /// Average LED current, A.
+        led_current_avg_a: f64,
+    },
+    /// The design could not run there (invalid at that supply, or the
+    /// simulation failed): why, with what was reached.
+    Failed {
+        /// Supply voltage, V.
+        supply_v: f64,
+        /// Which end: `low` or `high`.
+        end: &'static str,
+        /// The scenario or simulation error, in words.
+        reason: String,
+    },
+}
+
+/// The rows about the declared input range: whether the LED current
+/// stays in regulation at its ends (with a regulating controller), and a
+/// failing row for each end where the design does not run.
+///
+/// Regulation: the largest change of the average LED current at an end
+/// from the nominal supply's `nominal_led_avg_a`, in %, against
+/// `parts.current_accuracy_pct` (else [`DEFAULT_REGULATION_PCT`]); warn
+/// above half of it (common practice).
+pub fn range_checks(s: &Scenario, nominal_led_avg_a: f64, ends: &[RangeEnd]) -> Vec<Check> {
+    let mut c = Vec::new();
+    let regulating = s.target_current_a().is_some() || s.parts.led_current_target_a.is_some();
+    let mut worst: Option<(f64, f64)> = None;
+    for e in ends {
+        match e {
+            RangeEnd::Ran {
+                supply_v,
+                led_current_avg_a,
+            } => {
+                let dev = 100.0 * (led_current_avg_a - nominal_led_avg_a).abs()
+                    / nominal_led_avg_a.abs().max(1e-30);
+                if worst.is_none_or(|(d, _)| dev > d) {
+                    worst = Some((dev, *supply_v));
+                }
+            }
+            RangeEnd::Failed {
+                supply_v,
+                end,
+                reason,
+            } => {
+                let mut r = row(
+                    &format!("design runs at the {end} end of the input range"),
+                    Status::Fail,
+                    *supply_v,
+                    None,
+                    "V",
+                    &format!(
+                        "supply.input_range_v: at {supply_v} V the design does not run: {reason}"
+                    ),
+                    f64::INFINITY,
+                );
+                r.supply_v = *supply_v;
+                c.push(r);
+            }
+        }
+    }
+    if let (true, Some((dev, at))) = (regulating, worst) {
+        let (limit, whose) = match s.parts.current_accuracy_pct {
+            Some(a) => (a, "parts.current_accuracy_pct".to_string()),
+            None => (
+                DEFAULT_REGULATION_PCT,
+                format!("{DEFAULT_REGULATION_PCT} % (common practice)"),
+            ),
+        };
+        let mut r = Vec::new();
+        upper(
+            &mut r,
+            "LED current regulation over the input range",
+            dev,
+            limit,
+            0.5,
+            "%",
+            &format!(
+                "change of the average LED current at the ends of supply.input_range_v from its \
+                 value at the nominal supply, against {whose}; warn above half of it (common \
+                 practice)"
+            ),
+        );
+        for mut x in r {
+            x.supply_v = at;
+            c.push(x);
+        }
+    }
+    c
+}
+
+/// One table from the tables of runs at several supplies: for each
+/// check, the row with the worst status (between equal statuses, the
+/// larger severity), in the order first met; a row that appears at only
+/// some supplies is kept.
+pub fn worst_over_supplies(tables: &[Vec<Check>]) -> Vec<Check> {
+    let mut out: Vec<Check> = Vec::new();
+    for t in tables {
+        for r in t {
+            match out.iter_mut().find(|o| o.check == r.check) {
+                Some(o) => {
+                    if (r.status, r.severity) > (o.status, o.severity) {
+                        *o = r.clone();
+                    }
+                }
+                None => out.push(r.clone()),
+            }
+        }
+    }
+    out
 }

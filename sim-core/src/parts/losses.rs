@@ -17,22 +17,41 @@
 //! - transition: the usual linear-ramp estimate, ½·V·I·t per edge (t_r at
 //!   turn-on, t_f at turn-off) with the edge's own V and I, which for equal
 //!   edges is ½·V·I·(t_r + t_f)·f;
-//! - gate drive: Q_g·V_drive per cycle (dissipated in the driver and gate
-//!   resistances, not in the switch channel);
+//! - gate drive: Q_g·V·f, drawn at the voltage the driver is fed from
+//!   (`parts.controller.fed_from`): the supply V_in through the
+//!   controller's own regulator (the regulator drops V_in − V_drive, so the
+//!   input pays Q_g·V_in per cycle), or a separate rail at V_drive
+//!   (Q_g·V_drive); dissipated in the driver, regulator and gate
+//!   resistances, not in the switch channel;
 //! - output capacitance: ½·C_oss·V² per turn-on at the blocked voltage;
+//! - diode junction capacitance: ½·C_j·ΔV² per turn-on, ΔV the swing of
+//!   the switch node at turn-on, which is the voltage the open switch
+//!   blocked just before (V_in + V_F in CCM). Charging a capacitance from
+//!   v₀ to V_in from the supply draws C_j·(V_in − v₀)·V_in and stores
+//!   ½·C_j·(V_in² − v₀²); the difference, ½·C_j·(V_in − v₀)², is
+//!   dissipated in the switch channel (the charge form of Erickson &
+//!   Maksimovic, Fundamentals of Power Electronics, 3rd ed., ch. 4, on the
+//!   diode's junction capacitance as a switching-loss source, with C_j
+//!   taken as constant);
 //! - reverse recovery: Q_rr·V_R per turn-on that cuts off a conducting
 //!   diode (none in DCM, where the diode has already stopped; zero for a
 //!   Schottky, Q_rr = 0);
-//! - core: the Steinmetz equation P_v = k·f^α·B̂^β (Steinmetz 1892) at the
-//!   switching frequency with B̂ = L·ΔI/(2·N·A_e) from the simulated ripple
-//!   (with a saturation curve, B̂ = (ψ(i_max) − ψ(i_min))/(2·N·A_e)):
-//!   sinusoidal-excitation coefficients applied to a triangular current,
-//!   the classical estimate;
-//! - quiescent: V_supply·I_q.
+//! - core: the improved generalized Steinmetz equation (iGSE;
+//!   Venkatachalam, Sullivan, Abdallah & Tacca, "Accurate prediction of
+//!   ferrite core loss with nonsinusoidal waveforms using only Steinmetz
+//!   parameters", IEEE COMPEL 2002):
+//!   P_v = (1/T)·∫ k_i·|dB/dt|^α·(ΔB)^(β−α) dt with
+//!   k_i = k / ((2π)^(α−1)·∫₀^{2π} |cos θ|^α·2^(β−α) dθ), evaluated on the
+//!   simulated flux density of the measured cycles, B = ψ(i_L)/(N·A_e)
+//!   (ψ = L·i, or the saturation curve's flux), piecewise linear between
+//!   the recorded samples, ΔB its peak-to-peak. The sinusoidal Steinmetz
+//!   coefficients k, α, β are all it needs;
+//! - quiescent: V·I_q at the same feed voltage as the gate drive.
 
 use crate::devices::InductanceCurve;
 use crate::metrics::{LossEnergies, Totals};
-use crate::scenario::Scenario;
+use crate::record::{Waveform, COL_IL, COL_TIME};
+use crate::scenario::{ControllerFeed, Core, Scenario};
 
 /// Energy of one switching edge, J: the linear-ramp estimate ½·V·I·t
 /// (voltage and current overlap as straight ramps for time `t_s`).
@@ -40,7 +59,7 @@ pub fn transition_energy_j(v: f64, i: f64, t_s: f64) -> f64 {
     0.5 * v * i * t_s
 }
 
-/// Gate-drive power, W: Q_g·V_drive·f.
+/// Gate-drive power, W: Q_g·V·f with V the voltage the driver is fed at.
 pub fn gate_drive_power_w(gate_charge_c: f64, drive_v: f64, frequency_hz: f64) -> f64 {
     gate_charge_c * drive_v * frequency_hz
 }
@@ -50,7 +69,9 @@ pub fn output_capacitance_energy_j(c_f: f64, v: f64) -> f64 {
     0.5 * c_f * v * v
 }
 
-/// Steinmetz core loss density, W/m³: k·f^α·B̂^β.
+/// Classical Steinmetz core loss density, W/m³: k·f^α·B̂^β (sinusoidal
+/// flux of peak B̂; Steinmetz 1892). Kept for comparison with
+/// [`igse_w_per_m3`].
 pub fn steinmetz_w_per_m3(k: f64, alpha: f64, beta: f64, frequency_hz: f64, b_peak_t: f64) -> f64 {
     if frequency_hz <= 0.0 || b_peak_t <= 0.0 {
         return 0.0;
@@ -58,49 +79,131 @@ pub fn steinmetz_w_per_m3(k: f64, alpha: f64, beta: f64, frequency_hz: f64, b_pe
     k * frequency_hz.powf(alpha) * b_peak_t.powf(beta)
 }
 
+/// ∫₀^{2π} |cos θ|^α dθ, by composite Simpson's rule on 4·∫₀^{π/2}
+/// sin^α x dx after the substitution x = (π/2)·t² (which smooths the
+/// power-law start of sin^α x at 0).
+pub fn abs_cos_power_integral(alpha: f64) -> f64 {
+    use std::f64::consts::FRAC_PI_2;
+    const N: usize = 4000;
+    let g = |t: f64| (FRAC_PI_2 * t * t).sin().powf(alpha) * 2.0 * FRAC_PI_2 * t;
+    let h = 1.0 / N as f64;
+    let mut sum = g(0.0) + g(1.0);
+    for j in 1..N {
+        let w = if j % 2 == 1 { 4.0 } else { 2.0 };
+        sum += w * g(j as f64 * h);
+    }
+    4.0 * sum * h / 3.0
+}
+
+/// The iGSE coefficient k_i from the sinusoidal Steinmetz coefficients
+/// (Venkatachalam et al., IEEE COMPEL 2002, eq. for k_i):
+/// k_i = k / ((2π)^(α−1)·∫₀^{2π} |cos θ|^α·2^(β−α) dθ).
+pub fn igse_ki(k: f64, alpha: f64, beta: f64) -> f64 {
+    let two_pi = std::f64::consts::TAU;
+    k / (two_pi.powf(alpha - 1.0) * 2f64.powf(beta - alpha) * abs_cos_power_integral(alpha))
+}
+
+/// iGSE core loss density of a piecewise-linear flux density, W/m³:
+/// `points` are (t, B) samples over whole periods (time rising);
+/// P_v = k_i·(ΔB)^(β−α)·Σ |ΔB_j|^α·Δt_j^(1−α) / T, with ΔB the
+/// peak-to-peak flux density and T the time the samples span.
+pub fn igse_w_per_m3(k: f64, alpha: f64, beta: f64, points: &[(f64, f64)]) -> f64 {
+    let (Some(first), Some(last)) = (points.first(), points.last()) else {
+        return 0.0;
+    };
+    let span = last.0 - first.0;
+    let (lo, hi) = points
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), p| {
+            (lo.min(p.1), hi.max(p.1))
+        });
+    let db_pp = hi - lo;
+    if !(span > 0.0 && db_pp > 0.0) {
+        return 0.0;
+    }
+    let sum: f64 = points
+        .windows(2)
+        .map(|w| {
+            let (dt, db) = (w[1].0 - w[0].0, (w[1].1 - w[0].1).abs());
+            if dt > 0.0 && db > 0.0 {
+                db.powf(alpha) * dt.powf(1.0 - alpha)
+            } else {
+                0.0
+            }
+        })
+        .sum();
+    igse_ki(k, alpha, beta) * db_pp.powf(beta - alpha) * sum / span
+}
+
 /// Peak flux density of the ripple, T: B̂ = L·ΔI/(2·N·A_e).
 pub fn flux_peak_t(inductance_h: f64, ripple_pp_a: f64, turns: u32, area_m2: f64) -> f64 {
     inductance_h * ripple_pp_a.max(0.0) / (2.0 * f64::from(turns.max(1)) * area_m2)
 }
 
-/// The part losses of the measured cycles in `t`, J.
-pub fn part_loss_energies(s: &Scenario, t: &Totals) -> LossEnergies {
+/// The voltage the controller and gate driver draw their power at, V:
+/// the supply, or the separate rail at the gate-drive voltage.
+pub fn controller_feed_v(s: &Scenario) -> f64 {
+    match s.parts.controller.fed_from {
+        ControllerFeed::Input => s.supply.voltage_v,
+        ControllerFeed::SeparateRail => s.parts.switch.gate_drive_v,
+    }
+}
+
+/// The flux density of the recorded measured cycles, (t, B) per sample.
+fn flux_density_points(s: &Scenario, core: &Core, w: &Waveform) -> Vec<(f64, f64)> {
+    let na = f64::from(core.turns.max(1)) * core.area_m2;
+    let curve = &s.parts.inductor.saturation_curve;
+    let t = w.column(COL_TIME);
+    let il = w.column(COL_IL);
+    if curve.is_empty() {
+        let l = s.inductor.inductance_h;
+        t.iter()
+            .zip(il.iter())
+            .map(|(&t, &i)| (t, l * i / na))
+            .collect()
+    } else {
+        let pts: Vec<(f64, f64)> = curve
+            .iter()
+            .map(|p| (p.current_a, p.inductance_h))
+            .collect();
+        let c = InductanceCurve::new(&pts);
+        t.iter()
+            .zip(il.iter())
+            .map(|(&t, &i)| (t, c.flux_wb(i) / na))
+            .collect()
+    }
+}
+
+/// The part losses of the measured cycles in `t`, J; `w` is the waveform
+/// recorded over the same cycles (for the core loss).
+pub fn part_loss_energies(s: &Scenario, t: &Totals, w: &Waveform) -> LossEnergies {
     let p = &s.parts;
     let e = &t.edges;
     let sw = &p.switch;
     let time = t.time_s;
+    let feed_v = controller_feed_v(s);
     let mut l = LossEnergies {
         switch_transition: transition_energy_j(1.0, e.on_vi, sw.rise_time_s)
             + transition_energy_j(1.0, e.off_vi, sw.fall_time_s),
-        switch_gate_drive: sw.gate_charge_c * sw.gate_drive_v * e.turn_ons as f64,
+        switch_gate_drive: sw.gate_charge_c * feed_v * e.turn_ons as f64,
         switch_output_capacitance: output_capacitance_energy_j(sw.output_capacitance_f, 1.0)
             * e.on_v2,
         diode_reverse_recovery: p.diode.reverse_recovery_charge_c * e.recovery_v,
-        controller_quiescent: s.supply.voltage_v * p.controller.quiescent_current_a * time,
+        diode_junction_capacitance: output_capacitance_energy_j(
+            p.diode.junction_capacitance_f,
+            1.0,
+        ) * e.on_v2,
+        controller_quiescent: feed_v * p.controller.quiescent_current_a * time,
         ..LossEnergies::default()
     };
     if let Some(core) = p.inductor.core {
         if time > 0.0 && t.cycles > 0 {
-            let f = t.cycles as f64 / time;
-            let (lo, hi) = (t.il_min.max(0.0), t.il_max);
-            let curve = &p.inductor.saturation_curve;
-            let b = if curve.is_empty() {
-                flux_peak_t(s.inductor.inductance_h, hi - lo, core.turns, core.area_m2)
-            } else {
-                // A saturating core: half the flux swing ψ(hi) − ψ(lo).
-                let pts: Vec<(f64, f64)> = curve
-                    .iter()
-                    .map(|p| (p.current_a, p.inductance_h))
-                    .collect();
-                let c = InductanceCurve::new(&pts);
-                (c.flux_wb(hi) - c.flux_wb(lo)) / (2.0 * f64::from(core.turns) * core.area_m2)
-            };
-            let pv = steinmetz_w_per_m3(
+            let pts = flux_density_points(s, &core, w);
+            let pv = igse_w_per_m3(
                 core.steinmetz_k,
                 core.steinmetz_alpha,
                 core.steinmetz_beta,
-                f,
-                b,
+                &pts,
             );
             l.inductor_core = pv * core.volume_m3 * time;
         }
@@ -110,8 +213,8 @@ pub fn part_loss_energies(s: &Scenario, t: &Totals) -> LossEnergies {
 
 /// Adds the part losses to `t`: to the losses and, as energy drawn from the
 /// supply, to `e_in` (and `e_parts`), so the balance still closes.
-pub fn apply(s: &Scenario, t: &mut Totals) {
-    let l = part_loss_energies(s, t);
+pub fn apply(s: &Scenario, t: &mut Totals, w: &Waveform) {
+    let l = part_loss_energies(s, t, w);
     let extra = l.total();
     t.loss.add(&l);
     t.e_in += extra;

@@ -36,15 +36,19 @@ pub struct PartTemperature {
     pub max_temperature_c: f64,
 }
 
-/// Heat in each dissipating part, W: switch (conduction, transition and
-/// output capacitance; the gate drive heats the driver, not the channel),
+/// Heat in each dissipating part, W: switch (conduction, transition,
+/// output capacitance and the diode junction capacitance it charges; the
+/// gate drive heats the driver, not the channel),
 /// diode (conduction, recovery), inductor (winding, core), capacitors (ESR).
 pub fn dissipations(m: &Metrics) -> [(&'static str, f64); 5] {
     let l = &m.losses_w;
     [
         (
             "switch",
-            l.switch_conduction + l.switch_transition + l.switch_output_capacitance,
+            l.switch_conduction
+                + l.switch_transition
+                + l.switch_output_capacitance
+                + l.diode_junction_capacitance,
         ),
         ("diode", l.diode_conduction + l.diode_reverse_recovery),
         ("inductor", l.inductor_dcr + l.inductor_core),
