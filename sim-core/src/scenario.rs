@@ -138,6 +138,45 @@ pub enum Diode {
         /// Junction temperature, °C.
         #[serde(default = "default_temp_c", deserialize_with = "de_c")]
         temperature_c: f64,
+        /// Temperature at which `saturation_current_a` holds, °C
+        /// (default 25 °C, the usual datasheet temperature).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_c",
+            skip_serializing_if = "Option::is_none"
+        )]
+        reference_temperature_c: Option<f64>,
+        /// Band-gap energy E_g of the saturation current's temperature law,
+        /// eV (default: Schottky 0.69 eV; see [`crate::devices::JunctionLaw`]).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        bandgap_ev: Option<f64>,
+        /// Temperature exponent XTI of the saturation current (default: Schottky 2).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        is_temp_exponent: Option<f64>,
+        /// Datasheet forward-voltage temperature coefficient, V/K, at
+        /// `tempco_current_a` and the reference temperature: the band gap
+        /// is derived from it (instead of `bandgap_ev`).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_v",
+            skip_serializing_if = "Option::is_none"
+        )]
+        forward_voltage_tempco_v_per_k: Option<f64>,
+        /// Current at which `forward_voltage_tempco_v_per_k` is stated, A.
+        #[serde(
+            default,
+            deserialize_with = "de_opt_a",
+            skip_serializing_if = "Option::is_none"
+        )]
+        tempco_current_a: Option<f64>,
     },
 }
 
@@ -181,6 +220,45 @@ pub enum Load {
         /// Junction temperature, °C.
         #[serde(default = "default_temp_c", deserialize_with = "de_c")]
         junction_temperature_c: f64,
+        /// Temperature at which `saturation_current_a` holds, °C
+        /// (default 25 °C, the usual datasheet temperature).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_c",
+            skip_serializing_if = "Option::is_none"
+        )]
+        reference_temperature_c: Option<f64>,
+        /// Band-gap energy E_g of the saturation current's temperature law,
+        /// eV (default: GaN 3.4 eV; see [`crate::devices::JunctionLaw`]).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        bandgap_ev: Option<f64>,
+        /// Temperature exponent XTI of the saturation current (default: 3).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        is_temp_exponent: Option<f64>,
+        /// Datasheet forward-voltage temperature coefficient per LED, V/K, at
+        /// `tempco_current_a` and the reference temperature: the band gap
+        /// is derived from it (instead of `bandgap_ev`).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_v",
+            skip_serializing_if = "Option::is_none"
+        )]
+        forward_voltage_tempco_v_per_k: Option<f64>,
+        /// Current at which `forward_voltage_tempco_v_per_k` is stated, A.
+        #[serde(
+            default,
+            deserialize_with = "de_opt_a",
+            skip_serializing_if = "Option::is_none"
+        )]
+        tempco_current_a: Option<f64>,
     },
     /// A string of identical LEDs described by a knee voltage and a
     /// dynamic resistance each: no current below the knee, then
@@ -1090,6 +1168,7 @@ impl Scenario {
                 emission_coefficient,
                 series_resistance_ohm,
                 temperature_c,
+                ..
             } => {
                 c.range(
                     "diode.saturation_current_a",
@@ -1113,6 +1192,15 @@ impl Scenario {
                     "Ω",
                 );
                 c.range("diode.temperature_c", temperature_c, -60.0, 250.0, "°C");
+                if let Some(inputs) = crate::devices::diode_junction_inputs(&s.diode) {
+                    c.junction(
+                        "diode",
+                        &inputs,
+                        (saturation_current_a, emission_coefficient),
+                        ("temperature_c", temperature_c),
+                        crate::devices::diode_junction_law(&s.diode),
+                    );
+                }
             }
         }
         c.range(
@@ -1136,6 +1224,7 @@ impl Scenario {
                 emission_coefficient,
                 series_resistance_ohm,
                 junction_temperature_c,
+                ..
             } => {
                 c.count("load.count", count);
                 c.range(
@@ -1166,6 +1255,15 @@ impl Scenario {
                     250.0,
                     "°C",
                 );
+                if let Some(inputs) = crate::devices::load_junction_inputs(&s.load) {
+                    c.junction(
+                        "load",
+                        &inputs,
+                        (saturation_current_a, emission_coefficient),
+                        ("junction_temperature_c", junction_temperature_c),
+                        crate::devices::load_junction_law(&s.load),
+                    );
+                }
             }
             Load::LedKnee {
                 count,
@@ -1545,6 +1643,95 @@ struct Checker {
 }
 
 impl Checker {
+    /// A junction's temperature data (reference temperature, band gap,
+    /// exponent, datasheet coefficient) and the saturation current they
+    /// give at the operating temperature.
+    fn junction(
+        &mut self,
+        prefix: &str,
+        j: &crate::devices::JunctionInputs,
+        (is0, n): (f64, f64),
+        (t_field, t_c): (&str, f64),
+        law: Option<crate::devices::JunctionLaw>,
+    ) {
+        let before = self.problems.len();
+        let p = |f: &str| format!("{prefix}.{f}");
+        if let Some(t) = j.reference_temperature_c {
+            self.range(&p("reference_temperature_c"), t, -60.0, 250.0, "°C");
+        }
+        if let Some(eg) = j.bandgap_ev {
+            self.range(&p("bandgap_ev"), eg, 0.1, 10.0, "eV");
+        }
+        if let Some(x) = j.is_temp_exponent {
+            self.range(&p("is_temp_exponent"), x, 0.0, 10.0, "");
+        }
+        if let Some(tc) = j.tempco_v_per_k {
+            self.range(&p("forward_voltage_tempco_v_per_k"), tc, -0.05, 0.05, "V/K");
+        }
+        if let Some(i) = j.tempco_current_a {
+            self.range(&p("tempco_current_a"), i, 1e-9, 1e4, "A");
+        }
+        match (j.tempco_v_per_k, j.tempco_current_a) {
+            (Some(tc), None) => self.push(
+                &p("tempco_current_a"),
+                "(missing)",
+                &format!(
+                    "needed with forward_voltage_tempco_v_per_k = {}: the current the \
+                     coefficient is stated at",
+                    fmt_num(tc)
+                ),
+            ),
+            (None, Some(i)) => self.push(
+                &p("forward_voltage_tempco_v_per_k"),
+                "(missing)",
+                &format!(
+                    "tempco_current_a = {} A is given without the coefficient it belongs to",
+                    fmt_num(i)
+                ),
+            ),
+            _ => {}
+        }
+        if let (Some(_), Some(tc)) = (j.bandgap_ev, j.tempco_v_per_k) {
+            self.push(
+                &p("forward_voltage_tempco_v_per_k"),
+                &fmt_num(tc),
+                "give either bandgap_ev or a forward-voltage coefficient, not both",
+            );
+        }
+        if self.problems.len() > before || !(is0 > 0.0 && n > 0.0) {
+            return;
+        }
+        let Some(law) = law else { return };
+        if j.bandgap_ev.is_none() && j.tempco_v_per_k.is_some() {
+            let eg = law.bandgap_ev;
+            if !(0.1..=10.0).contains(&eg) {
+                self.push(
+                    &p("forward_voltage_tempco_v_per_k"),
+                    &fmt_num(j.tempco_v_per_k.unwrap_or(0.0)),
+                    &format!(
+                        "implies a band gap of {} eV with this junction's Is and n, outside \
+                         0.1 to 10 eV: the coefficient does not fit the model",
+                        fmt_num(eg)
+                    ),
+                );
+                return;
+            }
+        }
+        let is_t = law.saturation_current_a(is0, n, t_c);
+        if !(is_t.is_finite() && is_t > 1e-290 && is_t < 1e3) {
+            self.push(
+                &p(t_field),
+                &fmt_num(t_c),
+                &format!(
+                    "moves the saturation current to {} A at this temperature (from its \
+                     value at {} °C), outside what the model can use",
+                    fmt_num(is_t),
+                    fmt_num(law.reference_temperature_c)
+                ),
+            );
+        }
+    }
+
     fn push(&mut self, path: &str, value: &str, reason: &str) {
         self.problems.push(FieldProblem {
             path: path.to_string(),
@@ -1721,6 +1908,11 @@ pub fn template() -> Scenario {
             emission_coefficient: 2.2,
             series_resistance_ohm: 0.35,
             junction_temperature_c: 70.0,
+            reference_temperature_c: Some(70.0),
+            bandgap_ev: None,
+            is_temp_exponent: None,
+            forward_voltage_tempco_v_per_k: None,
+            tempco_current_a: None,
         },
         controller: ControllerSpec::ConstantOffTime {
             peak_current_a: 0.8,
