@@ -6,6 +6,7 @@ mod junction_temperature;
 mod parts;
 mod properties;
 mod reference;
+mod sense_resistor;
 mod shooting;
 mod study;
 mod textbook;

@@ -180,3 +180,32 @@ fn the_template_carries_every_part_field_and_runs_with_its_checks() {
     assert!(v["energy_balance_residual"].as_f64().unwrap().abs() < 1e-8);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn sense_resistor_appears_in_the_loss_table_and_the_json() {
+    // The headlamp with a 0.22 Ω sense resistor set from the command line.
+    let f = scenario("headlamp-4cell.json");
+    let o = run(&[
+        "run",
+        "--json",
+        &f,
+        "--set",
+        "sense_resistor.resistance_ohm=0.22",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let w = v["losses_w"]["current_sense"].as_f64().unwrap();
+    assert!(w > 0.0, "{v}");
+    let total = v["total_loss_w"].as_f64().unwrap();
+    assert!(total > w);
+    let o = run(&["run", &f, "--set", "sense_resistor.resistance_ohm=0.22"]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert!(out.contains("current-sense resistor"), "{out}");
+    // Without the section there is no such row and a zero entry.
+    let o = run(&["run", "--json", &f]);
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert!(v["losses_w"]["current_sense"].as_f64().unwrap().abs() < 1e-300);
+    let o = run(&["run", &f]);
+    assert!(!text(&o.stdout).contains("current-sense resistor"));
+}

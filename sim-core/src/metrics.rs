@@ -167,6 +167,8 @@ pub struct LossEnergies {
     pub inductor_core: f64,
     /// Controller quiescent current from the supply.
     pub controller_quiescent: f64,
+    /// Current-sense resistor.
+    pub current_sense: f64,
 }
 
 impl LossEnergies {
@@ -185,6 +187,7 @@ impl LossEnergies {
             + self.diode_reverse_recovery
             + self.inductor_core
             + self.controller_quiescent
+            + self.current_sense
     }
 
     /// Every entry multiplied by `k` (e.g. 1/time for watts).
@@ -203,6 +206,7 @@ impl LossEnergies {
             diode_reverse_recovery: self.diode_reverse_recovery * k,
             inductor_core: self.inductor_core * k,
             controller_quiescent: self.controller_quiescent * k,
+            current_sense: self.current_sense * k,
         }
     }
 
@@ -221,6 +225,7 @@ impl LossEnergies {
         self.diode_reverse_recovery += o.diode_reverse_recovery;
         self.inductor_core += o.inductor_core;
         self.controller_quiescent += o.controller_quiescent;
+        self.current_sense += o.current_sense;
     }
 }
 

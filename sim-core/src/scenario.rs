@@ -43,6 +43,9 @@ pub struct Scenario {
     pub output_capacitor: Option<Capacitor>,
     /// What the driver feeds.
     pub load: Load,
+    /// The current-sense resistor (optional; absent: none).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sense_resistor: Option<SenseResistor>,
     /// How the switch is driven.
     pub controller: ControllerSpec,
     /// Engine settings.
@@ -178,6 +181,34 @@ pub enum Diode {
         )]
         tempco_current_a: Option<f64>,
     },
+}
+
+/// A current-sense resistor: a resistance in the power path that drops
+/// voltage and dissipates (the sensing itself is ideal: the controller
+/// compares the current of its position exactly).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SenseResistor {
+    /// Resistance, ohms.
+    #[serde(deserialize_with = "de_ohm")]
+    pub resistance_ohm: f64,
+    /// Where it sits (default: [`Scenario::sense_position`] per controller).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub position: Option<SensePosition>,
+}
+
+/// Where the sense resistor sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SensePosition {
+    /// In series with the LED string, between the inductor and the output
+    /// node (ahead of any output capacitor): it carries the inductor
+    /// current, the current a hysteretic controller watches; without an
+    /// output capacitor that is the LED current.
+    LedString,
+    /// In series with the switch: it carries the switch current (peak
+    /// current sensing of a constant off-time controller).
+    Switch,
 }
 
 /// The power inductor.
@@ -1217,6 +1248,15 @@ impl Scenario {
         if let Some(cap) = s.output_capacitor {
             c.capacitor("output_capacitor", cap);
         }
+        if let Some(r) = s.sense_resistor {
+            c.range(
+                "sense_resistor.resistance_ohm",
+                r.resistance_ohm,
+                0.0,
+                1e3,
+                "Ω",
+            );
+        }
         match s.load {
             Load::LedExponential {
                 count,
@@ -1432,6 +1472,22 @@ impl Scenario {
             } => Some(0.5 * (upper_current_a + lower_current_a)),
             ControllerSpec::FixedDuty { .. } => None,
         }
+    }
+
+    /// The sense resistor's position and resistance, if there is one. A
+    /// position not given follows the controller: in series with the
+    /// switch for the constant off-time controller (it senses the peak
+    /// switch current), in series with the LED string for the hysteretic
+    /// controller (it watches the current continuously) and for fixed duty.
+    pub fn sense_position(&self) -> Option<(SensePosition, f64)> {
+        let r = self.sense_resistor?;
+        let pos = r.position.unwrap_or(match self.controller {
+            ControllerSpec::ConstantOffTime { .. } => SensePosition::Switch,
+            ControllerSpec::Hysteretic { .. } | ControllerSpec::FixedDuty { .. } => {
+                SensePosition::LedString
+            }
+        });
+        Some((pos, r.resistance_ohm))
     }
 
     /// LED string (or load) voltage at a current, V, on the exact curve.
@@ -1922,6 +1978,7 @@ pub fn template() -> Scenario {
         },
         simulation: SimSettings::default(),
         parts: PartData::default(),
+        sense_resistor: None,
         tolerances: None,
         spec: None,
     }

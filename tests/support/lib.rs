@@ -51,6 +51,7 @@ pub fn ideal_buck(
         controller,
         simulation: SimSettings::default(),
         parts: Default::default(),
+        sense_resistor: None,
         tolerances: None,
         spec: None,
     }
