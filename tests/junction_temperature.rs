@@ -319,3 +319,40 @@ fn thermal_loop_converges_to_a_hotter_lower_voltage_string() {
     let a = assess(&h, &AssessOptions::default()).unwrap();
     assert!(a.converged);
 }
+
+#[test]
+fn a_parts_led_coefficient_the_model_cannot_meet_is_refused() {
+    let mut s = lamp_12v();
+    s.parts.led = Some(LedThermal {
+        resistance_c_per_w: 40.0,
+        max_junction_temperature_c: 150.0,
+        // +40 mV/K at the 0.7 A target: a negative band gap.
+        forward_voltage_tempco_v_per_k: 0.04,
+        heat_fraction: 0.7,
+    });
+    let err = s.validate().unwrap_err();
+    assert!(
+        err.problems()
+            .iter()
+            .any(|p| p.path == "parts.led.forward_voltage_tempco_v_per_k"),
+        "{err}"
+    );
+    // A usual coefficient is accepted and sets the loop's law: the
+    // effective load has exactly that slope at the target current.
+    s.parts.led = Some(LedThermal {
+        forward_voltage_tempco_v_per_k: -2e-3,
+        ..s.parts.led.unwrap()
+    });
+    s.load = leds(3, 25.0);
+    s.validate().unwrap();
+    let target = s.target_current_a().unwrap();
+    let mut l = sim_core::parts::thermal::load_with_led_tempco(&s);
+    let dv = slope(
+        |t| {
+            set_led_t(&mut l, t);
+            ExpDevice::from_load(&l).unwrap().voltage_v(target)
+        },
+        25.0,
+    ) / 3.0;
+    assert!((dv + 2e-3).abs() < 2e-6, "{dv}");
+}

@@ -1303,6 +1303,7 @@ impl Scenario {
                         ("junction_temperature_c", junction_temperature_c),
                         crate::devices::load_junction_law(&s.load),
                     );
+                    c.led_part_tempco(s, &inputs, saturation_current_a, emission_coefficient);
                 }
             }
             Load::LedKnee {
@@ -1699,6 +1700,54 @@ struct Checker {
 }
 
 impl Checker {
+    /// `parts.led.forward_voltage_tempco_v_per_k` taken as the exponential
+    /// load's datasheet coefficient at the target current (when the load
+    /// gives no band gap or coefficient of its own) must imply a band gap
+    /// the model can use.
+    fn led_part_tempco(
+        &mut self,
+        s: &Scenario,
+        j: &crate::devices::JunctionInputs,
+        is0: f64,
+        n: f64,
+    ) {
+        let (Some(led), Some(target)) = (s.parts.led, s.target_current_a()) else {
+            return;
+        };
+        let tc = led.forward_voltage_tempco_v_per_k;
+        let usable = |x: f64| x.is_finite() && x > 0.0;
+        if j.bandgap_ev.is_some()
+            || j.tempco_v_per_k.is_some()
+            || tc == 0.0
+            || !(-0.05..=0.05).contains(&tc)
+            || !usable(target)
+            || !usable(is0)
+            || !usable(n)
+        {
+            return;
+        }
+        let t0 = j
+            .reference_temperature_c
+            .unwrap_or(crate::devices::DEFAULT_REFERENCE_C);
+        let xti = j
+            .is_temp_exponent
+            .unwrap_or(crate::devices::LED_IS_TEMP_EXPONENT);
+        let eg = crate::devices::bandgap_from_tempco_ev(is0, n, t0, xti, tc, target);
+        if !(0.1..=10.0).contains(&eg) {
+            self.push(
+                "parts.led.forward_voltage_tempco_v_per_k",
+                &fmt_num(tc),
+                &format!(
+                    "taken as the LEDs' coefficient at the target current {} A, it implies a \
+                     band gap of {} eV, outside 0.1 to 10 eV: the coefficient does not fit the \
+                     LED model",
+                    fmt_num(target),
+                    fmt_num(eg)
+                ),
+            );
+        }
+    }
+
     /// A junction's temperature data (reference temperature, band gap,
     /// exponent, datasheet coefficient) and the saturation current they
     /// give at the operating temperature.
