@@ -48,6 +48,11 @@ fn design() -> impl Strategy<Value = Scenario> {
                     emission_coefficient: 1.1,
                     series_resistance_ohm: sw.2,
                     temperature_c: 40.0,
+                    reference_temperature_c: None,
+                    bandgap_ev: None,
+                    is_temp_exponent: None,
+                    forward_voltage_tempco_v_per_k: None,
+                    tempco_current_a: None,
                 }
             };
             s.inductor.inductance_h = ind.0;
@@ -63,6 +68,11 @@ fn design() -> impl Strategy<Value = Scenario> {
                     emission_coefficient: 2.2,
                     series_resistance_ohm: 0.3,
                     junction_temperature_c: 60.0,
+                    reference_temperature_c: None,
+                    bandgap_ev: None,
+                    is_temp_exponent: None,
+                    forward_voltage_tempco_v_per_k: None,
+                    tempco_current_a: None,
                 },
                 1 => Load::LedKnee {
                     count: led.0,

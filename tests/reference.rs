@@ -388,3 +388,55 @@ fn cross_check_saturating_inductor() {
     assert!(e.inductor_ripple_pp_a > 1.15 * plain.inductor_ripple_pp_a);
     assert!(r.inductor_ripple_pp_a > 1.15 * plain.inductor_ripple_pp_a);
 }
+
+/// `s` with a current-sense resistor of `r` ohms (position `None`: the
+/// controller's default).
+fn with_sense(
+    mut s: Scenario,
+    r: f64,
+    position: Option<sim_core::scenario::SensePosition>,
+) -> Scenario {
+    s.name = format!("{}-sense", s.name);
+    s.sense_resistor = Some(sim_core::scenario::SenseResistor {
+        resistance_ohm: r,
+        position,
+    });
+    s.validate().expect("valid");
+    s
+}
+
+/// Both engines' current-sense loss agree (relative).
+fn sense_losses_agree(e: &Metrics, r: &Metrics) {
+    let (a, b) = (e.losses_w.current_sense, r.losses_w.current_sense);
+    assert!(b > 0.0, "no sense loss in the reference engine");
+    assert!(rel(a, b) < 2e-3, "sense loss {a} vs {b}");
+}
+
+// Independent cross-check: a current-sense resistor in series with the
+// switch (constant off-time default) with a Shockley diode and exponential
+// LEDs, and in series with the LED string (hysteretic default) ahead of an
+// output capacitor.
+#[test]
+fn cross_check_current_sense_resistor() {
+    let (e, r) = cross_check(
+        &with_sense(circuits::shockley_diode(), 0.33, None),
+        ConductionMode::Ccm,
+    );
+    sense_losses_agree(&e, &r);
+    let mut h = circuits::hysteretic();
+    h.output_capacitor = Some(sim_core::scenario::Capacitor {
+        capacitance_f: 1e-6,
+        esr_ohm: 0.02,
+    });
+    let (e, r) = cross_check(&with_sense(h, 0.27, None), ConductionMode::Ccm);
+    sense_losses_agree(&e, &r);
+    let (e, r) = cross_check(
+        &with_sense(
+            circuits::dcm_long_off_time(),
+            0.5,
+            Some(sim_core::scenario::SensePosition::LedString),
+        ),
+        ConductionMode::Dcm,
+    );
+    sense_losses_agree(&e, &r);
+}

@@ -3,10 +3,12 @@
 
 mod bad_input;
 mod part_checks;
+mod junction_temperature;
 mod parts;
 mod properties;
 mod readme;
 mod reference;
+mod sense_resistor;
 mod shooting;
 mod study;
 mod textbook;

@@ -106,6 +106,10 @@ struct FitLedArgs {
         allow_hyphen_values = true
     )]
     tempco_mv_per_k: Option<f64>,
+    /// Current at which the temperature coefficient is stated, A (default:
+    /// the largest current among the points it comes from).
+    #[arg(long = "tempco-current", value_name = "A")]
+    tempco_current_a: Option<f64>,
     /// A point at the second temperature `--hot-temp`, to fit the
     /// temperature coefficient from (repeatable).
     #[arg(long = "hot-point", value_name = "I,V", value_parser = parse_point)]
@@ -293,14 +297,34 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
         a.hot_temp_c,
     )
     .map_err(|e| Failure::Input(format!("fit-led: {e}")))?;
-    let load = serde_json::json!({
+    let mut load = serde_json::json!({
         "kind": "led_exponential",
         "count": a.count,
         "saturation_current_a": f.saturation_current_a,
         "emission_coefficient": f.emission_coefficient,
         "series_resistance_ohm": f.series_resistance_ohm,
         "junction_temperature_c": f.temperature_c,
+        "reference_temperature_c": f.temperature_c,
     });
+    // The coefficient goes into the load, stated at a current, from which
+    // the model derives its junction law (band gap).
+    let tempco_current = a.tempco_current_a.unwrap_or_else(|| {
+        let pts = if a.tempco_mv_per_k.is_none() && !a.hot_points.is_empty() {
+            &a.hot_points
+        } else {
+            &a.points
+        };
+        pts.iter().map(|p| p.0).fold(0.0, f64::max)
+    });
+    if let Some(tc) = f.tempco_v_per_k {
+        if !(tempco_current.is_finite() && tempco_current > 0.0) {
+            return Err(Failure::Input(format!(
+                "--tempco-current {tempco_current}: must be a positive current"
+            )));
+        }
+        load["forward_voltage_tempco_v_per_k"] = tc.into();
+        load["tempco_current_a"] = tempco_current.into();
+    }
     if a.json {
         let out = serde_json::json!({ "fit": f, "load": load });
         println!(
@@ -336,8 +360,9 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
             "fitted"
         };
         println!(
-            "\n  forward-voltage tempco {:+.3} mV/K per LED ({how})",
-            1e3 * tc
+            "\n  forward-voltage tempco {:+.3} mV/K per LED at {} ({how})",
+            1e3 * tc,
+            format::eng(tempco_current, "A")
         );
         if let Some(th) = a.hot_temp_c {
             for (&(i, v), r) in a.hot_points.iter().zip(&f.hot_residuals_v) {
@@ -351,12 +376,11 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
         }
     }
     let mut fragment = serde_json::json!({ "load": load });
-    if let Some(tc) = f.tempco_v_per_k {
+    if f.tempco_v_per_k.is_some() {
         fragment["parts"] = serde_json::json!({
             "led": {
                 "resistance_c_per_w": "(your LED's junction-to-ambient °C/W)",
                 "max_junction_temperature_c": "(from the datasheet)",
-                "forward_voltage_tempco_v_per_k": tc,
             }
         });
     }

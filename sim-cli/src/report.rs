@@ -621,6 +621,7 @@ fn loss_rows(w: &LossEnergies, p: &LossEnergies) -> Vec<(&'static str, f64, f64)
             w.controller_quiescent,
             p.controller_quiescent,
         ),
+        ("current-sense resistor", w.current_sense, p.current_sense),
     ]
     .into_iter()
     .filter(|r| r.1 != 0.0)

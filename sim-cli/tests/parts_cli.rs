@@ -239,3 +239,66 @@ fn check_rows_name_the_supply_of_their_worst_case() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn sense_resistor_appears_in_the_loss_table_and_the_json() {
+    // The headlamp with a 0.22 Ω sense resistor set from the command line.
+    let f = scenario("headlamp-4cell.json");
+    let o = run(&[
+        "run",
+        "--json",
+        &f,
+        "--set",
+        "sense_resistor.resistance_ohm=0.22",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let w = v["losses_w"]["current_sense"].as_f64().unwrap();
+    assert!(w > 0.0, "{v}");
+    let total = v["total_loss_w"].as_f64().unwrap();
+    assert!(total > w);
+    let o = run(&["run", &f, "--set", "sense_resistor.resistance_ohm=0.22"]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert!(out.contains("current-sense resistor"), "{out}");
+    // Without the section there is no such row and a zero entry.
+    let o = run(&["run", "--json", &f]);
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert!(v["losses_w"]["current_sense"].as_f64().unwrap().abs() < 1e-300);
+    let o = run(&["run", &f]);
+    assert!(!text(&o.stdout).contains("current-sense resistor"));
+}
+
+#[test]
+fn fit_led_puts_the_coefficient_and_its_current_into_the_load() {
+    // Points of Is = 1e-18 A, n = 2.5, Rs = 0.5 Ω at 25 °C (CODATA kT/q).
+    let vt = 1.380_649e-23 * 298.15 / 1.602_176_634e-19;
+    let v = |i: f64| 2.5 * vt * (i / 1e-18_f64).ln_1p() + 0.5 * i;
+    let pts: Vec<String> = [0.05, 0.2, 0.5, 1.0]
+        .iter()
+        .map(|&i| format!("{i},{:.5}", v(i)))
+        .collect();
+    let mut args = vec![
+        "fit-led",
+        "--json",
+        "--tempco-mv",
+        "-2.5",
+        "--tempco-current",
+        "0.35",
+    ];
+    for p in &pts {
+        args.push("--point");
+        args.push(p);
+    }
+    let o = run(&args);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let l = &j["load"];
+    assert!((l["forward_voltage_tempco_v_per_k"].as_f64().unwrap() + 2.5e-3).abs() < 1e-12);
+    assert!((l["tempco_current_a"].as_f64().unwrap() - 0.35).abs() < 1e-12);
+    assert!((l["reference_temperature_c"].as_f64().unwrap() - 25.0).abs() < 1e-12);
+    // Without --tempco-current: the largest point's current.
+    args.drain(4..6);
+    let j: Value = serde_json::from_slice(&run(&args).stdout).unwrap();
+    assert!((j["load"]["tempco_current_a"].as_f64().unwrap() - 1.0).abs() < 1e-12);
+}

@@ -138,6 +138,11 @@ pub struct Circuit {
     pub saturation: Option<InductanceCurve>,
     /// Inductor DCR, ohms.
     pub dcr_ohm: f64,
+    /// Sense resistance in series with the LED string (carrying the
+    /// inductor current), ohms; 0 without one there.
+    pub sense_string_ohm: f64,
+    /// Sense resistance in series with the switch, ohms; 0 without one there.
+    pub sense_switch_ohm: f64,
     /// Output capacitance, F, and ESR, ohms.
     pub output_cap: Option<(f64, f64)>,
     /// The diode's piecewise-linear curve in use.
@@ -148,6 +153,16 @@ pub struct Circuit {
     pub diode_exact: Option<ExpDevice>,
     /// Exact LED curve, when the load is exponential.
     pub led_exact: Option<ExpDevice>,
+}
+
+/// The sense resistance `(in series with the LED string, in series with
+/// the switch)` of a scenario, ohms (0 where there is none).
+pub fn sense_resistances(s: &Scenario) -> (f64, f64) {
+    match s.sense_position() {
+        Some((crate::scenario::SensePosition::LedString, r)) => (r, 0.0),
+        Some((crate::scenario::SensePosition::Switch, r)) => (0.0, r),
+        None => (0.0, 0.0),
+    }
 }
 
 struct Eval {
@@ -225,6 +240,7 @@ impl Circuit {
                 .collect();
             InductanceCurve::new(&pts)
         });
+        let (sense_string_ohm, sense_switch_ohm) = sense_resistances(s);
         Circuit {
             supply_v: s.supply.voltage_v,
             source_ohm: s.supply.source_resistance_ohm,
@@ -233,6 +249,8 @@ impl Circuit {
             inductance_h: saturation.map_or(s.inductor.inductance_h, |c| c.inductance_h(0.0)),
             saturation,
             dcr_ohm: s.inductor.dcr_ohm,
+            sense_string_ohm,
+            sense_switch_ohm,
             output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
             diode,
             led,
@@ -369,7 +387,11 @@ impl Circuit {
         let (vin, i_s, i_cin) = self.input_side(&x, one, i_sw);
         let (vo, i_led, i_co) = self.output_side(&x, one, il, region.led_segment);
         let (v_sw, i_d, v_d) = if region.switch_on {
-            (vin - self.switch_ohm * il, 0.0, 0.0)
+            (
+                vin - (self.switch_ohm + self.sense_switch_ohm) * il,
+                0.0,
+                0.0,
+            )
         } else if region.conducting {
             let k = region.diode_segment as usize;
             let vd = self.diode.v0_v[k] * one + self.diode.r_ohm[k] * il;
@@ -378,7 +400,7 @@ impl Circuit {
             (vo, 0.0, 0.0)
         };
         let dil = if region.conducting {
-            (v_sw - self.dcr_ohm * il - vo) / self.inductance_in(region)
+            (v_sw - (self.dcr_ohm + self.sense_string_ohm) * il - vo) / self.inductance_in(region)
         } else {
             0.0
         };

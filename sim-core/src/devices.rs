@@ -9,7 +9,206 @@
 //! reference engine and to measure the fit error.
 
 use crate::scenario::{Diode, Load};
-use crate::units::thermal_voltage_v;
+use crate::units::{thermal_voltage_v, BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C, ZERO_CELSIUS_K};
+
+/// Default band gap of an LED junction's temperature law, eV: gallium
+/// nitride at room temperature, 3.4 eV (**from memory**). With XTI = 3 it
+/// gives an InGaN LED at 2.6–3.1 V of junction voltage a forward-voltage
+/// coefficient of about −1 to −3 mV/K, the range datasheets show.
+pub const LED_BANDGAP_EV: f64 = 3.4;
+/// Default saturation-current temperature exponent XTI of an LED (the
+/// pn-junction value 3, **from memory**).
+pub const LED_IS_TEMP_EXPONENT: f64 = 3.0;
+/// Default band gap of the Shockley diode's temperature law, eV: a
+/// Schottky barrier, about 0.69 eV (**from memory**). A silicon pn diode
+/// is 1.11 eV with XTI = 3 (**from memory**).
+pub const DIODE_BANDGAP_EV: f64 = 0.69;
+/// Default saturation-current temperature exponent XTI of the Shockley
+/// diode (Schottky barrier: 2, **from memory**).
+pub const DIODE_IS_TEMP_EXPONENT: f64 = 2.0;
+/// Temperature a saturation current holds at unless the scenario says
+/// otherwise, °C (the usual datasheet temperature).
+pub const DEFAULT_REFERENCE_C: f64 = 25.0;
+
+/// How a junction's saturation current follows its temperature (Sze,
+/// *Physics of Semiconductor Devices*, the diode saturation current's
+/// temperature dependence):
+/// Is(T) = Is(T0)·(T/T0)^(XTI/n)·exp((E_g/(n·k))·(1/T0 − 1/T)).
+///
+/// At a fixed current well above Is this makes the junction voltage fall
+/// with temperature: dV/dT = (V − E_g/q − XTI·k·T/q)/T.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct JunctionLaw {
+    /// Temperature the given saturation current holds at, °C.
+    pub reference_temperature_c: f64,
+    /// Band-gap energy E_g, eV.
+    pub bandgap_ev: f64,
+    /// Temperature exponent XTI.
+    pub is_temp_exponent: f64,
+}
+
+/// A junction's temperature data as a scenario gives them (each optional).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct JunctionInputs {
+    /// Temperature the saturation current holds at, °C.
+    pub reference_temperature_c: Option<f64>,
+    /// Band gap, eV.
+    pub bandgap_ev: Option<f64>,
+    /// Temperature exponent XTI.
+    pub is_temp_exponent: Option<f64>,
+    /// Datasheet forward-voltage coefficient of one junction, V/K.
+    pub tempco_v_per_k: Option<f64>,
+    /// Current at which the coefficient is stated, A.
+    pub tempco_current_a: Option<f64>,
+}
+
+impl JunctionLaw {
+    /// The law from the scenario's data: the band gap is given, derived
+    /// from a datasheet coefficient (see [`bandgap_from_tempco_ev`]), or
+    /// the default; likewise the exponent and reference temperature.
+    /// `is0`, `n`: the saturation current at the reference temperature
+    /// and the emission coefficient.
+    pub fn resolve(
+        inputs: &JunctionInputs,
+        is0: f64,
+        n: f64,
+        default_bandgap_ev: f64,
+        default_exponent: f64,
+    ) -> JunctionLaw {
+        let t0 = inputs
+            .reference_temperature_c
+            .unwrap_or(DEFAULT_REFERENCE_C);
+        let xti = inputs.is_temp_exponent.unwrap_or(default_exponent);
+        let eg = match (
+            inputs.bandgap_ev,
+            inputs.tempco_v_per_k,
+            inputs.tempco_current_a,
+        ) {
+            (Some(eg), _, _) => eg,
+            (None, Some(tc), Some(i)) => bandgap_from_tempco_ev(is0, n, t0, xti, tc, i),
+            _ => default_bandgap_ev,
+        };
+        JunctionLaw {
+            reference_temperature_c: t0,
+            bandgap_ev: eg,
+            is_temp_exponent: xti,
+        }
+    }
+
+    /// The saturation current at `temperature_c`, A, of a junction with
+    /// saturation current `is0` at the reference temperature and
+    /// emission coefficient `n`.
+    pub fn saturation_current_a(&self, is0: f64, n: f64, temperature_c: f64) -> f64 {
+        let t0 = self.reference_temperature_c + ZERO_CELSIUS_K;
+        let t = temperature_c + ZERO_CELSIUS_K;
+        // E_g/k in kelvin: eV → J is the elementary charge.
+        let eg_over_k = self.bandgap_ev * ELEMENTARY_CHARGE_C / BOLTZMANN_J_PER_K;
+        let ln_ratio =
+            (self.is_temp_exponent / n) * (t / t0).ln() + (eg_over_k / n) * (1.0 / t0 - 1.0 / t);
+        is0 * ln_ratio.exp()
+    }
+}
+
+/// The band gap, eV, for which a junction (saturation current `is0` at
+/// `reference_c`, emission coefficient `n`, exponent `xti`) has the
+/// forward-voltage coefficient `tempco_v_per_k` at `current_a` and the
+/// reference temperature. From the model v_j = n·Vt·ln(1 + i/Is(T)):
+/// dv_j/dT = (v_j − f·(XTI·Vt + E_g/q))/T with f = i/(i + Is), so
+/// E_g/q = (v_j − T·dv_j/dT)/f − XTI·Vt.
+pub fn bandgap_from_tempco_ev(
+    is0: f64,
+    n: f64,
+    reference_c: f64,
+    xti: f64,
+    tempco_v_per_k: f64,
+    current_a: f64,
+) -> f64 {
+    let vt = thermal_voltage_v(reference_c);
+    let t0 = reference_c + ZERO_CELSIUS_K;
+    let vj = n * vt * (current_a / is0).ln_1p();
+    let f = current_a / (current_a + is0);
+    (vj - tempco_v_per_k * t0) / f - xti * vt
+}
+
+/// The temperature data of an exponential LED load.
+pub fn load_junction_inputs(load: &Load) -> Option<JunctionInputs> {
+    match *load {
+        Load::LedExponential {
+            reference_temperature_c,
+            bandgap_ev,
+            is_temp_exponent,
+            forward_voltage_tempco_v_per_k,
+            tempco_current_a,
+            ..
+        } => Some(JunctionInputs {
+            reference_temperature_c,
+            bandgap_ev,
+            is_temp_exponent,
+            tempco_v_per_k: forward_voltage_tempco_v_per_k,
+            tempco_current_a,
+        }),
+        _ => None,
+    }
+}
+
+/// The temperature data of a Shockley diode.
+pub fn diode_junction_inputs(diode: &Diode) -> Option<JunctionInputs> {
+    match *diode {
+        Diode::Shockley {
+            reference_temperature_c,
+            bandgap_ev,
+            is_temp_exponent,
+            forward_voltage_tempco_v_per_k,
+            tempco_current_a,
+            ..
+        } => Some(JunctionInputs {
+            reference_temperature_c,
+            bandgap_ev,
+            is_temp_exponent,
+            tempco_v_per_k: forward_voltage_tempco_v_per_k,
+            tempco_current_a,
+        }),
+        Diode::FixedDrop { .. } => None,
+    }
+}
+
+/// The temperature law of an exponential LED load.
+pub fn load_junction_law(load: &Load) -> Option<JunctionLaw> {
+    let inputs = load_junction_inputs(load)?;
+    match *load {
+        Load::LedExponential {
+            saturation_current_a,
+            emission_coefficient,
+            ..
+        } => Some(JunctionLaw::resolve(
+            &inputs,
+            saturation_current_a,
+            emission_coefficient,
+            LED_BANDGAP_EV,
+            LED_IS_TEMP_EXPONENT,
+        )),
+        _ => None,
+    }
+}
+
+/// The temperature law of a Shockley diode.
+pub fn diode_junction_law(diode: &Diode) -> Option<JunctionLaw> {
+    let inputs = diode_junction_inputs(diode)?;
+    match *diode {
+        Diode::Shockley {
+            saturation_current_a,
+            emission_coefficient,
+            ..
+        } => Some(JunctionLaw::resolve(
+            &inputs,
+            saturation_current_a,
+            emission_coefficient,
+            DIODE_BANDGAP_EV,
+            DIODE_IS_TEMP_EXPONENT,
+        )),
+        Diode::FixedDrop { .. } => None,
+    }
+}
 
 /// Most straight segments a piecewise-linear curve may have.
 pub const MAX_SEGMENTS: usize = 32;
@@ -29,7 +228,10 @@ pub struct ExpDevice {
 }
 
 impl ExpDevice {
-    /// The exponential model of an LED load, if the load is one.
+    /// The exponential model of an LED load, if the load is one, at its
+    /// junction temperature: n·Vt at that temperature and the saturation
+    /// current moved there from its reference temperature by the
+    /// load's [`JunctionLaw`].
     pub fn from_load(load: &Load) -> Option<ExpDevice> {
         match *load {
             Load::LedExponential {
@@ -38,17 +240,26 @@ impl ExpDevice {
                 emission_coefficient,
                 series_resistance_ohm,
                 junction_temperature_c,
-            } => Some(ExpDevice {
-                count: f64::from(count),
-                saturation_current_a,
-                n_vt_v: emission_coefficient * thermal_voltage_v(junction_temperature_c),
-                series_resistance_ohm,
-            }),
+                ..
+            } => {
+                let law = load_junction_law(load)?;
+                Some(ExpDevice {
+                    count: f64::from(count),
+                    saturation_current_a: law.saturation_current_a(
+                        saturation_current_a,
+                        emission_coefficient,
+                        junction_temperature_c,
+                    ),
+                    n_vt_v: emission_coefficient * thermal_voltage_v(junction_temperature_c),
+                    series_resistance_ohm,
+                })
+            }
             _ => None,
         }
     }
 
-    /// The Shockley model of a diode, if the diode is one.
+    /// The Shockley model of a diode, if the diode is one, at its
+    /// temperature (saturation current by the diode's [`JunctionLaw`]).
     pub fn from_diode(diode: &Diode) -> Option<ExpDevice> {
         match *diode {
             Diode::Shockley {
@@ -56,12 +267,20 @@ impl ExpDevice {
                 emission_coefficient,
                 series_resistance_ohm,
                 temperature_c,
-            } => Some(ExpDevice {
-                count: 1.0,
-                saturation_current_a,
-                n_vt_v: emission_coefficient * thermal_voltage_v(temperature_c),
-                series_resistance_ohm,
-            }),
+                ..
+            } => {
+                let law = diode_junction_law(diode)?;
+                Some(ExpDevice {
+                    count: 1.0,
+                    saturation_current_a: law.saturation_current_a(
+                        saturation_current_a,
+                        emission_coefficient,
+                        temperature_c,
+                    ),
+                    n_vt_v: emission_coefficient * thermal_voltage_v(temperature_c),
+                    series_resistance_ohm,
+                })
+            }
             Diode::FixedDrop { .. } => None,
         }
     }

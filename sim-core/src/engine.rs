@@ -810,6 +810,8 @@ impl ExactEngine {
         tot.loss.switch_conduction += c.switch_ohm * q(&isw, &isw);
         tot.loss.diode_conduction += q(&vdi, &idi);
         tot.loss.inductor_dcr += c.dcr_ohm * q(&il, &il);
+        tot.loss.current_sense +=
+            c.sense_string_ohm * q(&il, &il) + c.sense_switch_ohm * q(&isw, &isw);
         // Extremes: the ends, and any turning point inside.
         let extreme = |s: Signal, lo: Option<&mut f64>, hi: &mut f64, work: &mut WorkCounts| {
             let r = row(s);

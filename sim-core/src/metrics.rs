@@ -171,6 +171,8 @@ pub struct LossEnergies {
     pub inductor_core: f64,
     /// Controller quiescent current from the supply.
     pub controller_quiescent: f64,
+    /// Current-sense resistor.
+    pub current_sense: f64,
 }
 
 impl LossEnergies {
@@ -190,6 +192,7 @@ impl LossEnergies {
             + self.diode_junction_capacitance
             + self.inductor_core
             + self.controller_quiescent
+            + self.current_sense
     }
 
     /// Every entry multiplied by `k` (e.g. 1/time for watts).
@@ -209,6 +212,7 @@ impl LossEnergies {
             diode_junction_capacitance: self.diode_junction_capacitance * k,
             inductor_core: self.inductor_core * k,
             controller_quiescent: self.controller_quiescent * k,
+            current_sense: self.current_sense * k,
         }
     }
 
@@ -228,6 +232,7 @@ impl LossEnergies {
         self.diode_junction_capacitance += o.diode_junction_capacitance;
         self.inductor_core += o.inductor_core;
         self.controller_quiescent += o.controller_quiescent;
+        self.current_sense += o.current_sense;
     }
 }
 

@@ -130,6 +130,10 @@ struct Model {
     /// Soft saturation: the continuous L(i) of the part's points.
     saturation: Option<InductanceCurve>,
     dcr_ohm: f64,
+    /// Sense resistance in series with the LED string (inductor current), ohms.
+    sense_string_ohm: f64,
+    /// Sense resistance in series with the switch, ohms.
+    sense_switch_ohm: f64,
     output_cap: Option<(f64, f64)>,
     led: Curve,
     diode: Curve,
@@ -239,6 +243,7 @@ impl Model {
                 .collect();
             InductanceCurve::new(&pts)
         });
+        let (sense_string_ohm, sense_switch_ohm) = crate::circuit::sense_resistances(s);
         Model {
             supply_v: s.supply.voltage_v,
             source_ohm: s.supply.source_resistance_ohm,
@@ -247,6 +252,8 @@ impl Model {
             inductance_h: saturation.map_or(s.inductor.inductance_h, |c| c.inductance_h(0.0)),
             saturation,
             dcr_ohm: s.inductor.dcr_ohm,
+            sense_string_ohm,
+            sense_switch_ohm,
             output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
             led,
             diode,
@@ -338,7 +345,11 @@ impl Model {
         let (vin, isrc, icin) = self.input_side(vcin, i_sw);
         let (vo, iled, ico, vo_open) = self.output_side(vco, il, mode.conducting);
         let (vsw, idiode, vdiode) = if mode.switch_on {
-            (vin - self.switch_ohm * il, 0.0, 0.0)
+            (
+                vin - (self.switch_ohm + self.sense_switch_ohm) * il,
+                0.0,
+                0.0,
+            )
         } else if mode.conducting {
             let vd = self.diode.voltage(il);
             (-vd, il, vd)
@@ -346,7 +357,7 @@ impl Model {
             (vo, 0.0, 0.0)
         };
         let dil = if mode.conducting {
-            (vsw - self.dcr_ohm * il - vo) / self.l_at(il)
+            (vsw - (self.dcr_ohm + self.sense_string_ohm) * il - vo) / self.l_at(il)
         } else {
             0.0
         };
@@ -1050,6 +1061,7 @@ impl ReferenceEngine {
         tot.loss.switch_conduction += m.switch_ohm * a(A_ISW2);
         tot.loss.diode_conduction += a(A_PDI);
         tot.loss.inductor_dcr += m.dcr_ohm * a(A_IL2);
+        tot.loss.current_sense += m.sense_string_ohm * a(A_IL2) + m.sense_switch_ohm * a(A_ISW2);
 
         // Extremes over the accepted steps, refined on the dense output
         // where one lies inside.

@@ -43,6 +43,9 @@ pub struct Scenario {
     pub output_capacitor: Option<Capacitor>,
     /// What the driver feeds.
     pub load: Load,
+    /// The current-sense resistor (optional; absent: none).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sense_resistor: Option<SenseResistor>,
     /// How the switch is driven.
     pub controller: ControllerSpec,
     /// Engine settings.
@@ -138,7 +141,74 @@ pub enum Diode {
         /// Junction temperature, °C.
         #[serde(default = "default_temp_c", deserialize_with = "de_c")]
         temperature_c: f64,
+        /// Temperature at which `saturation_current_a` holds, °C
+        /// (default 25 °C, the usual datasheet temperature).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_c",
+            skip_serializing_if = "Option::is_none"
+        )]
+        reference_temperature_c: Option<f64>,
+        /// Band-gap energy E_g of the saturation current's temperature law,
+        /// eV (default: Schottky 0.69 eV; see [`crate::devices::JunctionLaw`]).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        bandgap_ev: Option<f64>,
+        /// Temperature exponent XTI of the saturation current (default: Schottky 2).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        is_temp_exponent: Option<f64>,
+        /// Datasheet forward-voltage temperature coefficient, V/K, at
+        /// `tempco_current_a` and the reference temperature: the band gap
+        /// is derived from it (instead of `bandgap_ev`).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_v",
+            skip_serializing_if = "Option::is_none"
+        )]
+        forward_voltage_tempco_v_per_k: Option<f64>,
+        /// Current at which `forward_voltage_tempco_v_per_k` is stated, A.
+        #[serde(
+            default,
+            deserialize_with = "de_opt_a",
+            skip_serializing_if = "Option::is_none"
+        )]
+        tempco_current_a: Option<f64>,
     },
+}
+
+/// A current-sense resistor: a resistance in the power path that drops
+/// voltage and dissipates (the sensing itself is ideal: the controller
+/// compares the current of its position exactly).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SenseResistor {
+    /// Resistance, ohms.
+    #[serde(deserialize_with = "de_ohm")]
+    pub resistance_ohm: f64,
+    /// Where it sits (default: [`Scenario::sense_position`] per controller).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub position: Option<SensePosition>,
+}
+
+/// Where the sense resistor sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SensePosition {
+    /// In series with the LED string, between the inductor and the output
+    /// node (ahead of any output capacitor): it carries the inductor
+    /// current, the current a hysteretic controller watches; without an
+    /// output capacitor that is the LED current.
+    LedString,
+    /// In series with the switch: it carries the switch current (peak
+    /// current sensing of a constant off-time controller).
+    Switch,
 }
 
 /// The power inductor.
@@ -181,6 +251,45 @@ pub enum Load {
         /// Junction temperature, °C.
         #[serde(default = "default_temp_c", deserialize_with = "de_c")]
         junction_temperature_c: f64,
+        /// Temperature at which `saturation_current_a` holds, °C
+        /// (default 25 °C, the usual datasheet temperature).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_c",
+            skip_serializing_if = "Option::is_none"
+        )]
+        reference_temperature_c: Option<f64>,
+        /// Band-gap energy E_g of the saturation current's temperature law,
+        /// eV (default: GaN 3.4 eV; see [`crate::devices::JunctionLaw`]).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        bandgap_ev: Option<f64>,
+        /// Temperature exponent XTI of the saturation current (default: 3).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_ratio",
+            skip_serializing_if = "Option::is_none"
+        )]
+        is_temp_exponent: Option<f64>,
+        /// Datasheet forward-voltage temperature coefficient per LED, V/K, at
+        /// `tempco_current_a` and the reference temperature: the band gap
+        /// is derived from it (instead of `bandgap_ev`).
+        #[serde(
+            default,
+            deserialize_with = "de_opt_v",
+            skip_serializing_if = "Option::is_none"
+        )]
+        forward_voltage_tempco_v_per_k: Option<f64>,
+        /// Current at which `forward_voltage_tempco_v_per_k` is stated, A.
+        #[serde(
+            default,
+            deserialize_with = "de_opt_a",
+            skip_serializing_if = "Option::is_none"
+        )]
+        tempco_current_a: Option<f64>,
     },
     /// A string of identical LEDs described by a knee voltage and a
     /// dynamic resistance each: no current below the knee, then
@@ -1151,6 +1260,7 @@ impl Scenario {
                 emission_coefficient,
                 series_resistance_ohm,
                 temperature_c,
+                ..
             } => {
                 c.range(
                     "diode.saturation_current_a",
@@ -1174,6 +1284,15 @@ impl Scenario {
                     "Ω",
                 );
                 c.range("diode.temperature_c", temperature_c, -60.0, 250.0, "°C");
+                if let Some(inputs) = crate::devices::diode_junction_inputs(&s.diode) {
+                    c.junction(
+                        "diode",
+                        &inputs,
+                        (saturation_current_a, emission_coefficient),
+                        ("temperature_c", temperature_c),
+                        crate::devices::diode_junction_law(&s.diode),
+                    );
+                }
             }
         }
         c.range(
@@ -1190,6 +1309,15 @@ impl Scenario {
         if let Some(cap) = s.output_capacitor {
             c.capacitor("output_capacitor", cap);
         }
+        if let Some(r) = s.sense_resistor {
+            c.range(
+                "sense_resistor.resistance_ohm",
+                r.resistance_ohm,
+                0.0,
+                1e3,
+                "Ω",
+            );
+        }
         match s.load {
             Load::LedExponential {
                 count,
@@ -1197,6 +1325,7 @@ impl Scenario {
                 emission_coefficient,
                 series_resistance_ohm,
                 junction_temperature_c,
+                ..
             } => {
                 c.count("load.count", count);
                 c.range(
@@ -1227,6 +1356,16 @@ impl Scenario {
                     250.0,
                     "°C",
                 );
+                if let Some(inputs) = crate::devices::load_junction_inputs(&s.load) {
+                    c.junction(
+                        "load",
+                        &inputs,
+                        (saturation_current_a, emission_coefficient),
+                        ("junction_temperature_c", junction_temperature_c),
+                        crate::devices::load_junction_law(&s.load),
+                    );
+                    c.led_part_tempco(s, &inputs, saturation_current_a, emission_coefficient);
+                }
             }
             Load::LedKnee {
                 count,
@@ -1395,6 +1534,22 @@ impl Scenario {
             } => Some(0.5 * (upper_current_a + lower_current_a)),
             ControllerSpec::FixedDuty { .. } => None,
         }
+    }
+
+    /// The sense resistor's position and resistance, if there is one. A
+    /// position not given follows the controller: in series with the
+    /// switch for the constant off-time controller (it senses the peak
+    /// switch current), in series with the LED string for the hysteretic
+    /// controller (it watches the current continuously) and for fixed duty.
+    pub fn sense_position(&self) -> Option<(SensePosition, f64)> {
+        let r = self.sense_resistor?;
+        let pos = r.position.unwrap_or(match self.controller {
+            ControllerSpec::ConstantOffTime { .. } => SensePosition::Switch,
+            ControllerSpec::Hysteretic { .. } | ControllerSpec::FixedDuty { .. } => {
+                SensePosition::LedString
+            }
+        });
+        Some((pos, r.resistance_ohm))
     }
 
     /// LED string (or load) voltage at a current, V, on the exact curve.
@@ -1606,6 +1761,143 @@ struct Checker {
 }
 
 impl Checker {
+    /// `parts.led.forward_voltage_tempco_v_per_k` taken as the exponential
+    /// load's datasheet coefficient at the target current (when the load
+    /// gives no band gap or coefficient of its own) must imply a band gap
+    /// the model can use.
+    fn led_part_tempco(
+        &mut self,
+        s: &Scenario,
+        j: &crate::devices::JunctionInputs,
+        is0: f64,
+        n: f64,
+    ) {
+        let (Some(led), Some(target)) = (s.parts.led, s.target_current_a()) else {
+            return;
+        };
+        let tc = led.forward_voltage_tempco_v_per_k;
+        let usable = |x: f64| x.is_finite() && x > 0.0;
+        if j.bandgap_ev.is_some()
+            || j.tempco_v_per_k.is_some()
+            || tc == 0.0
+            || !(-0.05..=0.05).contains(&tc)
+            || !usable(target)
+            || !usable(is0)
+            || !usable(n)
+        {
+            return;
+        }
+        let t0 = j
+            .reference_temperature_c
+            .unwrap_or(crate::devices::DEFAULT_REFERENCE_C);
+        let xti = j
+            .is_temp_exponent
+            .unwrap_or(crate::devices::LED_IS_TEMP_EXPONENT);
+        let eg = crate::devices::bandgap_from_tempco_ev(is0, n, t0, xti, tc, target);
+        if !(0.1..=10.0).contains(&eg) {
+            self.push(
+                "parts.led.forward_voltage_tempco_v_per_k",
+                &fmt_num(tc),
+                &format!(
+                    "taken as the LEDs' coefficient at the target current {} A, it implies a \
+                     band gap of {} eV, outside 0.1 to 10 eV: the coefficient does not fit the \
+                     LED model",
+                    fmt_num(target),
+                    fmt_num(eg)
+                ),
+            );
+        }
+    }
+
+    /// A junction's temperature data (reference temperature, band gap,
+    /// exponent, datasheet coefficient) and the saturation current they
+    /// give at the operating temperature.
+    fn junction(
+        &mut self,
+        prefix: &str,
+        j: &crate::devices::JunctionInputs,
+        (is0, n): (f64, f64),
+        (t_field, t_c): (&str, f64),
+        law: Option<crate::devices::JunctionLaw>,
+    ) {
+        let before = self.problems.len();
+        let p = |f: &str| format!("{prefix}.{f}");
+        if let Some(t) = j.reference_temperature_c {
+            self.range(&p("reference_temperature_c"), t, -60.0, 250.0, "°C");
+        }
+        if let Some(eg) = j.bandgap_ev {
+            self.range(&p("bandgap_ev"), eg, 0.1, 10.0, "eV");
+        }
+        if let Some(x) = j.is_temp_exponent {
+            self.range(&p("is_temp_exponent"), x, 0.0, 10.0, "");
+        }
+        if let Some(tc) = j.tempco_v_per_k {
+            self.range(&p("forward_voltage_tempco_v_per_k"), tc, -0.05, 0.05, "V/K");
+        }
+        if let Some(i) = j.tempco_current_a {
+            self.range(&p("tempco_current_a"), i, 1e-9, 1e4, "A");
+        }
+        match (j.tempco_v_per_k, j.tempco_current_a) {
+            (Some(tc), None) => self.push(
+                &p("tempco_current_a"),
+                "(missing)",
+                &format!(
+                    "needed with forward_voltage_tempco_v_per_k = {}: the current the \
+                     coefficient is stated at",
+                    fmt_num(tc)
+                ),
+            ),
+            (None, Some(i)) => self.push(
+                &p("forward_voltage_tempco_v_per_k"),
+                "(missing)",
+                &format!(
+                    "tempco_current_a = {} A is given without the coefficient it belongs to",
+                    fmt_num(i)
+                ),
+            ),
+            _ => {}
+        }
+        if let (Some(_), Some(tc)) = (j.bandgap_ev, j.tempco_v_per_k) {
+            self.push(
+                &p("forward_voltage_tempco_v_per_k"),
+                &fmt_num(tc),
+                "give either bandgap_ev or a forward-voltage coefficient, not both",
+            );
+        }
+        if self.problems.len() > before || !(is0 > 0.0 && n > 0.0) {
+            return;
+        }
+        let Some(law) = law else { return };
+        if j.bandgap_ev.is_none() && j.tempco_v_per_k.is_some() {
+            let eg = law.bandgap_ev;
+            if !(0.1..=10.0).contains(&eg) {
+                self.push(
+                    &p("forward_voltage_tempco_v_per_k"),
+                    &fmt_num(j.tempco_v_per_k.unwrap_or(0.0)),
+                    &format!(
+                        "implies a band gap of {} eV with this junction's Is and n, outside \
+                         0.1 to 10 eV: the coefficient does not fit the model",
+                        fmt_num(eg)
+                    ),
+                );
+                return;
+            }
+        }
+        let is_t = law.saturation_current_a(is0, n, t_c);
+        if !(is_t.is_finite() && is_t > 1e-290 && is_t < 1e3) {
+            self.push(
+                &p(t_field),
+                &fmt_num(t_c),
+                &format!(
+                    "moves the saturation current to {} A at this temperature (from its \
+                     value at {} °C), outside what the model can use",
+                    fmt_num(is_t),
+                    fmt_num(law.reference_temperature_c)
+                ),
+            );
+        }
+    }
+
     fn push(&mut self, path: &str, value: &str, reason: &str) {
         self.problems.push(FieldProblem {
             path: path.to_string(),
@@ -1782,6 +2074,11 @@ pub fn template() -> Scenario {
             emission_coefficient: 2.2,
             series_resistance_ohm: 0.35,
             junction_temperature_c: 70.0,
+            reference_temperature_c: Some(70.0),
+            bandgap_ev: None,
+            is_temp_exponent: None,
+            forward_voltage_tempco_v_per_k: None,
+            tempco_current_a: None,
         },
         controller: ControllerSpec::ConstantOffTime {
             peak_current_a: 0.8,
@@ -1791,6 +2088,7 @@ pub fn template() -> Scenario {
         },
         simulation: SimSettings::default(),
         parts: PartData::default(),
+        sense_resistor: None,
         tolerances: None,
         spec: None,
     }

@@ -427,7 +427,9 @@ pub fn averaged_guess(s: &Scenario, c: &Circuit) -> Option<[f64; N_STATES]> {
             let mut i_avg = peak_current_a;
             let mut valley = 0.0;
             for _ in 0..4 {
-                let v_off = c.led.voltage_v(i_avg) + c.diode.voltage_v(i_avg) + c.dcr_ohm * i_avg;
+                let v_off = c.led.voltage_v(i_avg)
+                    + c.diode.voltage_v(i_avg)
+                    + (c.dcr_ohm + c.sense_string_ohm) * i_avg;
                 let ripple = v_off * off_time_s / c.inductance_h;
                 valley = (peak_current_a - ripple).max(0.0);
                 i_avg = if ripple < peak_current_a {

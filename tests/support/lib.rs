@@ -51,6 +51,7 @@ pub fn ideal_buck(
         controller,
         simulation: SimSettings::default(),
         parts: Default::default(),
+        sense_resistor: None,
         tolerances: None,
         spec: None,
     }
@@ -145,6 +146,11 @@ pub fn lamp_12v_shockley() -> Scenario {
         emission_coefficient: 1.05,
         series_resistance_ohm: 0.04,
         temperature_c: 60.0,
+        reference_temperature_c: None,
+        bandgap_ev: None,
+        is_temp_exponent: None,
+        forward_voltage_tempco_v_per_k: None,
+        tempco_current_a: None,
     };
     s
 }
@@ -172,6 +178,11 @@ pub fn white_leds(count: u32) -> Load {
         emission_coefficient: 2.2,
         series_resistance_ohm: 0.3,
         junction_temperature_c: 70.0,
+        reference_temperature_c: None,
+        bandgap_ev: None,
+        is_temp_exponent: None,
+        forward_voltage_tempco_v_per_k: None,
+        tempco_current_a: None,
     }
 }
 
@@ -183,6 +194,11 @@ pub fn schottky() -> Diode {
         emission_coefficient: 1.05,
         series_resistance_ohm: 0.03,
         temperature_c: 70.0,
+        reference_temperature_c: None,
+        bandgap_ev: None,
+        is_temp_exponent: None,
+        forward_voltage_tempco_v_per_k: None,
+        tempco_current_a: None,
     }
 }
 

@@ -91,9 +91,9 @@ fn effective_scenario(s: &Scenario, v_in: f64, v_out: f64, t_j: Option<f64>) -> 
     if let Some(c) = e.output_capacitor.as_mut() {
         c.capacitance_f = bias::effective_capacitance_f(c, &s.parts.output_capacitor, v_out);
     }
-    if let (Some(led), Some(tj)) = (s.parts.led, t_j) {
-        let dt = tj - thermal::model_temperature_c(&s.load);
-        e.load = thermal::shifted_load(&s.load, led.forward_voltage_tempco_v_per_k * dt);
+    e.load = thermal::load_with_led_tempco(s);
+    if let (Some(_), Some(tj)) = (s.parts.led, t_j) {
+        e.load = thermal::load_at_junction(s, tj);
     }
     e
 }
@@ -232,8 +232,7 @@ fn assess_at(
     let p = &s.parts;
     let iterate = bias::bias_dependent(&p.input_capacitor) && s.input_capacitor.is_some()
         || bias::bias_dependent(&p.output_capacitor) && s.output_capacitor.is_some()
-        || p.led
-            .is_some_and(|l| l.forward_voltage_tempco_v_per_k != 0.0);
+        || thermal::led_depends_on_temperature(s);
     let target = s.target_current_a();
     let (mut v_in, mut v_out) = (
         s.supply.voltage_v,

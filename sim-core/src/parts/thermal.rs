@@ -6,9 +6,11 @@
 //! ambient, no coupling between parts: a first estimate, not a thermal
 //! simulation). The LED junction temperature T_j = T_ambient +
 //! R_th·h·P_LED/count (h: the fraction of the electrical power that becomes
-//! heat) shifts each LED's forward voltage by tempco·(T_j − T_model), where
-//! T_model is the `load.junction_temperature_c` the LED parameters hold at;
-//! [`crate::parts::assess`] repeats the run until T_j settles.
+//! heat) is fed back into the load: the exponential model is evaluated at
+//! T_j (its saturation current by [`crate::devices::JunctionLaw`], the
+//! same model as `load.junction_temperature_c`), the knee model's knee
+//! moves by tempco·(T_j − 25 °C); [`crate::parts::assess`] repeats the run
+//! until T_j settles.
 
 use crate::metrics::Metrics;
 use crate::scenario::{Load, Scenario, Thermal};
@@ -114,37 +116,86 @@ pub fn temperatures(s: &Scenario, m: &Metrics) -> Vec<PartTemperature> {
 /// by `shift_v` at every current well above Is (all operating currents);
 /// for the knee model the knee moves; a resistor is unchanged.
 pub fn shifted_load(load: &Load, shift_v: f64) -> Load {
-    match *load {
+    let mut out = *load;
+    match &mut out {
         Load::LedExponential {
-            count,
             saturation_current_a,
             emission_coefficient,
-            series_resistance_ohm,
             junction_temperature_c,
+            ..
         } => {
-            let n_vt = emission_coefficient * thermal_voltage_v(junction_temperature_c);
-            Load::LedExponential {
-                count,
-                saturation_current_a: saturation_current_a * (-shift_v / n_vt).exp(),
-                emission_coefficient,
-                series_resistance_ohm,
-                junction_temperature_c,
-            }
+            let n_vt = *emission_coefficient * thermal_voltage_v(*junction_temperature_c);
+            *saturation_current_a *= (-shift_v / n_vt).exp();
         }
-        Load::LedKnee {
-            count,
-            knee_voltage_v,
-            dynamic_resistance_ohm,
-        } => Load::LedKnee {
-            count,
-            knee_voltage_v: knee_voltage_v + shift_v,
-            dynamic_resistance_ohm,
-        },
-        Load::Resistor { .. } => *load,
+        Load::LedKnee { knee_voltage_v, .. } => *knee_voltage_v += shift_v,
+        Load::Resistor { .. } => {}
     }
+    out
 }
 
-/// The temperature the LED model's parameters hold at, °C.
+/// The exponential load's temperature law completed from `parts.led`: a
+/// load that gives neither a band gap nor a coefficient of its own takes
+/// `parts.led.forward_voltage_tempco_v_per_k` (when not 0) as its
+/// datasheet coefficient at the controller's target current (the rated
+/// current). Any other load is returned unchanged.
+pub fn load_with_led_tempco(s: &Scenario) -> Load {
+    let mut out = s.load;
+    let (Some(led), Some(target)) = (s.parts.led, s.target_current_a()) else {
+        return out;
+    };
+    if let Load::LedExponential {
+        bandgap_ev: None,
+        forward_voltage_tempco_v_per_k: tc @ None,
+        tempco_current_a,
+        ..
+    } = &mut out
+    {
+        if led.forward_voltage_tempco_v_per_k != 0.0 {
+            *tc = Some(led.forward_voltage_tempco_v_per_k);
+            *tempco_current_a = Some(target);
+        }
+    }
+    out
+}
+
+/// The load with its LEDs at junction temperature `t_j_c`. The
+/// exponential model is simply evaluated there (its saturation current
+/// follows the junction law, [`crate::devices::JunctionLaw`]: the same
+/// model as a scenario's `load.junction_temperature_c`); the knee model's
+/// knee moves by `parts.led.forward_voltage_tempco_v_per_k`·(T_j − 25 °C).
+pub fn load_at_junction(s: &Scenario, t_j_c: f64) -> Load {
+    let mut out = load_with_led_tempco(s);
+    match &mut out {
+        Load::LedExponential {
+            junction_temperature_c,
+            ..
+        } => *junction_temperature_c = t_j_c,
+        Load::LedKnee { .. } => {
+            let tc = s
+                .parts
+                .led
+                .map_or(0.0, |l| l.forward_voltage_tempco_v_per_k);
+            out = shifted_load(&out, tc * (t_j_c - model_temperature_c(&s.load)));
+        }
+        Load::Resistor { .. } => {}
+    }
+    out
+}
+
+/// Whether the LED load's voltage depends on its junction temperature
+/// (so the temperature loop must iterate): always for the exponential
+/// model, for the knee model when a coefficient is given.
+pub fn led_depends_on_temperature(s: &Scenario) -> bool {
+    s.parts.led.is_some_and(|l| match s.load {
+        Load::LedExponential { .. } => true,
+        Load::LedKnee { .. } => l.forward_voltage_tempco_v_per_k != 0.0,
+        Load::Resistor { .. } => false,
+    })
+}
+
+/// The temperature the LED model's parameters hold at, °C: the junction
+/// temperature the exponential model is evaluated at, 25 °C for the knee
+/// model.
 pub fn model_temperature_c(load: &Load) -> f64 {
     match *load {
         Load::LedExponential {
@@ -168,6 +219,11 @@ mod tests {
             emission_coefficient: 2.2,
             series_resistance_ohm: 0.35,
             junction_temperature_c: 25.0,
+            reference_temperature_c: None,
+            bandgap_ev: None,
+            is_temp_exponent: None,
+            forward_voltage_tempco_v_per_k: None,
+            tempco_current_a: None,
         };
         let a = ExpDevice::from_load(&load).unwrap();
         let b = ExpDevice::from_load(&shifted_load(&load, -0.1)).unwrap();

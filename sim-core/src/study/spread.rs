@@ -571,6 +571,11 @@ pub fn scenario_at(
 /// Scales the LED string's forward voltage by `factor` (at `i_ref` for
 /// the exponential model, whose saturation current is solved for).
 pub fn scale_led_voltage(s: &mut Scenario, factor: f64, i_ref: f64) -> Result<(), String> {
+    // The saturation current at the junction temperature (the scenario's
+    // value holds at its reference temperature; the junction law scales
+    // both alike).
+    let is_at_junction =
+        crate::devices::ExpDevice::from_load(&s.load).map(|d| d.saturation_current_a);
     match &mut s.load {
         Load::LedKnee {
             knee_voltage_v,
@@ -589,7 +594,8 @@ pub fn scale_led_voltage(s: &mut Scenario, factor: f64, i_ref: f64) -> Result<()
             ..
         } => {
             let nvt = *emission_coefficient * thermal_voltage_v(*junction_temperature_c);
-            let v = nvt * (i_ref / *saturation_current_a).ln_1p() + *series_resistance_ohm * i_ref;
+            let is_t = is_at_junction.unwrap_or(*saturation_current_a);
+            let v = nvt * (i_ref / is_t).ln_1p() + *series_resistance_ohm * i_ref;
             let junction = factor * v - *series_resistance_ohm * i_ref;
             if junction <= 0.0 {
                 return Err(format!(
@@ -597,7 +603,7 @@ pub fn scale_led_voltage(s: &mut Scenario, factor: f64, i_ref: f64) -> Result<()
                      drop at {i_ref} A"
                 ));
             }
-            *saturation_current_a = i_ref / (junction / nvt).exp_m1();
+            *saturation_current_a *= i_ref / (junction / nvt).exp_m1() / is_t;
             Ok(())
         }
         Load::Resistor { .. } => Err("the load has no LED forward voltage".into()),
