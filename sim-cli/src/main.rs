@@ -397,8 +397,11 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
             a.temp_c
         )));
     }
-    if a.count == 0 {
-        return Err(Failure::Input("--count must be at least 1".into()));
+    if !(1..=1000).contains(&a.count) {
+        return Err(Failure::Input(format!(
+            "--count {}: give 1 to 1000 LEDs (as load.count allows)",
+            a.count
+        )));
     }
     let f = fit(
         &a.points,
@@ -416,6 +419,7 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
         "series_resistance_ohm": f.series_resistance_ohm,
         "junction_temperature_c": f.temperature_c,
     });
+    fragment_loads(&load, f.tempco_v_per_k)?;
     if a.json {
         let out = serde_json::json!({ "fit": f, "load": load });
         println!(
@@ -481,6 +485,35 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
         serde_json::to_string_pretty(&fragment).map_err(|e| Failure::Run(e.to_string()))?
     );
     Ok(())
+}
+
+/// Checks that a fitted `load` (and tempco) read back through the
+/// scenario loader, placed in the starter scenario: a fragment is never
+/// printed that a scenario file would refuse.
+fn fragment_loads(load: &serde_json::Value, tempco: Option<f64>) -> Result<(), Failure> {
+    let mut v = serde_json::to_value(sim_core::scenario::template_with_parts())
+        .map_err(|e| Failure::Run(e.to_string()))?;
+    v["load"] = load.clone();
+    if let Some(tc) = tempco {
+        v["parts"]["led"]["forward_voltage_tempco_v_per_k"] = tc.into();
+    }
+    let problems: Vec<String> = match Scenario::from_json_value(&v) {
+        Ok(_) => Vec::new(),
+        Err(e) => e
+            .problems()
+            .into_iter()
+            .filter(|p| p.path.starts_with("load") || p.path.starts_with("parts.led"))
+            .map(|p| p.to_string())
+            .collect(),
+    };
+    if problems.is_empty() {
+        Ok(())
+    } else {
+        Err(Failure::Input(format!(
+            "fit-led: the fitted model would not load in a scenario: {}",
+            problems.join("; ")
+        )))
+    }
 }
 
 /// Reads and validates a scenario file, with overrides.
