@@ -23,9 +23,10 @@ use sim_core::parts::assess::{assess_with_progress, AssessOptions, Assessment};
 use sim_core::parts::checks::{worst, Status};
 use sim_core::simulate::Progress;
 use sim_core::{EngineKind, RunOptions, Scenario, ScenarioError, SimError, SimResult};
-use std::io::IsTerminal;
+use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
 /// Simulate switch-mode buck LED drivers cycle by cycle: waveforms, ripple,
@@ -41,6 +42,16 @@ struct Cli {
     /// No progress bar and no notes on standard error (errors still print).
     #[arg(short, long, global = true)]
     quiet: bool,
+    /// Most memory a run or study may be estimated to need, bytes (e.g.
+    /// `4G`, `512M`); a larger request is refused before it starts.
+    #[arg(long, global = true, value_name = "BYTES", value_parser = parse_bytes)]
+    memory_budget: Option<u64>,
+    /// Most output a run or study may be estimated to write, bytes.
+    #[arg(long, global = true, value_name = "BYTES", value_parser = parse_bytes)]
+    output_budget: Option<u64>,
+    /// Most points (simulations) one study may have.
+    #[arg(long, global = true, value_name = "N")]
+    max_points: Option<u64>,
     #[command(subcommand)]
     command: Command,
 }
@@ -184,6 +195,45 @@ fn parse_point(s: &str) -> Result<(f64, f64), String> {
     Ok((i, v))
 }
 
+/// A byte count: a number with an optional `K`, `M`, `G` or `T`
+/// (binary: 1K = 1024), e.g. `4G`.
+fn parse_bytes(s: &str) -> Result<u64, String> {
+    let t = s.trim().trim_end_matches(['B', 'b']).trim_end_matches('i');
+    let (num, scale) = match t.chars().last().map(|c| c.to_ascii_uppercase()) {
+        Some('K') => (&t[..t.len() - 1], 1u64 << 10),
+        Some('M') => (&t[..t.len() - 1], 1 << 20),
+        Some('G') => (&t[..t.len() - 1], 1 << 30),
+        Some('T') => (&t[..t.len() - 1], 1 << 40),
+        _ => (t, 1),
+    };
+    match num.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 && v * (scale as f64) < 1.8e19 => {
+            Ok((v * scale as f64) as u64)
+        }
+        _ => Err(format!(
+            "`{s}` is not a size in bytes (for example 4G, 512M or 1e9)"
+        )),
+    }
+}
+
+/// The resource budget of this invocation (defaults, raised by the
+/// `--memory-budget`, `--output-budget` and `--max-points` options).
+static BUDGET: std::sync::OnceLock<sim_core::budget::Budget> = std::sync::OnceLock::new();
+
+/// The options that raise each budget figure (memory, output, points).
+pub(crate) const RAISE_BUDGET: [&str; 3] = ["--memory-budget", "--output-budget", "--max-points"];
+
+/// The budget requests are held to.
+pub(crate) fn budget() -> sim_core::budget::Budget {
+    BUDGET.get().copied().unwrap_or_default()
+}
+
+/// Refuses an estimate above the budget (bad input, exit 2).
+pub(crate) fn within_budget(e: &sim_core::budget::Estimate) -> Result<(), Failure> {
+    e.check(&budget(), RAISE_BUDGET)
+        .map_err(|e| Failure::Input(format!("request too large: {e}")))
+}
+
 fn parse_override(s: &str) -> Result<(String, String), String> {
     match s.split_once('=') {
         Some((p, v)) if !p.trim().is_empty() => Ok((p.trim().to_string(), v.trim().to_string())),
@@ -227,6 +277,48 @@ fn io_failure(e: anyhow::Error) -> Failure {
     Failure::Run(format!("{e:#}"))
 }
 
+/// Set when printing failed because the reader of standard output (or
+/// error) went away (`chopwave … | head -1`): the command then ends
+/// quietly, as command-line tools do.
+static OUTPUT_CLOSED: AtomicBool = AtomicBool::new(false);
+
+/// Whether a panic message is the standard library's report of a print
+/// to a closed standard output or error.
+fn is_closed_output(what: &str) -> bool {
+    what.starts_with("failed printing to stdout") || what.starts_with("failed printing to stderr")
+}
+
+/// Largest scenario file read, bytes (a larger one is refused unread).
+pub(crate) const MAX_SCENARIO_BYTES: u64 = 16 << 20;
+
+/// Largest study file (shard table, journal) read, bytes.
+pub(crate) const MAX_STUDY_FILE_BYTES: u64 = 1 << 30;
+
+/// Reads a text file of at most `limit` bytes without ever holding more
+/// than that (a device such as `/dev/zero` or a huge file is refused
+/// after `limit` bytes).
+pub(crate) fn read_text_capped(path: &Path, limit: u64) -> std::io::Result<String> {
+    use std::io::Read;
+    let file = std::fs::File::open(path)?;
+    if file.metadata()?.is_dir() {
+        return Err(std::io::Error::other("it is a folder"));
+    }
+    let mut bytes = Vec::new();
+    file.take(limit + 1).read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > limit {
+        return Err(std::io::Error::other(format!(
+            "larger than the {} MiB accepted",
+            limit >> 20
+        )));
+    }
+    String::from_utf8(bytes).map_err(|_| std::io::Error::other("not UTF-8 text"))
+}
+
+/// [`read_text_capped`] with the study-file limit.
+pub(crate) fn read_text_limited(path: &Path) -> std::io::Result<String> {
+    read_text_capped(path, MAX_STUDY_FILE_BYTES)
+}
+
 fn main() -> ExitCode {
     // A bug must not greet the user with a backtrace: print one line.
     std::panic::set_hook(Box::new(|info| {
@@ -236,24 +328,45 @@ fn main() -> ExitCode {
             .map(|s| s.to_string())
             .or_else(|| info.payload().downcast_ref::<String>().cloned())
             .unwrap_or_default();
+        if is_closed_output(&what) {
+            OUTPUT_CLOSED.store(true, Ordering::SeqCst);
+            return;
+        }
         let at = info
             .location()
             .map(|l| format!(" at {}:{}", l.file(), l.line()))
             .unwrap_or_default();
-        eprintln!("chopwave: internal error{at}: {what} (please report this)");
+        let _ = writeln!(
+            std::io::stderr(),
+            "chopwave: internal error{at}: {what} (please report this)"
+        );
     }));
     let cli = Cli::parse();
     let quiet = cli.quiet;
+    let defaults = sim_core::budget::Budget::default();
+    let _ = BUDGET.set(sim_core::budget::Budget {
+        memory_bytes: cli.memory_budget.unwrap_or(defaults.memory_bytes),
+        output_bytes: cli.output_budget.unwrap_or(defaults.output_bytes),
+        points: cli.max_points.unwrap_or(defaults.points),
+    });
     let outcome = std::panic::catch_unwind(move || dispatch(cli));
+    // Standard output may be a closed pipe: nothing here may panic.
+    let _ = std::io::stdout().flush();
     match outcome {
         Ok(Ok(())) => ExitCode::SUCCESS,
         Ok(Err(f)) => {
-            eprintln!("chopwave: {}", f.message());
+            let _ = writeln!(std::io::stderr(), "chopwave: {}", f.message());
             ExitCode::from(f.code())
         }
+        // The reader of our output went away: end quietly (files were
+        // written before anything was printed).
+        Err(_) if OUTPUT_CLOSED.load(Ordering::SeqCst) => ExitCode::SUCCESS,
         Err(_) => {
             if !quiet {
-                eprintln!("chopwave: the run stopped on an internal error");
+                let _ = writeln!(
+                    std::io::stderr(),
+                    "chopwave: the run stopped on an internal error"
+                );
             }
             ExitCode::from(1)
         }
@@ -286,8 +399,11 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
             a.temp_c
         )));
     }
-    if a.count == 0 {
-        return Err(Failure::Input("--count must be at least 1".into()));
+    if !(1..=1000).contains(&a.count) {
+        return Err(Failure::Input(format!(
+            "--count {}: give 1 to 1000 LEDs (as load.count allows)",
+            a.count
+        )));
     }
     let f = fit(
         &a.points,
@@ -325,6 +441,7 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
         load["forward_voltage_tempco_v_per_k"] = tc.into();
         load["tempco_current_a"] = tempco_current.into();
     }
+    fragment_loads(&load, None)?;
     if a.json {
         let out = serde_json::json!({ "fit": f, "load": load });
         println!(
@@ -392,9 +509,38 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
     Ok(())
 }
 
+/// Checks that a fitted `load` (and tempco) read back through the
+/// scenario loader, placed in the starter scenario: a fragment is never
+/// printed that a scenario file would refuse.
+fn fragment_loads(load: &serde_json::Value, tempco: Option<f64>) -> Result<(), Failure> {
+    let mut v = serde_json::to_value(sim_core::scenario::template_with_parts())
+        .map_err(|e| Failure::Run(e.to_string()))?;
+    v["load"] = load.clone();
+    if let Some(tc) = tempco {
+        v["parts"]["led"]["forward_voltage_tempco_v_per_k"] = tc.into();
+    }
+    let problems: Vec<String> = match Scenario::from_json_value(&v) {
+        Ok(_) => Vec::new(),
+        Err(e) => e
+            .problems()
+            .into_iter()
+            .filter(|p| p.path.starts_with("load") || p.path.starts_with("parts.led"))
+            .map(|p| p.to_string())
+            .collect(),
+    };
+    if problems.is_empty() {
+        Ok(())
+    } else {
+        Err(Failure::Input(format!(
+            "fit-led: the fitted model would not load in a scenario: {}",
+            problems.join("; ")
+        )))
+    }
+}
+
 /// Reads and validates a scenario file, with overrides.
 fn load(file: &Path, overrides: &[(String, String)]) -> Result<Scenario, Failure> {
-    let text = std::fs::read_to_string(file)
+    let text = read_text_capped(file, MAX_SCENARIO_BYTES)
         .map_err(|e| Failure::Input(format!("cannot read {}: {e}", file.display())))?;
     Scenario::from_json_str_with_overrides(&text, overrides)
         .map_err(|e| Failure::Input(describe_scenario_error(&file.display().to_string(), &e)))
@@ -531,6 +677,7 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     // Record the start-up unless told not to: the plots need it, and the
     // summary reports its inductor peak.
     s.simulation.record_startup = !args.no_startup;
+    within_budget(&sim_core::budget::run_estimate(&s, args.csv.is_some()))?;
     let a = simulate_scenario(&s, args.engine.into(), quiet)?;
     let r = &a.result;
     let report = Report::new(&s, &a);

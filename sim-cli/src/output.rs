@@ -6,37 +6,39 @@ use anyhow::{Context, Result};
 use sim_core::record::{Waveform, COLUMNS};
 use std::fs::{self, File};
 use std::io::{BufWriter, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 /// Writes `path` through `fill`, via a temporary file beside it.
+///
+/// The temporary file is made by the `tempfile` crate: created
+/// exclusively under a random name (never opening a file or a symlink
+/// someone placed there), then persisted over `path` by a rename. On any
+/// failure it is removed.
 pub fn write_atomic(
     path: &Path,
     fill: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
 ) -> Result<()> {
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "output".into());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| -> Result<()> {
-        let file =
-            File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;
-        let mut w = BufWriter::new(file);
-        fill(&mut w)?;
-        w.flush()?;
-        w.into_inner().map_err(|e| e.into_error())?.sync_all()?;
-        fs::rename(&tmp, path)
-            .with_context(|| format!("cannot rename {} to {}", tmp.display(), path.display()))?;
-        Ok(())
-    })();
-    if result.is_err() {
-        let _ = fs::remove_file(&tmp);
-    }
-    result
+    let dir = parent_dir(path);
+    let mut builder = tempfile::Builder::new();
+    builder.prefix(".chopwave-").suffix(".tmp");
+    // Readable like any file the user makes (the umask applies), not
+    // private as temporary files are by default.
+    #[cfg(unix)]
+    builder.permissions(std::os::unix::fs::PermissionsExt::from_mode(0o666));
+    let tmp = builder
+        .tempfile_in(dir)
+        .with_context(|| format!("cannot create a temporary file in {}", dir.display()))?;
+    let (file, tmp_path) = tmp.into_parts();
+    let mut w = BufWriter::new(file);
+    fill(&mut w)?;
+    w.flush()?;
+    let file = w.into_inner().map_err(|e| e.into_error())?;
+    file.sync_all()?;
+    tempfile::NamedTempFile::from_parts(file, tmp_path)
+        .persist(path)
+        .map_err(|e| e.error)
+        .with_context(|| format!("cannot move the temporary file to {}", path.display()))?;
+    Ok(())
 }
 
 /// Writes text to `path` atomically.
@@ -60,8 +62,8 @@ pub fn write_pieces(path: &Path, pieces: impl Iterator<Item = String>) -> Result
     .with_context(|| format!("cannot write {}", path.display()))
 }
 
-/// The CSV header: one column per signal, each `name (unit)`.
-pub fn csv_header() -> String {
+/// The CSV header's fields: one column per signal, each `name (unit)`.
+pub fn csv_header_fields() -> Vec<String> {
     COLUMNS
         .iter()
         .map(|(name, unit)| {
@@ -71,26 +73,23 @@ pub fn csv_header() -> String {
                 format!("{name} ({unit})")
             }
         })
-        .collect::<Vec<_>>()
-        .join(",")
+        .collect()
 }
 
-/// Writes the recorded samples as CSV: the header, then one row per
-/// sample, values in SI units with full precision.
+/// Writes the recorded samples as CSV (by the `csv` crate): the
+/// header, then one row per sample, values in SI units in the shortest
+/// form that reads back exactly.
 pub fn write_csv(path: &Path, w: &Waveform) -> Result<()> {
     write_atomic(path, |out| {
-        writeln!(out, "{}", csv_header())?;
+        let mut c = csv::Writer::from_writer(out);
+        c.write_record(csv_header_fields())?;
+        let mut cells: Vec<String> = Vec::with_capacity(COLUMNS.len());
         for row in w.data.rows() {
-            let mut first = true;
-            for v in row {
-                if !first {
-                    out.write_all(b",")?;
-                }
-                first = false;
-                write!(out, "{v}")?;
-            }
-            out.write_all(b"\n")?;
+            cells.clear();
+            cells.extend(row.iter().map(|v| v.to_string()));
+            c.write_record(&cells)?;
         }
+        c.flush()?;
         Ok(())
     })
     .with_context(|| format!("cannot write {}", path.display()))
@@ -105,10 +104,11 @@ pub fn ensure_dir(dir: &Path) -> Result<()> {
 /// it if needed): writes and removes a probe file.
 pub fn check_writable(dir: &Path) -> Result<()> {
     ensure_dir(dir)?;
-    let probe = dir.join(format!(".chopwave-probe.{}.tmp", std::process::id()));
-    std::fs::write(&probe, b"")
+    // Created exclusively under a random name, removed when dropped.
+    tempfile::Builder::new()
+        .prefix(".chopwave-probe-")
+        .tempfile_in(dir)
         .with_context(|| format!("cannot write into folder {}", dir.display()))?;
-    let _ = std::fs::remove_file(&probe);
     Ok(())
 }
 
@@ -138,5 +138,73 @@ pub fn file_stem(name: &str) -> String {
         "scenario".into()
     } else {
         s
+    }
+}
+
+/// The name of the lock file a study keeps in its output folder.
+pub const LOCK_FILE: &str = ".chopwave-study.lock";
+
+/// Why a folder could not be locked.
+#[derive(Debug)]
+pub enum LockFailure {
+    /// Another process holds the folder (its own words, for the user).
+    Busy(String),
+    /// The lock file could not be made or locked.
+    Io(anyhow::Error),
+}
+
+/// An exclusive advisory lock on a study's output folder, held as long
+/// as this value lives (and released by the system if the process dies,
+/// so a lock can never go stale). The lock file itself stays in the
+/// folder: removing it could let two processes lock two different files.
+#[derive(Debug)]
+pub struct FolderLock {
+    _file: File,
+}
+
+/// Locks `dir` for one study (creating it if needed); a second study
+/// into the same folder gets [`LockFailure::Busy`] at once.
+pub fn lock_folder(dir: &Path) -> Result<FolderLock, LockFailure> {
+    use fs4::FileExt;
+    ensure_dir(dir).map_err(LockFailure::Io)?;
+    let path = dir.join(LOCK_FILE);
+    if fs::symlink_metadata(&path).is_ok_and(|m| !m.is_file()) {
+        return Err(LockFailure::Io(anyhow::anyhow!(
+            "{} is not a plain file (a link or folder in its place): remove it",
+            path.display()
+        )));
+    }
+    let file = fs::OpenOptions::new()
+        .read(true)
+        .write(true)
+        .create(true)
+        .truncate(false)
+        .open(&path)
+        .with_context(|| format!("cannot open the lock file {}", path.display()))
+        .map_err(LockFailure::Io)?;
+    match FileExt::try_lock(&file) {
+        Ok(()) => {
+            // Who holds it, for the message a second study prints.
+            let _ = file.set_len(0);
+            let _ = (&file).write_all(format!("{}\n", std::process::id()).as_bytes());
+            Ok(FolderLock { _file: file })
+        }
+        Err(fs4::TryLockError::WouldBlock) => {
+            let who = fs::read_to_string(&path).unwrap_or_default();
+            let who = who.trim();
+            Err(LockFailure::Busy(format!(
+                "another chopwave study{} is writing into {}; wait for it to finish or give \
+                 this one another --out folder",
+                if who.is_empty() {
+                    String::new()
+                } else {
+                    format!(" (process {who})")
+                },
+                dir.display()
+            )))
+        }
+        Err(fs4::TryLockError::Error(e)) => Err(LockFailure::Io(
+            anyhow::Error::new(e).context(format!("cannot lock {}", path.display())),
+        )),
     }
 }

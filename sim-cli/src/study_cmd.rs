@@ -8,7 +8,7 @@
 
 use crate::format::{eng, pct};
 use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
-use crate::{load, output, parse_override, study_plot, EngineArg, Failure};
+use crate::{load, output, parse_override, read_text_limited, study_plot, EngineArg, Failure};
 use anyhow::{Context, Result};
 use indicatif::{ProgressBar, ProgressStyle};
 use sim_core::simulate::SELV_LIMIT_V;
@@ -164,12 +164,48 @@ fn set_threads(n: Option<usize>) -> Result<(), Failure> {
         if n == 0 {
             return Err(Failure::Input("--threads must be at least 1".into()));
         }
-        // Fails only if the pool already exists (it does not here).
-        let _ = rayon::ThreadPoolBuilder::new()
+        if n > MAX_THREADS {
+            return Err(Failure::Input(format!(
+                "--threads {n}: at most {MAX_THREADS} worker threads"
+            )));
+        }
+        // The system may refuse the threads (a process or memory limit):
+        // that is the user's request failing, not a crash.
+        rayon::ThreadPoolBuilder::new()
             .num_threads(n)
-            .build_global();
+            .build_global()
+            .map_err(|e| {
+                Failure::Input(format!(
+                    "--threads {n}: the system could not start that many threads ({e}); \
+                     give fewer"
+                ))
+            })?;
     }
     Ok(())
+}
+
+/// Refuses a study whose estimated points, memory or output exceed the
+/// budget (exit 2), naming where its size comes from.
+fn study_budget(s: &Scenario, points: usize, from: &str) -> Result<(), Failure> {
+    crate::within_budget(&sim_core::budget::study_estimate(
+        s,
+        points as u64,
+        sim_core::study::rows::metric_columns().len(),
+        rayon::current_num_threads(),
+        from,
+    ))
+}
+
+/// The most worker threads `--threads` accepts.
+const MAX_THREADS: usize = 1024;
+
+/// Locks a study's output folder for the study's life (see
+/// [`output::lock_folder`]): a second study into it is refused (exit 2).
+fn lock_out(dir: &Path) -> Result<output::FolderLock, Failure> {
+    output::lock_folder(dir).map_err(|e| match e {
+        output::LockFailure::Busy(m) => Failure::Input(m),
+        output::LockFailure::Io(e) => io_failure(e),
+    })
 }
 
 /// Run settings from the common options; the `--stop-after` clock starts
@@ -436,7 +472,7 @@ fn run_journaled(
     let path = journal_path(m, dir);
     let mut resumed = BTreeMap::new();
     if resume {
-        match std::fs::read_to_string(&path) {
+        match read_text_limited(&path) {
             Ok(text) => {
                 let j = read_journal(&text)
                     .map_err(|e| Failure::Input(format!("{}: {e}", path.display())))?;
@@ -468,11 +504,27 @@ fn run_journaled(
             );
         }
     }
-    if !resume && !quiet && path.exists() {
-        eprintln!(
-            "note: replacing {} from an earlier run (--resume would take over its points)",
-            path.display()
-        );
+    if !resume && path.exists() {
+        // Only a journal of this very study is replaced; another study's
+        // unfinished points are not thrown away.
+        let other = read_text_limited(&path)
+            .ok()
+            .and_then(|t| read_journal(&t).ok().flatten())
+            .is_some_and(|j| j.manifest != *m);
+        if other {
+            return Err(Failure::Input(format!(
+                "{} holds the unfinished points of a different study (scenario, options or \
+                 version differ); finish that one with its own command and --resume, give this \
+                 one another --out folder, or remove the journal",
+                path.display()
+            )));
+        }
+        if !quiet {
+            eprintln!(
+                "note: replacing {} from an earlier run (--resume would take over its points)",
+                path.display()
+            );
+        }
     }
     // A clean journal first (header and the points taken over; a partly
     // written last line is gone), then rows are appended to it.
@@ -529,7 +581,8 @@ fn finish(
     let written = write_table(t, dir, plots).map_err(io_failure)?;
     if !quiet {
         for p in &written {
-            eprintln!("wrote {}", p.display());
+            // A closed standard error must not stop the journal's removal.
+            let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
         }
     }
     let journal = journal_path(&t.manifest, dir);
@@ -578,22 +631,25 @@ fn run_study(
     print: fn(&StudyTable),
     run: impl FnOnce(&Hooks<'_>) -> Result<StudyTable, Failure>,
 ) -> Result<(), Failure> {
+    let _lock = lock_out(&common.out)?;
     let bar = progress(point_range(manifest).len(), quiet, what);
     let t = run_journaled(manifest, &common.out, resume, bar.as_ref(), quiet, run)?;
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
-    print(&t);
-    print_incomplete(&t);
-    print_cautions(&t);
-    finish(
+    // The files first: a closed standard output cannot cost the tables.
+    let outcome = finish(
         &t,
         &common.out,
         !common.no_plots,
         quiet,
         common.stop_after,
         true,
-    )
+    );
+    print(&t);
+    print_incomplete(&t);
+    print_cautions(&t);
+    outcome
 }
 
 /// One line on stdout for a table that stopped early.
@@ -628,6 +684,19 @@ pub fn run_sweep(a: &SweepArgs, quiet: bool) -> Result<(), Failure> {
     let shard = parse_shard(&a.shard)?;
     let settings = settings(&a.common, started)?;
     let manifest = sweep_manifest(&s, &grid, &settings, shard);
+    study_budget(
+        &s,
+        point_range(&manifest).len(),
+        &format!(
+            "{} points of --vary {}",
+            point_range(&manifest).len(),
+            grid.axes
+                .iter()
+                .map(|x| format!("{} ({} values)", x.path, x.values.len()))
+                .collect::<Vec<_>>()
+                .join(" × ")
+        ),
+    )?;
     run_study(
         &manifest,
         &a.common,
@@ -661,6 +730,10 @@ pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
         return Err(Failure::Input("--samples must be at least 1".into()));
     }
     let shard = parse_shard(&a.shard)?;
+    if !a.corners {
+        // Checked before the nominal design runs.
+        study_budget(&s, a.samples, &format!("--samples {}", a.samples))?;
+    }
     let limits = s.spec.unwrap_or_default();
     let run = settings(&a.common, started)?;
     let set = SpreadSettings {
@@ -855,12 +928,33 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         return Ok(());
     }
     let across = Vary::parse(&a.vary[1], &s).map_err(study_failure)?;
+    // The mode map's size is checked before any search runs.
+    if a.map_points > sim_core::study::vary::MAX_POINTS_PER_AXIS {
+        return Err(Failure::Input(format!(
+            "--map-points {}: at most {}",
+            a.map_points,
+            sim_core::study::vary::MAX_POINTS_PER_AXIS
+        )));
+    }
+    study_budget(
+        &s,
+        a.map_points.max(2).saturating_mul(across.values.len()),
+        &format!(
+            "--map-points {} × {} values of {}",
+            a.map_points.max(2),
+            across.values.len(),
+            across.path
+        ),
+    )?;
+    let _lock = lock_out(&a.common.out)?;
     let curve = boundary_curve(&s, &path, lo, hi, &across, &bs);
     let mut failed = 0;
     let mut out_of_time = 0;
     let mut pts = Vec::new();
-    println!(
-        "CCM/DCM boundary along {path} ({} to {}) across {}:",
+    // Printed once the files are written (a closed standard output
+    // cannot cost them).
+    let mut text = format!(
+        "CCM/DCM boundary along {path} ({} to {}) across {}:\n",
         eng(lo, study_unit(&path)),
         eng(hi, study_unit(&path)),
         across.path
@@ -869,21 +963,24 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         match r {
             Ok(b) => {
                 pts.push((b.value, *v));
-                println!(
-                    "  {:>12}: boundary {:>12}   nominal {} on the {} side, {:.1} % away",
+                text.push_str(&format!(
+                    "  {:>12}: boundary {:>12}   nominal {} on the {} side, {:.1} % away\n",
                     eng(*v, study_unit(&across.path)),
                     eng(b.value, study_unit(&path)),
                     eng(b.nominal, study_unit(&path)),
                     if b.nominal_ccm { "CCM" } else { "DCM" },
                     b.margin_pct
-                );
+                ));
             }
             Err(e) => {
                 failed += 1;
                 if matches!(e, StudyError::TimeLimit(_)) {
                     out_of_time += 1;
                 }
-                println!("  {:>12}: {e}", eng(*v, study_unit(&across.path)));
+                text.push_str(&format!(
+                    "  {:>12}: {e}\n",
+                    eng(*v, study_unit(&across.path))
+                ));
             }
         }
     }
@@ -946,6 +1043,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         Ok(())
     })()
     .map_err(io_failure)?;
+    print!("{text}");
     if a.json {
         println!(
             "{}",
@@ -1010,13 +1108,15 @@ fn print_boundary(s: &Scenario, b: &Boundary) {
 pub fn run_merge(a: &MergeArgs, quiet: bool) -> Result<(), Failure> {
     let mut tables = Vec::new();
     for f in &a.files {
-        let text = std::fs::read_to_string(f)
+        let text = read_text_limited(f)
             .map_err(|e| Failure::Input(format!("cannot read {}: {e}", f.display())))?;
         let t = StudyTable::from_json_text(&text)
             .map_err(|e| Failure::Input(format!("{}: {e}", f.display())))?;
         tables.push(t);
     }
     let t = StudyTable::merge(tables).map_err(|e| Failure::Input(e.to_string()))?;
+    let _lock = lock_out(&a.out)?;
+    let outcome = finish(&t, &a.out, !a.no_plots, quiet, None, false);
     println!(
         "merged {} shards: {} {} points of `{}`, {} failed",
         a.files.len(),
@@ -1025,5 +1125,5 @@ pub fn run_merge(a: &MergeArgs, quiet: bool) -> Result<(), Failure> {
         t.manifest.scenario,
         t.failed()
     );
-    finish(&t, &a.out, !a.no_plots, quiet, None, false)
+    outcome
 }

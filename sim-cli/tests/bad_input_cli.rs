@@ -300,3 +300,101 @@ fn unwritable_output_is_reported_before_simulating() {
     assert!(err.contains("not-a-folder"), "{err}");
     assert!(t.elapsed().as_secs_f64() < 5.0);
 }
+
+/// `fit-led` with points no LED curve passes through, or settings out of
+/// range: exit 2 with a message, never a printed model with inf/NaN or
+/// values a scenario would refuse.
+#[test]
+fn fit_led_refuses_points_that_define_no_led_curve() {
+    let cases: &[(&[&str], &str)] = &[
+        // The voltage falls as the current rises.
+        (
+            &[
+                "--point", "0.1,3.0", "--point", "0.2,2.9", "--point", "0.3,3.1",
+            ],
+            "rise",
+        ),
+        // Three points, two currents.
+        (
+            &[
+                "--point", "0.1,2.8", "--point", "0.1,2.8", "--point", "0.3,3.0",
+            ],
+            "distinct",
+        ),
+        // Not one LED's point.
+        (
+            &[
+                "--point", "1e308,3", "--point", "2e308,4", "--point", "3e308,5",
+            ],
+            "point",
+        ),
+        (
+            &[
+                "--point", "0.1,1e6", "--point", "0.2,2e6", "--point", "0.3,3e6",
+            ],
+            "point",
+        ),
+        // Rising so little that the emission coefficient falls below what
+        // a scenario accepts.
+        (
+            &[
+                "--point",
+                "0.1,3.0",
+                "--point",
+                "0.2,3.0000001",
+                "--point",
+                "0.3,3.0000002",
+            ],
+            "outside",
+        ),
+        // Rising so steeply that it is no exponential an LED follows.
+        (
+            &[
+                "--point", "1e-9,0.1", "--point", "1e-6,50", "--point", "1e-3,99",
+            ],
+            "outside",
+        ),
+    ];
+    let good = [
+        "--point", "0.05,2.6", "--point", "0.2,2.8", "--point", "0.7,3.05",
+    ];
+    let mut all: Vec<(Vec<&str>, &str)> = cases.iter().map(|(a, w)| (a.to_vec(), *w)).collect();
+    for extra in [
+        ["--temp", "NaN"],
+        ["--temp", "1e9"],
+        ["--tempco-mv", "1e300"],
+        ["--tempco-mv", "inf"],
+        ["--count", "5000"],
+    ] {
+        let mut a = good.to_vec();
+        a.extend(extra);
+        all.push((a, ""));
+    }
+    for (args, want) in all {
+        let o = chopwave().arg("fit-led").args(&args).output().unwrap();
+        let err = String::from_utf8_lossy(&o.stderr);
+        let out = String::from_utf8_lossy(&o.stdout);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}\n{out}");
+        assert!(err.contains(want), "{args:?}: `{want}` missing: {err}");
+        assert!(!err.contains("panicked"), "{err}");
+        assert!(out.is_empty(), "{args:?} printed: {out}");
+    }
+    // A good fit's printed fragment loads through the loader.
+    let o = chopwave().arg("fit-led").args(good).output().unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let out = String::from_utf8_lossy(&o.stdout);
+    for bad in ["inf", "NaN", "nan"] {
+        assert!(!out.contains(bad), "{out}");
+    }
+    let fragment = &out[out.find("\n{").unwrap()..];
+    let fragment: serde_json::Value = serde_json::from_str(fragment.trim()).unwrap();
+    let mut s = template();
+    s["load"] = fragment["load"].clone();
+    s["supply"]["voltage_v"] = 24.0.into();
+    s["supply"]["input_range_v"] = serde_json::Value::Null;
+    let d = scratch("fit-fragment");
+    let f = d.join("fitted.json");
+    std::fs::write(&f, s.to_string()).unwrap();
+    let o = chopwave().arg("check").arg(&f).output().unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+}

@@ -29,6 +29,7 @@
 //! the value and the reason; running returns [`error::SimError`].
 #![deny(missing_docs)]
 
+pub mod budget;
 pub mod circuit;
 pub mod controller;
 pub mod devices;

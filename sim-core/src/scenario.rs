@@ -1981,6 +1981,9 @@ impl Checker {
     }
 }
 
+/// Most dotted names an override path may have.
+pub const MAX_OVERRIDE_DEPTH: usize = 8;
+
 /// Sets one field of a scenario held as JSON, by dotted path
 /// (`supply.voltage_v`, `controller.off_time_s`), to `value`.
 ///
@@ -1994,13 +1997,26 @@ pub fn apply_override(
     value: &str,
 ) -> Result<(), ScenarioError> {
     let err = |reason: &str| ScenarioError::Override {
-        path: path.to_string(),
+        // A path too long to be a field is shown cut short.
+        path: if path.len() > 80 {
+            format!("{}…", path.chars().take(60).collect::<String>())
+        } else {
+            path.to_string()
+        },
         reason: reason.to_string(),
     };
     if path.is_empty() || path.split('.').any(str::is_empty) {
         return Err(err(
             "the path must be dotted field names, e.g. supply.voltage_v",
         ));
+    }
+    // The deepest field of a scenario is four names down; a longer path
+    // names nothing (and must not build a nested value without bound).
+    if path.split('.').count() > MAX_OVERRIDE_DEPTH || path.len() > 256 {
+        return Err(err(&format!(
+            "the path is deeper than any scenario field (at most {MAX_OVERRIDE_DEPTH} names, \
+             256 characters)"
+        )));
     }
     let parsed: serde_json::Value = match value.trim() {
         "true" => true.into(),

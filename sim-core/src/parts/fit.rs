@@ -89,6 +89,131 @@ fn check_points(points: &[(f64, f64)], offset: usize) -> Result<(), FitError> {
         if v <= 0.0 {
             return Err(bad("the forward voltage must be positive"));
         }
+        if i > MAX_POINT_CURRENT_A {
+            return Err(bad(&format!(
+                "above {MAX_POINT_CURRENT_A} A: not one LED's datasheet point"
+            )));
+        }
+        if v > MAX_POINT_VOLTAGE_V {
+            return Err(bad(&format!(
+                "above {MAX_POINT_VOLTAGE_V} V: not one LED's forward voltage"
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Largest current and voltage of a datasheet point (one LED), A and V.
+pub const MAX_POINT_CURRENT_A: f64 = 1e3;
+/// Largest forward voltage of one LED at a datasheet point, V.
+pub const MAX_POINT_VOLTAGE_V: f64 = 100.0;
+/// Junction temperatures the fit accepts, °C (the loader's range of
+/// `load.junction_temperature_c`).
+pub const TEMPERATURE_RANGE_C: (f64, f64) = (-60.0, 250.0);
+/// Largest forward-voltage tempco, V/K (the loader's range of
+/// `parts.led.forward_voltage_tempco_v_per_k`).
+pub const TEMPCO_LIMIT_V_PER_K: f64 = 0.05;
+
+/// The temperatures and a given tempco: finite and inside the ranges a
+/// scenario accepts.
+fn check_inputs(t: f64, tempco: Option<f64>, hot_t: Option<f64>) -> Result<(), FitError> {
+    let (lo, hi) = TEMPERATURE_RANGE_C;
+    for (what, v) in [("temperature", Some(t)), ("second temperature", hot_t)] {
+        if let Some(v) = v.filter(|v| !(v.is_finite() && (lo..=hi).contains(v))) {
+            return Err(FitError::Degenerate {
+                reason: format!("the {what} {v} °C is outside {lo} to {hi} °C"),
+            });
+        }
+    }
+    if let Some(tc) = tempco.filter(|tc| {
+        !(tc.is_finite() && (-TEMPCO_LIMIT_V_PER_K..=TEMPCO_LIMIT_V_PER_K).contains(tc))
+    }) {
+        return Err(FitError::Degenerate {
+            reason: format!("the tempco {tc} V/K is outside ±{TEMPCO_LIMIT_V_PER_K} V/K"),
+        });
+    }
+    Ok(())
+}
+
+/// Points that can lie on one exponential forward curve: at least three
+/// distinct currents, and the voltage rising strictly with the current.
+fn check_curve(points: &[(f64, f64)]) -> Result<(), FitError> {
+    let mut sorted: Vec<(usize, f64, f64)> = points
+        .iter()
+        .enumerate()
+        .map(|(k, &(i, v))| (k, i, v))
+        .collect();
+    sorted.sort_by(|a, b| a.1.total_cmp(&b.1));
+    let same = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(b.abs());
+    let distinct = 1 + sorted.windows(2).filter(|w| !same(w[0].1, w[1].1)).count();
+    if distinct < 3 {
+        return Err(FitError::Degenerate {
+            reason: format!(
+                "{distinct} distinct current(s): an exponential curve with a series resistance \
+                 needs at least three"
+            ),
+        });
+    }
+    for w in sorted.windows(2) {
+        let ((_, i0, v0), (k, i1, v1)) = (w[0], w[1]);
+        if !same(i0, i1) && v1 <= v0 {
+            return Err(FitError::BadPoint {
+                index: k,
+                current_a: i1,
+                voltage_v: v1,
+                reason: format!(
+                    "the voltage must rise with the current, but it is not above {v0} V at \
+                     the lower current {i0} A"
+                ),
+            });
+        }
+    }
+    Ok(())
+}
+
+/// The fitted model is one a scenario file accepts: finite, inside the
+/// loader's ranges for `load.saturation_current_a` (1e-45 to 1e-3 A),
+/// `load.emission_coefficient` (0.5 to 20) and
+/// `load.series_resistance_ohm` (0 to 1000 Ω).
+fn check_model(f: &LedFit) -> Result<(), FitError> {
+    let checks = [
+        (
+            "saturation current Is",
+            f.saturation_current_a,
+            1e-45,
+            1e-3,
+            "A",
+        ),
+        (
+            "emission coefficient n",
+            f.emission_coefficient,
+            0.5,
+            20.0,
+            "",
+        ),
+        (
+            "series resistance Rs",
+            f.series_resistance_ohm,
+            0.0,
+            1e3,
+            "Ω",
+        ),
+    ];
+    for (what, v, lo, hi, unit) in checks {
+        if !(v.is_finite() && (lo..=hi).contains(&v)) {
+            return Err(FitError::Degenerate {
+                reason: format!(
+                    "the fitted {what} = {v:e} {unit} is outside what a scenario accepts \
+                     ({lo:e} to {hi:e} {unit}): the points do not describe an LED's forward \
+                     curve"
+                ),
+            });
+        }
+    }
+    if f.residuals_v.iter().any(|r| !r.is_finite()) {
+        return Err(FitError::Degenerate {
+            reason: "the model does not reach every point".into(),
+        });
     }
     Ok(())
 }
@@ -176,15 +301,8 @@ pub fn fit_led(
     }
     check_points(points, 0)?;
     check_points(hot_points, points.len())?;
-    let distinct = points
-        .iter()
-        .filter(|p| (p.0 - points[0].0).abs() > 1e-12 * points[0].0)
-        .count();
-    if distinct < 2 {
-        return Err(FitError::Degenerate {
-            reason: "all points are at the same current".into(),
-        });
-    }
+    check_inputs(temperature_c, tempco_v_per_k, hot_temperature_c)?;
+    check_curve(points)?;
     let mut fit = fit_params(points, true);
     if !matches!(fit, Some((_, _, rs)) if rs >= 0.0) {
         fit = fit_params(points, false);
@@ -205,6 +323,7 @@ pub fn fit_led(
         hot_residuals_v: Vec::new(),
     };
     out.residuals_v = points.iter().map(|&(i, v)| out.voltage_v(i) - v).collect();
+    check_model(&out)?;
     if tempco_v_per_k.is_none() && !hot_points.is_empty() {
         let Some(th) = hot_temperature_c.filter(|&t| (t - temperature_c).abs() > 1e-9) else {
             return Err(FitError::Degenerate {
@@ -219,6 +338,14 @@ pub fn fit_led(
             .map(|&(i, v)| (v - out.voltage_v(i)) / dt)
             .sum::<f64>()
             / hot_points.len() as f64;
+        if !(tc.is_finite() && (-TEMPCO_LIMIT_V_PER_K..=TEMPCO_LIMIT_V_PER_K).contains(&tc)) {
+            return Err(FitError::Degenerate {
+                reason: format!(
+                    "the second-temperature points give a tempco of {tc:e} V/K, outside \
+                     ±{TEMPCO_LIMIT_V_PER_K} V/K"
+                ),
+            });
+        }
         out.tempco_v_per_k = Some(tc);
         out.hot_residuals_v = hot_points
             .iter()

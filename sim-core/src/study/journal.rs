@@ -76,6 +76,7 @@ pub fn read_journal(text: &str) -> Result<Option<Journal>, StudyError> {
     }
     let manifest: Manifest =
         serde_json::from_value(head["manifest"].clone()).map_err(|e| bad(1, e.to_string()))?;
+    manifest.check_counts().map_err(|e| bad(1, e.to_string()))?;
     let columns = Arc::new(manifest.metric_columns.clone());
     let range = super::sweep::point_range(&manifest);
     let mut finished = BTreeMap::new();

@@ -103,6 +103,47 @@ pub struct Manifest {
     pub incomplete: Option<Incomplete>,
 }
 
+impl Manifest {
+    /// Checks the counts a manifest read from a file states against each
+    /// other before anything is sized by them: the shape's product (no
+    /// overflow) is the point count, one shape entry per input for a
+    /// sweep, a shard's range lies inside the study and its index inside
+    /// its count.
+    pub fn check_counts(&self) -> Result<(), StudyError> {
+        let bad = |what: String| Err(StudyError::Format(format!("manifest: {what}")));
+        let product = self
+            .shape
+            .iter()
+            .try_fold(1usize, |acc, &n| acc.checked_mul(n));
+        if product != Some(self.points) {
+            return bad(format!(
+                "the shape {:?} does not multiply to its {} points",
+                self.shape, self.points
+            ));
+        }
+        if self.kind == StudyKind::Sweep && self.shape.len() != self.inputs.len() {
+            return bad(format!(
+                "{} sweep axes for {} inputs",
+                self.shape.len(),
+                self.inputs.len()
+            ));
+        }
+        if let Some(sh) = self.shard {
+            if sh.shard.index == 0
+                || sh.shard.index > sh.shard.count
+                || sh.first > sh.end
+                || sh.end > self.points
+            {
+                return bad(format!(
+                    "shard {}/{} covers points {}..{} of {}",
+                    sh.shard.index, sh.shard.count, sh.first, sh.end, self.points
+                ));
+            }
+        }
+        Ok(())
+    }
+}
+
 /// Why a table holds fewer rows than its study has points.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
 pub struct Incomplete {
@@ -489,18 +530,30 @@ impl RowExt for Row {
     }
 }
 
+/// A cell's text before quoting: empty for null, numbers in the shortest
+/// form that reads back exactly.
 fn csv_cell(v: &Value) -> String {
     match v {
         Value::Null => String::new(),
-        Value::String(s) => {
-            if s.contains([',', '"', '\n', '\r']) {
-                format!("\"{}\"", s.replace('"', "\"\""))
-            } else {
-                s.clone()
-            }
-        }
+        Value::String(s) => s.clone(),
         other => other.to_string(),
     }
+}
+
+/// One CSV line (with its newline), quoted where needed by the `csv`
+/// crate (a field holding a comma, quote or line break).
+fn csv_line(cells: &[String]) -> String {
+    let mut w = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new());
+    // Writing into memory cannot fail.
+    if w.write_record(cells).is_err() {
+        return String::from("\n");
+    }
+    w.into_inner()
+        .ok()
+        .and_then(|b| String::from_utf8(b).ok())
+        .unwrap_or_else(|| String::from("\n"))
 }
 
 impl StudyTable {
@@ -555,12 +608,7 @@ impl StudyTable {
         head.push("status".into());
         head.extend(m.metric_columns.iter().cloned());
         head.extend(["cycles_to_settle", "warm_start", "error"].map(String::from));
-        let mut head = head
-            .iter()
-            .map(|h| csv_cell(&Value::from(h.as_str())))
-            .collect::<Vec<_>>()
-            .join(",");
-        head.push('\n');
+        let head = csv_line(&head);
         let rows = self.rows.iter().map(move |r| {
             let mut cells: Vec<String> = vec![r.index.to_string()];
             for k in 0..m.inputs.len() {
@@ -582,9 +630,7 @@ impl StudyTable {
             );
             cells.push(r.warm_start().map_or(String::new(), |w| w.to_string()));
             cells.push(csv_cell(&r.error().map_or(Value::Null, Value::from)));
-            let mut line = cells.join(",");
-            line.push('\n');
-            line
+            csv_line(&cells)
         });
         std::iter::once(head).chain(rows)
     }
@@ -602,6 +648,26 @@ impl StudyTable {
             return Err(StudyError::Format(format!(
                 "layout `{}`, expected `{STUDY_FORMAT}`",
                 f.manifest.format
+            )));
+        }
+        f.manifest.check_counts()?;
+        let range = super::sweep::point_range(&f.manifest);
+        let expected = match &f.manifest.incomplete {
+            Some(inc) if inc.of != range.len() || inc.ran > inc.of => {
+                return Err(StudyError::Format(format!(
+                    "the manifest says {} of {} points ran, but the file covers {} points",
+                    inc.ran,
+                    inc.of,
+                    range.len()
+                )))
+            }
+            Some(inc) => inc.ran,
+            None => range.len(),
+        };
+        if f.rows.len() != expected {
+            return Err(StudyError::Format(format!(
+                "the manifest counts {expected} rows, the file holds {}",
+                f.rows.len()
             )));
         }
         let columns = Arc::new(f.manifest.metric_columns.clone());
@@ -645,7 +711,8 @@ impl StudyTable {
                 shards.len()
             ));
         }
-        let mut rows = Vec::with_capacity(base.points);
+        // Sized by the rows really held, never by a count read from a file.
+        let mut rows = Vec::with_capacity(shards.iter().map(|t| t.rows.len()).sum());
         for (k, t) in shards.into_iter().enumerate() {
             let Some(info) = t.manifest.shard else {
                 return err("a whole study was given among the shards".into());
@@ -671,7 +738,7 @@ impl StudyTable {
                     k + 1
                 ));
             }
-            if t.rows.len() != info.end - info.first
+            if Some(t.rows.len()) != info.end.checked_sub(info.first)
                 || t.rows
                     .iter()
                     .enumerate()
@@ -705,7 +772,13 @@ mod tests {
 
     #[test]
     fn csv_quotes_what_needs_it() {
-        assert_eq!(csv_cell(&Value::from("a,b \"c\"")), "\"a,b \"\"c\"\"\"");
+        let cells = [
+            "a,b \"c\"".to_string(),
+            String::new(),
+            "x\ny".into(),
+            "7".into(),
+        ];
+        assert_eq!(csv_line(&cells), "\"a,b \"\"c\"\"\",,\"x\ny\",7\n");
         assert_eq!(csv_cell(&Value::Null), "");
         for x in [1e-5_f64, 0.1 + 0.2, 4.7e-6, 123_456.789] {
             let back: f64 = csv_cell(&Value::from(x)).parse().unwrap();
