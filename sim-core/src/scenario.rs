@@ -570,11 +570,11 @@ pub struct DiodeData {
     pub average_current_rating_a: Option<f64>,
     /// Junction capacitance C_j (taken as constant), F: charged by each
     /// turn-on of the switch, ½·C_j·ΔV² lost per turn-on (0: not given).
-    #[serde(deserialize_with = "de_f", skip_serializing_if = "is_zero")]
+    #[serde(deserialize_with = "de_f", skip_serializing_if = "capacitance_unset")]
     pub junction_capacitance_f: f64,
 }
 
-fn is_zero(v: &f64) -> bool {
+fn capacitance_unset(v: &f64) -> bool {
     *v == 0.0
 }
 
