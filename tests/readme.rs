@@ -138,7 +138,9 @@ fn figure_caption_numbers_are_the_demo_s() {
 #[test]
 fn quick_start_says_how_to_get_the_chopwave_command() {
     let text = readme();
-    let start = text.find("## Quick start").expect("README has a Quick start");
+    let start = text
+        .find("## Quick start")
+        .expect("README has a Quick start");
     let end = text[start + 3..]
         .find("\n## ")
         .map_or(text.len(), |i| start + 3 + i);

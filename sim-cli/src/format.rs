@@ -36,39 +36,31 @@ pub fn eng(v: f64, unit: &str) -> String {
     eng_sig(v, unit, 3)
 }
 
-/// As [`eng`] with `sig` significant figures.
+/// As [`eng`] with `sig` significant figures (the one implementation is
+/// `sim_core::units::eng_sig`, which the library's notes and messages use
+/// too).
 pub fn eng_sig(v: f64, unit: &str, sig: usize) -> String {
-    if v.is_nan() {
-        return "n/a".to_string();
+    sim_core::units::eng_sig(v, unit, sig)
+}
+
+/// `v` in engineering notation, shown as 0 when it is round-off beside
+/// `scale`, the largest magnitude of the same quantity in the same output
+/// (below `sim_core::units::DISPLAY_ZERO_FRACTION`, a millionth of it):
+/// an LED minimum of −0.763 pA beside a 542 mA maximum is `0 A`.
+pub fn eng_scaled(v: f64, unit: &str, scale: f64) -> String {
+    eng(sim_core::units::zero_if_round_off(v, scale), unit)
+}
+
+/// A dimensionless number with three significant figures, round-off
+/// below a millionth of `scale` shown as 0 and magnitudes below 0.001 in
+/// scientific notation (`0.0641`, `2.1e-5`, `0`).
+pub fn ratio(v: f64, scale: f64) -> String {
+    let v = sim_core::units::zero_if_round_off(v, scale);
+    if v != 0.0 && v.abs() < 1e-3 {
+        format!("{v:.1e}")
+    } else {
+        sim_core::units::short_number(v, 3)
     }
-    if v.is_infinite() {
-        return format!("{}∞ {unit}", if v < 0.0 { "−" } else { "" });
-    }
-    if v == 0.0 {
-        return format!("0 {unit}").trim_end().to_string();
-    }
-    let mut exp = eng_exponent(v);
-    let mut mant = v / 10f64.powi(exp);
-    // Decimals for `sig` significant figures (more below 1, at the
-    // clamped ends of the prefix range).
-    let decimals_for = |m: f64| (sig as i32 - 1 - m.abs().log10().floor() as i32).max(0) as usize;
-    let decimals = decimals_for(mant);
-    // Rounding can carry into the next prefix (999.7 → 1000 → 1 k).
-    let rounded: f64 = format!("{mant:.decimals$}").parse().unwrap_or(mant);
-    if rounded.abs() >= 1000.0 && exp < 9 {
-        exp += 3;
-        mant = v / 10f64.powi(exp);
-    }
-    let decimals = decimals_for(mant);
-    let mut s = format!("{mant:.decimals$}");
-    if s.contains('.') {
-        s = s.trim_end_matches('0').trim_end_matches('.').to_string();
-    }
-    if s == "-0" {
-        s = "0".into();
-    }
-    let s = s.replace('-', "−");
-    format!("{s} {}{unit}", prefix(exp)).trim_end().to_string()
 }
 
 /// A fraction as a percentage with one decimal: `0.912` is `91.2 %`.
@@ -110,5 +102,17 @@ mod tests {
         assert_eq!(eng(f64::NAN, "A"), "n/a");
         assert_eq!(eng(12.0, ""), "12");
         assert_eq!(pct(0.9123), "91.2 %");
+    }
+
+    /// Round-off beside its scale prints as 0; real small values do not.
+    #[test]
+    fn round_off_is_shown_as_zero() {
+        assert_eq!(eng_scaled(-0.763e-12, "A", 0.542), "0 A");
+        assert_eq!(eng_scaled(0.113, "A", 0.194), "113 mA");
+        assert_eq!(eng_scaled(-0.4, "V", 48.0), "−400 mV");
+        assert_eq!(ratio(3.1e-17, 1.0), "0");
+        assert_eq!(ratio(0.0641, 1.0), "0.0641");
+        assert_eq!(ratio(2.1e-5, 1.0), "2.1e-5");
+        assert_eq!(ratio(0.784, 1.0), "0.784");
     }
 }

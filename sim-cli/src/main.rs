@@ -454,9 +454,19 @@ fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
         "Per-LED model v = n·Vt·ln(1 + i/Is) + Rs·i at {:.1} °C (least squares):",
         f.temperature_c
     );
-    println!("  Is = {:.6e} A", f.saturation_current_a);
+    // Engineering notation down to femto; an LED's Is (1e-18 A and
+    // below) lies beyond the prefixes and keeps scientific notation.
+    let is = f.saturation_current_a;
+    if is.abs() >= 1e-15 {
+        println!("  Is = {}", format::eng_sig(is, "A", 7));
+    } else {
+        println!("  Is = {is:.6e} A");
+    }
     println!("  n  = {:.6}", f.emission_coefficient);
-    println!("  Rs = {:.6} Ω", f.series_resistance_ohm);
+    println!(
+        "  Rs = {}",
+        format::eng_sig(f.series_resistance_ohm, "Ω", 6)
+    );
     println!(
         "\n  {:>12}{:>12}{:>12}{:>14}",
         "current", "datasheet", "model", "residual"

@@ -2,7 +2,7 @@
 //! or as a JSON object for scripts (the field names are documented in
 //! README.md and stable).
 
-use crate::format::{eng, pct, sci};
+use crate::format::{eng, eng_scaled, pct, ratio, sci};
 use serde::Serialize;
 use sim_core::metrics::{ConductionMode, LossEnergies, Metrics};
 use sim_core::parts::alternatives::Comparison;
@@ -204,6 +204,9 @@ impl Report {
             let _ = writeln!(o, "  {label:<24}{value}");
         };
 
+        // Round-off beside the largest value of the same quantity shows
+        // as 0 (see `format::eng_scaled`).
+        let led_scale = m.led_current_max_a.abs().max(m.led_current_min_a.abs());
         let _ = writeln!(o, "\nLED current");
         row(&mut o, "average", eng(m.led_current_avg_a, "A"));
         row(
@@ -221,8 +224,8 @@ impl Report {
             "min / max",
             format!(
                 "{} / {}",
-                eng(m.led_current_min_a, "A"),
-                eng(m.led_current_max_a, "A")
+                eng_scaled(m.led_current_min_a, "A", led_scale),
+                eng_scaled(m.led_current_max_a, "A", led_scale)
             ),
         );
 
@@ -270,7 +273,12 @@ impl Report {
         row(&mut o, "efficiency", pct(m.efficiency));
         let _ = writeln!(o, "\n  {:<24}{:>10}{:>12}", "losses", "W", "% of input");
         for (name, w, p) in loss_rows(&m.losses_w, &self.losses_pct) {
-            let _ = writeln!(o, "  {name:<24}{:>10}{:>10.2} %", eng(w, "W"), p);
+            let _ = writeln!(
+                o,
+                "  {name:<24}{:>10}{:>10.2} %",
+                eng_scaled(w, "W", m.input_power_w),
+                p
+            );
         }
         let total_pct: f64 = loss_rows(&m.losses_w, &self.losses_pct)
             .iter()
@@ -344,13 +352,14 @@ impl Report {
             );
         }
         stress(&mut o, "supply", None, m.input_current_rms_a);
+        let node_scale = m.switch_node_max_v.abs().max(m.switch_node_min_v.abs());
         row(
             &mut o,
             "switch node",
             format!(
                 "{} to {}",
-                eng(m.switch_node_min_v, "V"),
-                eng(m.switch_node_max_v, "V")
+                eng_scaled(m.switch_node_min_v, "V", node_scale),
+                eng_scaled(m.switch_node_max_v, "V", node_scale)
             ),
         );
 
@@ -547,7 +556,7 @@ fn check_value(v: f64, unit: &str) -> String {
     match unit {
         "%" => format!("{v:.1} %"),
         "°C" => format!("{v:.0} °C"),
-        "" => format!("{v:.3}"),
+        "" => ratio(v, 1.0),
         u => eng(v, u),
     }
 }
@@ -699,18 +708,16 @@ fn controller_words(c: &sim_core::scenario::ControllerSpec) -> String {
 /// How fast the slowest mode of the orbit decays: its Floquet multiplier
 /// and, for slow ones, the cycles per factor e (−1/ln m).
 fn decay_words(m: f64) -> String {
-    if !(m > 0.0 && m < 1.0) {
-        return format!("slowest mode ×{m:.3} per cycle");
+    // A contraction factor's scale is 1: round-off below a millionth of
+    // it shows as 0, small ones keep three significant figures.
+    if !(m > 0.0 && m < 1.0) || m < 0.5 {
+        return format!("slowest mode ×{} per cycle", ratio(m, 1.0));
     }
-    if m < 0.5 {
-        format!("slowest mode ×{m:.3} per cycle")
-    } else {
-        format!(
-            "slowest mode ×{:.6} per cycle (time constant {} cycles)",
-            m,
-            sig(-1.0 / m.ln())
-        )
-    }
+    format!(
+        "slowest mode ×{:.6} per cycle (time constant {} cycles)",
+        m,
+        sig(-1.0 / m.ln())
+    )
 }
 
 /// Three significant figures, as a number.
@@ -720,4 +727,28 @@ fn sig(v: f64) -> f64 {
     }
     let p = 10f64.powi(2 - v.abs().log10().floor() as i32);
     (v * p).round() / p
+}
+
+#[cfg(test)]
+mod display_tests {
+    use super::*;
+
+    /// A contraction factor's scale is 1: round-off shows as 0, a small
+    /// real factor keeps its significant figures (it printed `×0.000`).
+    #[test]
+    fn contraction_factors_show_round_off_as_zero_and_keep_small_values() {
+        assert_eq!(decay_words(3e-17), "slowest mode ×0 per cycle");
+        assert_eq!(decay_words(0.0), "slowest mode ×0 per cycle");
+        assert_eq!(decay_words(2.1e-5), "slowest mode ×2.1e-5 per cycle");
+        assert_eq!(decay_words(0.0641), "slowest mode ×0.0641 per cycle");
+        assert!(decay_words(0.72006).starts_with("slowest mode ×0.720060 per cycle"));
+    }
+
+    /// A dimensionless check limit of zero reads `0`, not `0.000`.
+    #[test]
+    fn dimensionless_check_values() {
+        assert_eq!(check_value(0.0, ""), "0");
+        assert_eq!(check_value(0.784, ""), "0.784");
+        assert_eq!(check_value(1e-20, ""), "0");
+    }
 }

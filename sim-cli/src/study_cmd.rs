@@ -780,7 +780,7 @@ const PRINTED: [(&str, &str, f64); 8] = [
 fn show(v: f64, unit: &str, k: f64) -> String {
     match unit {
         "%" => format!("{:.2} %", v * k),
-        "" => format!("{v:.4}"),
+        "" => crate::format::ratio(v, 1.0),
         u => eng(v, u),
     }
 }
@@ -1084,13 +1084,12 @@ fn print_boundary(s: &Scenario, b: &Boundary) {
     println!("CCM/DCM boundary of `{}` along {}:", s.name, b.path);
     println!(
         "  boundary   {}   (bracket {} to {}, width {:.3} % of the value, {} runs)",
-        sim_core::study::exact_text(b.value),
-        eng(b.bracket.0, u),
-        eng(b.bracket.1, u),
+        crate::format::eng_sig(b.value, u, 5),
+        crate::format::eng_sig(b.bracket.0, u, 5),
+        crate::format::eng_sig(b.bracket.1, u, 5),
         100.0 * (b.bracket.1 - b.bracket.0) / b.value.abs(),
         b.runs
     );
-    println!("             = {}", crate::format::eng_sig(b.value, u, 5));
     println!(
         "  CCM lies {} the boundary, DCM {} it",
         if b.ccm_above { "above" } else { "below" },

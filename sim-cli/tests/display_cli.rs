@@ -19,10 +19,7 @@ fn text(b: &[u8]) -> String {
 
 /// A fresh, empty scratch folder for one test.
 fn scratch(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!(
-        "chopwave-display-{name}-{}",
-        std::process::id()
-    ));
+    let d = std::env::temp_dir().join(format!("chopwave-display-{name}-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(&d).unwrap();
     d
@@ -89,5 +86,107 @@ fn template_shows_every_section_in_engineering_notation_and_loads_back() {
     let cout = s.output_capacitor.unwrap();
     assert_eq!(cout.capacitance_f.to_bits(), 4.7e-6_f64.to_bits());
     assert_eq!(s, sim_core::scenario::template_with_parts());
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// True when `s` holds a number in raw scientific notation (`1.7e-5`,
+/// `9e0`), which people should not have to decode.
+fn has_raw_scientific(s: &str) -> Option<String> {
+    let b = s.as_bytes();
+    for i in 1..b.len().saturating_sub(1) {
+        if (b[i] == b'e' || b[i] == b'E') && b[i - 1].is_ascii_digit() {
+            let next = if b[i + 1] == b'-' || b[i + 1] == b'+' {
+                b.get(i + 2)
+            } else {
+                b.get(i + 1)
+            };
+            if next.is_some_and(u8::is_ascii_digit) {
+                let from = s[..i].rfind(char::is_whitespace).map_or(0, |k| k + 1);
+                let to = s[i..].find(char::is_whitespace).map_or(s.len(), |k| i + k);
+                return Some(s[from..to].to_string());
+            }
+        }
+    }
+    None
+}
+
+#[test]
+fn boundary_prints_engineering_notation() {
+    let o = run(&[
+        "boundary",
+        &scenario("undersized-inductor-dcm.json"),
+        "--vary",
+        "inductor.inductance_h=2u:60u",
+        "-q",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert_eq!(has_raw_scientific(&out), None, "{out}");
+    let line = out
+        .lines()
+        .find(|l| l.trim_start().starts_with("boundary "))
+        .unwrap_or_else(|| panic!("no boundary line: {out}"));
+    assert!(line.contains(" µH"), "{line}");
+    assert!(out.contains("nominal    6.8 µH"), "{out}");
+}
+
+#[test]
+fn spread_inputs_and_limits_print_engineering_notation() {
+    let dir = scratch("spread");
+    let o = run(&[
+        "spread",
+        &scenario("cabin-light-9-32v.json"),
+        "--samples",
+        "8",
+        "--no-plots",
+        "-q",
+        "--out",
+        dir.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert_eq!(has_raw_scientific(&out), None, "{out}");
+    // The scenario's own values (68 µH, 9 to 32 V) as engineers write them.
+    assert!(
+        out.contains("inductor.inductance_h: nominal 68 µH"),
+        "{out}"
+    );
+    assert!(out.contains("uniform over 9 V to 32 V"), "{out}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// In DCM without an output capacitor the LED current is the inductor
+/// current, zero while it rests: its minimum is 0, whatever round-off the
+/// arithmetic leaves (it printed −0.763 pA).
+#[test]
+fn round_off_minimum_of_a_dcm_led_current_reads_zero() {
+    let o = run(&["run", &scenario("undersized-inductor-dcm.json")]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    let line = out
+        .lines()
+        .find(|l| l.trim_start().starts_with("min / max"))
+        .unwrap_or_else(|| panic!("no min / max line: {out}"));
+    let min = line.split_once("max").unwrap().1.trim();
+    assert!(min.starts_with("0 A /"), "{line}");
+    assert!(out.contains("DCM"), "{out}");
+}
+
+/// Bad values are quoted in engineering notation with the field's unit.
+#[test]
+fn range_errors_quote_engineering_notation() {
+    let dir = scratch("range");
+    let f = dir.join("bad.json");
+    let mut v: Value = serde_json::from_slice(&run(&["template"]).stdout).unwrap();
+    v["inductor"]["inductance_h"] = "-4.7u".into();
+    v["parts"]["switch"]["gate_charge_c"] = "20uC".into();
+    std::fs::write(&f, v.to_string()).unwrap();
+    let o = run(&["check", f.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = text(&o.stderr);
+    assert!(err.contains("−4.7 µH"), "{err}");
+    assert!(err.contains("1 nH to 10 H"), "{err}");
+    assert!(err.contains("20 µC"), "{err}");
+    assert_eq!(has_raw_scientific(&err), None, "{err}");
     let _ = std::fs::remove_dir_all(&dir);
 }

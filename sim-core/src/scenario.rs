@@ -1912,25 +1912,39 @@ impl Checker {
         } else {
             format!(" {unit}")
         };
+        // Quantities with an SI unit are quoted in engineering notation
+        // with every digit (`−4.7 µH`, `allowed 1 nH to 10 H`).
+        let eng_unit = match unit {
+            "V" => Some(Unit::Volt),
+            "A" => Some(Unit::Ampere),
+            "Ω" => Some(Unit::Ohm),
+            "H" => Some(Unit::Henry),
+            "F" => Some(Unit::Farad),
+            "s" => Some(Unit::Second),
+            "Hz" => Some(Unit::Hertz),
+            "C" => Some(Unit::Coulomb),
+            _ => None,
+        };
+        let show = |x: f64| match eng_unit {
+            Some(eu) if x.is_finite() => crate::units::eng_exact(x, eu),
+            _ => format!("{}{u}", fmt_num(x)),
+        };
         if !v.is_finite() {
             self.push(path, &fmt_num(v), "must be a finite number");
         } else if v < lo || v > hi {
             let why = if lo > 0.0 && v <= 0.0 {
-                format!(
-                    "must be positive (allowed {}{u} to {}{u})",
-                    fmt_num(lo),
-                    fmt_num(hi)
-                )
+                format!("must be positive (allowed {} to {})", show(lo), show(hi))
             } else if lo == 0.0 && v < 0.0 {
-                format!("must not be negative (allowed 0 to {}{u})", fmt_num(hi))
+                format!("must not be negative (allowed 0 to {})", show(hi))
             } else {
-                format!(
-                    "outside the physical range {}{u} to {}{u}",
-                    fmt_num(lo),
-                    fmt_num(hi)
-                )
+                format!("outside the physical range {} to {}", show(lo), show(hi))
             };
-            self.push(path, &fmt_num(v), &why);
+            let value = if eng_unit.is_some() {
+                show(v)
+            } else {
+                fmt_num(v)
+            };
+            self.push(path, &value, &why);
         }
     }
 

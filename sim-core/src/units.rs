@@ -234,6 +234,184 @@ pub fn exact_engineering_text(v: f64, symbol: &str) -> Option<String> {
     Some(format!("{sign}{number}{prefix}{symbol}"))
 }
 
+// ---------------------------------------------------------------------------
+// Numbers for people.
+
+impl Unit {
+    /// The symbol shown to people after a number (`Ω`, `°C`; nothing for
+    /// a ratio).
+    pub fn display_symbol(self) -> &'static str {
+        match self {
+            Unit::Volt => "V",
+            Unit::Ampere => "A",
+            Unit::Ohm => "Ω",
+            Unit::Henry => "H",
+            Unit::Farad => "F",
+            Unit::Second => "s",
+            Unit::Hertz => "Hz",
+            Unit::Celsius => "°C",
+            Unit::Coulomb => "C",
+            Unit::Ratio => "",
+        }
+    }
+
+    /// Whether numbers in this unit take SI prefixes when shown (not
+    /// degrees Celsius, not plain ratios).
+    pub fn takes_prefix(self) -> bool {
+        !matches!(self, Unit::Celsius | Unit::Ratio)
+    }
+}
+
+/// SI prefixes from femto to giga, with their powers of ten.
+const SHOWN_PREFIXES: [(i32, &str); 9] = [
+    (-15, "f"),
+    (-12, "p"),
+    (-9, "n"),
+    (-6, "µ"),
+    (-3, "m"),
+    (0, ""),
+    (3, "k"),
+    (6, "M"),
+    (9, "G"),
+];
+
+fn shown_prefix(exp: i32) -> &'static str {
+    SHOWN_PREFIXES
+        .iter()
+        .find(|(e, _)| *e == exp)
+        .map_or("", |(_, p)| p)
+}
+
+/// `v` in engineering notation with `sig` significant figures (trailing
+/// zeros dropped), a space and the unit with its SI prefix:
+/// `eng_sig(4.12e5, "Hz", 3)` is `412 kHz`. Negative numbers take a
+/// minus sign (U+2212); prefixes run from pico to giga.
+pub fn eng_sig(v: f64, unit: &str, sig: usize) -> String {
+    if v.is_nan() {
+        return "n/a".to_string();
+    }
+    if v.is_infinite() {
+        return format!("{}∞ {unit}", if v < 0.0 { "−" } else { "" });
+    }
+    if v == 0.0 {
+        return format!("0 {unit}").trim_end().to_string();
+    }
+    let exponent = |x: f64| ((x.abs().log10() / 3.0).floor() as i32 * 3).clamp(-12, 9);
+    let mut exp = exponent(v);
+    let mut mant = v / 10f64.powi(exp);
+    // Decimals for `sig` significant figures (more below 1, at the
+    // clamped ends of the prefix range).
+    let decimals_for = |m: f64| (sig as i32 - 1 - m.abs().log10().floor() as i32).max(0) as usize;
+    let decimals = decimals_for(mant);
+    // Rounding can carry into the next prefix (999.7 → 1000 → 1 k).
+    let rounded: f64 = format!("{mant:.decimals$}").parse().unwrap_or(mant);
+    if rounded.abs() >= 1000.0 && exp < 9 {
+        exp += 3;
+        mant = v / 10f64.powi(exp);
+    }
+    let decimals = decimals_for(mant);
+    let mut s = format!("{mant:.decimals$}");
+    if s.contains('.') {
+        s = s.trim_end_matches('0').trim_end_matches('.').to_string();
+    }
+    if s == "-0" {
+        s = "0".into();
+    }
+    let s = s.replace('-', "−");
+    format!("{s} {}{unit}", shown_prefix(exp))
+        .trim_end()
+        .to_string()
+}
+
+/// [`eng_sig`] with three significant figures.
+pub fn eng(v: f64, unit: &str) -> String {
+    eng_sig(v, unit, 3)
+}
+
+/// `v` in engineering notation with every digit it needs to read back
+/// exactly (`1.7060570312820633e-5` with `H` is `17.060570312820633 µH`),
+/// for messages that quote a value. Beyond femto to giga, and without a
+/// unit that takes prefixes, the plain shortest form (`1e-18 A`).
+pub fn eng_exact(v: f64, unit: Unit) -> String {
+    let symbol = unit.display_symbol();
+    let text = if unit.takes_prefix() {
+        exact_engineering_text(v, "")
+    } else {
+        None
+    };
+    let number = match text {
+        Some(t) => {
+            // Split the trailing prefix letter (if any) off the digits.
+            let cut = t
+                .char_indices()
+                .rev()
+                .find(|(_, c)| c.is_ascii_digit() || *c == '.')
+                .map_or(0, |(i, c)| i + c.len_utf8());
+            let (digits, prefix) = t.split_at(cut);
+            let prefix = if prefix == "u" { "µ" } else { prefix };
+            format!("{digits} {prefix}{symbol}")
+        }
+        None => format!("{} {symbol}", plain_number(v)),
+    };
+    let number = number.trim_end();
+    match number.strip_prefix('-') {
+        Some(rest) => format!("−{rest}"),
+        None => number.to_string(),
+    }
+}
+
+/// A number without a prefix in its shortest exact form: decimal between
+/// 1e-4 and 1e6, else scientific (`1e-18`).
+pub fn plain_number(v: f64) -> String {
+    if v == 0.0 {
+        return "0".into();
+    }
+    if (1e-4..1e6).contains(&v.abs()) {
+        format!("{v}")
+    } else {
+        format!("{v:e}")
+    }
+}
+
+/// A number with at most `sig` significant figures, trailing zeros
+/// dropped, no prefix (`7.000000000000001` with 4 is `7`; 0.0123 is
+/// `0.0123`): for percentages and ratios shown to people.
+pub fn short_number(v: f64, sig: usize) -> String {
+    if !v.is_finite() {
+        return "n/a".into();
+    }
+    if v == 0.0 {
+        return "0".into();
+    }
+    let mag = v.abs().log10().floor() as i32;
+    if !(-4..=9).contains(&mag) {
+        return format!("{:.*e}", sig.saturating_sub(1), v);
+    }
+    let decimals = (sig as i32 - 1 - mag).max(0) as usize;
+    let mut s = format!("{v:.decimals$}");
+    if s.contains('.') {
+        s = s.trim_end_matches('0').trim_end_matches('.').to_string();
+    }
+    s
+}
+
+/// Relative size below which a value shown beside others of the same
+/// quantity is round-off and is shown as 0: one millionth of the
+/// quantity's scale (the largest magnitude of that quantity in the same
+/// output: the LED current's maximum for its minimum, the inductor peak for
+/// its valley, 1 for a contraction factor).
+pub const DISPLAY_ZERO_FRACTION: f64 = 1e-6;
+
+/// `v`, or 0 when its magnitude is below [`DISPLAY_ZERO_FRACTION`] of
+/// `scale` (for display only; results keep every digit).
+pub fn zero_if_round_off(v: f64, scale: f64) -> f64 {
+    if v.is_finite() && v.abs() < DISPLAY_ZERO_FRACTION * scale.abs() {
+        0.0
+    } else {
+        v
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -423,6 +601,28 @@ mod tests {
             }
             x *= 3.7;
         }
+    }
+
+    #[test]
+    fn numbers_for_people() {
+        assert_eq!(eng(1.0213, "A"), "1.02 A");
+        assert_eq!(eng(-0.0123, "A"), "−12.3 mA");
+        assert_eq!(eng_sig(1.7060570312820633e-5, "H", 5), "17.061 µH");
+        assert_eq!(
+            eng_exact(1.7060570312820633e-5, Unit::Henry),
+            "17.060570312820633 µH"
+        );
+        assert_eq!(eng_exact(6.8e-5, Unit::Henry), "68 µH");
+        assert_eq!(eng_exact(-0.5, Unit::Ohm), "−500 mΩ");
+        assert_eq!(eng_exact(1e-18, Unit::Ampere), "1e-18 A");
+        assert_eq!(eng_exact(85.0, Unit::Celsius), "85 °C");
+        assert_eq!(eng_exact(0.45, Unit::Ratio), "0.45");
+        assert_eq!(short_number(100.0 * 0.07, 4), "7");
+        assert_eq!(short_number(2.7001860, 3), "2.7");
+        assert_eq!(short_number(0.012345, 3), "0.0123");
+        // Round-off next to its scale is zero; a real small value is kept.
+        assert!(zero_if_round_off(-0.763e-12, 0.542).abs() < f64::MIN_POSITIVE);
+        assert!((zero_if_round_off(2e-6, 1.0) - 2e-6).abs() < 1e-20);
     }
 
     #[test]

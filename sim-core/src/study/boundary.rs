@@ -104,7 +104,9 @@ impl Searcher<'_> {
                 self.path,
                 self.trials.len(),
                 self.bracket.map_or(String::new(), |(a, b)| format!(
-                    ", bracket so far {a:e} to {b:e}"
+                    ", bracket so far {} to {}",
+                    show(a, self.path),
+                    show(b, self.path)
                 ))
             )));
         }
@@ -112,7 +114,7 @@ impl Searcher<'_> {
         sets.push((self.path.to_string(), x));
         let s = scenario_with(&self.base, &sets).map_err(|e| StudyError::Boundary {
             path: self.path.into(),
-            reason: format!("at {x:e}: {e}"),
+            reason: format!("at {}: {e}", show(x, self.path)),
         })?;
         let near = if self.settings.run.warm_start {
             self.known
@@ -137,7 +139,7 @@ impl Searcher<'_> {
         }
         .map_err(|e| StudyError::Boundary {
             path: self.path.into(),
-            reason: format!("the run at {x:e} failed: {e}"),
+            reason: format!("the run at {} failed: {e}", show(x, self.path)),
         })?;
         let g = signed_margin(&r.metrics);
         self.known.push((x, r.steady.state_at_turn_on));
@@ -178,9 +180,13 @@ pub fn find_boundary(
         return Err(StudyError::Boundary {
             path: path.into(),
             reason: format!(
-                "no crossing between {low:e} and {high:e}: both ends are {} (signed margins \
-                 {fa:.4} and {fb:.4}); widen the bracket",
-                words(fa)
+                "no crossing between {} and {}: both ends are {} (signed margins \
+                 {} and {}); widen the bracket",
+                show(low, path),
+                show(high, path),
+                words(fa),
+                crate::units::short_number(fa, 4),
+                crate::units::short_number(fb, 4)
             ),
         });
     }
@@ -197,8 +203,11 @@ pub fn find_boundary(
             return Err(StudyError::Boundary {
                 path: path.into(),
                 reason: format!(
-                    "not narrowed to {:e} within {} runs (bracket {a:e} to {b:e})",
-                    settings.rel_tol, settings.max_runs
+                    "not narrowed to {} % within {} runs (bracket {} to {})",
+                    crate::units::short_number(100.0 * settings.rel_tol, 3),
+                    settings.max_runs,
+                    show(a, path),
+                    show(b, path)
                 ),
             });
         }
@@ -287,4 +296,10 @@ pub fn boundary_curve(
             (v, find_boundary(s, path, low, high, &fixed, settings))
         })
         .collect()
+}
+
+/// A value of the field at `path` for a message, in engineering notation
+/// with every digit (`17.060570312820633 µH`).
+fn show(v: f64, path: &str) -> String {
+    crate::units::eng_exact(v, super::vary::unit_of(path))
 }

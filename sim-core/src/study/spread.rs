@@ -24,7 +24,7 @@ use crate::error::FieldProblem;
 use crate::scenario::de_quantity;
 use crate::scenario::{Load, Scenario};
 use crate::simulate::{simulate, RunOptions};
-use crate::units::{thermal_voltage_v, Unit};
+use crate::units::{eng_exact, eng_sig, short_number, thermal_voltage_v, Unit};
 use rand_chacha::rand_core::{RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde::de::Deserializer;
@@ -140,7 +140,11 @@ impl SpecLimits {
         let mut v: Vec<(String, RowTest<'_>)> = Vec::new();
         if let (Some(pct), Some(t)) = (self.current_within_pct, self.target_current_a) {
             v.push((
-                format!("LED current within ±{pct} % of {} A", sig4(t)),
+                format!(
+                    "LED current within ±{} % of {}",
+                    short_number(pct, 4),
+                    eng_sig(t, "A", 4)
+                ),
                 Box::new(move |r| {
                     r.metric("led_current_avg_a")
                         .is_some_and(|i| (i - t).abs() <= pct / 100.0 * t)
@@ -149,7 +153,7 @@ impl SpecLimits {
         }
         if let Some(max) = self.max_ripple_pct {
             v.push((
-                format!("LED ripple at most {max} %"),
+                format!("LED ripple at most {} %", short_number(max, 4)),
                 Box::new(move |r| r.metric("led_current_ripple_pct").is_some_and(|x| x <= max)),
             ));
         }
@@ -161,21 +165,12 @@ impl SpecLimits {
         }
         if let Some(min) = self.min_efficiency {
             v.push((
-                format!("efficiency at least {} %", 100.0 * min),
+                format!("efficiency at least {} %", short_number(100.0 * min, 4)),
                 Box::new(move |r| r.metric("efficiency").is_some_and(|x| x >= min)),
             ));
         }
         v
     }
-}
-
-/// A number with four significant figures, for limit labels.
-fn sig4(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
-        return v.to_string();
-    }
-    let d = (3 - v.abs().log10().floor() as i32).clamp(0, 15) as usize;
-    format!("{v:.d$}")
 }
 
 // ---------------------------------------------------------------------------
@@ -404,18 +399,25 @@ impl Param {
             Distribution::Normal => "normal, 3σ at the tolerance",
         };
         match &self.kind {
-            ParamKind::Field { nominal, .. } => format!(
-                "{}: nominal {nominal:e}, ±{} % {dist}",
+            ParamKind::Field { nominal, path } => format!(
+                "{}: nominal {}, ±{} % {dist}",
                 self.name,
-                100.0 * self.tolerance
+                eng_exact(*nominal, super::vary::unit_of(path)),
+                short_number(100.0 * self.tolerance, 4)
             ),
             ParamKind::LedVoltage { at_current_a } => format!(
-                "{}: LED forward voltage at {at_current_a:e} A, ±{} % {dist}",
+                "{}: LED forward voltage at {}, ±{} % {dist}",
                 self.name,
-                100.0 * self.tolerance
+                eng_exact(*at_current_a, Unit::Ampere),
+                short_number(100.0 * self.tolerance, 4)
             ),
             ParamKind::Supply { min_v, max_v } => {
-                format!("{}: uniform over {min_v:e} V to {max_v:e} V", self.name)
+                format!(
+                    "{}: uniform over {} to {}",
+                    self.name,
+                    eng_exact(*min_v, Unit::Volt),
+                    eng_exact(*max_v, Unit::Volt)
+                )
             }
         }
     }
