@@ -754,3 +754,44 @@ mod inductance_tests {
         assert!((c.seg_h[c.segments - 1] - 30e-6).abs() < 1e-18);
     }
 }
+
+#[cfg(test)]
+mod junction_law_tests {
+    use super::*;
+
+    #[test]
+    fn saturation_current_follows_the_law_by_hand() {
+        let law = JunctionLaw {
+            reference_temperature_c: 25.0,
+            bandgap_ev: 1.11,
+            is_temp_exponent: 3.0,
+        };
+        // At the reference temperature nothing moves.
+        let is0 = 1e-14;
+        assert!((law.saturation_current_a(is0, 1.0, 25.0) / is0 - 1.0).abs() < 1e-15);
+        // Silicon, n = 1, 25 → 125 °C by hand (Sze's law; CODATA 2018
+        // k/q = 8.617333262e-5 V/K): (398.15/298.15)^3 ·
+        // exp(1.11/8.617333262e-5 · (1/298.15 − 1/398.15)).
+        let by_hand = (398.15_f64 / 298.15).powi(3)
+            * (1.11_f64 / 8.617_333_262e-5 * (1.0 / 298.15 - 1.0 / 398.15)).exp();
+        let got = law.saturation_current_a(is0, 1.0, 125.0) / is0;
+        assert!((got / by_hand - 1.0).abs() < 1e-9, "{got} vs {by_hand}");
+        // About 5 decades (from memory: Is roughly doubles every 6–7 K).
+        assert!((1e4..1e6).contains(&got), "{got}");
+    }
+
+    #[test]
+    fn derived_band_gap_reproduces_the_given_coefficient() {
+        let (is0, n, xti, i) = (1e-18, 2.2, 3.0, 0.35);
+        let eg = bandgap_from_tempco_ev(is0, n, 25.0, xti, -2e-3, i);
+        let law = JunctionLaw {
+            reference_temperature_c: 25.0,
+            bandgap_ev: eg,
+            is_temp_exponent: xti,
+        };
+        let v =
+            |t: f64| n * thermal_voltage_v(t) * (i / law.saturation_current_a(is0, n, t)).ln_1p();
+        let dv = (v(25.01) - v(24.99)) / 0.02;
+        assert!((dv + 2e-3).abs() < 1e-8, "{dv}");
+    }
+}
