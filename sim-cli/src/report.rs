@@ -307,9 +307,19 @@ impl Report {
         }
 
         let _ = writeln!(o, "\n  {:<24}{:>10}{:>10}", "part stresses", "peak", "RMS");
+        // The table's current scale: its largest current.
+        let amp_scale = m
+            .inductor_current_peak_a
+            .abs()
+            .max(self.switch_current_peak_a.abs())
+            .max(self.diode_current_peak_a.abs());
         let stress = |o: &mut String, name: &str, peak: Option<f64>, rms: f64| {
-            let p = peak.map_or("—".to_string(), |p| eng(p, "A"));
-            let _ = writeln!(o, "  {name:<24}{p:>10}{:>10}", eng(rms, "A"));
+            let p = peak.map_or("—".to_string(), |p| eng_scaled(p, "A", amp_scale));
+            let _ = writeln!(
+                o,
+                "  {name:<24}{p:>10}{:>10}",
+                eng_scaled(rms, "A", amp_scale)
+            );
         };
         stress(
             &mut o,
@@ -377,7 +387,7 @@ impl Report {
                     eng(c.nominal_f, "F"),
                     eng(c.effective_f, "F"),
                     eng(c.average_v, "V"),
-                    eng(c.ripple_rms_a, "A")
+                    eng_scaled(c.ripple_rms_a, "A", amp_scale)
                 );
             }
         }

@@ -407,8 +407,7 @@ fn print_sweep(t: &StudyTable) {
     for r in t.rows.iter().take(ROWS_SHOWN) {
         let mut line = String::new();
         for (k, p) in m.inputs.iter().enumerate() {
-            let u = study_unit(p);
-            line.push_str(&format!("{:>24} ", eng(r.input(k), u)));
+            line.push_str(&format!("{:>24} ", value_of(r.input(k), p, 3)));
         }
         if r.ok() {
             let g = |n: &str| r.metric(n).unwrap_or(f64::NAN);
@@ -441,13 +440,15 @@ fn print_sweep(t: &StudyTable) {
     );
 }
 
-fn study_unit(path: &str) -> &'static str {
-    use sim_core::units::Unit;
+/// A value of the field at `path` for people: engineering notation with
+/// the field's unit (`68 µH`), plain figures for ratios (`0.45`, never
+/// `450 m`) and degrees Celsius (`85 °C`).
+fn value_of(v: f64, path: &str, sig: usize) -> String {
+    use sim_core::units::{short_number, Unit};
     match sim_core::study::vary::unit_of(path) {
-        Unit::Ratio => "",
-        Unit::Ohm => "Ω",
-        Unit::Celsius => "°C",
-        u => u.symbol(),
+        Unit::Ratio => short_number(v, sig.max(3)),
+        Unit::Celsius => format!("{} °C", short_number(v, sig.max(3))),
+        u => crate::format::eng_sig(v, u.display_symbol(), sig),
     }
 }
 
@@ -955,8 +956,8 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     // cannot cost them).
     let mut text = format!(
         "CCM/DCM boundary along {path} ({} to {}) across {}:\n",
-        eng(lo, study_unit(&path)),
-        eng(hi, study_unit(&path)),
+        value_of(lo, &path, 3),
+        value_of(hi, &path, 3),
         across.path
     );
     for (v, r) in &curve {
@@ -965,9 +966,9 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
                 pts.push((b.value, *v));
                 text.push_str(&format!(
                     "  {:>12}: boundary {:>12}   nominal {} on the {} side, {:.1} % away\n",
-                    eng(*v, study_unit(&across.path)),
-                    eng(b.value, study_unit(&path)),
-                    eng(b.nominal, study_unit(&path)),
+                    value_of(*v, &across.path, 3),
+                    value_of(b.value, &path, 3),
+                    value_of(b.nominal, &path, 3),
                     if b.nominal_ccm { "CCM" } else { "DCM" },
                     b.margin_pct
                 ));
@@ -979,7 +980,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
                 }
                 text.push_str(&format!(
                     "  {:>12}: {e}\n",
-                    eng(*v, study_unit(&across.path))
+                    value_of(*v, &across.path, 3)
                 ));
             }
         }
@@ -1080,13 +1081,13 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
 }
 
 fn print_boundary(s: &Scenario, b: &Boundary) {
-    let u = study_unit(&b.path);
+    let u = |v: f64| value_of(v, &b.path, 5);
     println!("CCM/DCM boundary of `{}` along {}:", s.name, b.path);
     println!(
         "  boundary   {}   (bracket {} to {}, width {:.3} % of the value, {} runs)",
-        crate::format::eng_sig(b.value, u, 5),
-        crate::format::eng_sig(b.bracket.0, u, 5),
-        crate::format::eng_sig(b.bracket.1, u, 5),
+        u(b.value),
+        u(b.bracket.0),
+        u(b.bracket.1),
         100.0 * (b.bracket.1 - b.bracket.0) / b.value.abs(),
         b.runs
     );
@@ -1097,7 +1098,7 @@ fn print_boundary(s: &Scenario, b: &Boundary) {
     );
     println!(
         "  nominal    {} is on the {} side, {:.2} % of the nominal from the boundary",
-        eng(b.nominal, u),
+        value_of(b.nominal, &b.path, 3),
         if b.nominal_ccm { "CCM" } else { "DCM" },
         b.margin_pct
     );

@@ -190,3 +190,33 @@ fn range_errors_quote_engineering_notation() {
     assert_eq!(has_raw_scientific(&err), None, "{err}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// A swept ratio (duty) is shown as the plain number the user wrote
+/// (`0.3`), not with a prefix (`300 m`); every figure in engineering
+/// notation.
+#[test]
+fn sweep_of_a_ratio_shows_plain_numbers() {
+    let dir = scratch("sweep");
+    let o = run(&[
+        "sweep",
+        &scenario("cove-light-fixed-duty.json"),
+        "--vary",
+        "controller.duty=0.3:0.6:4",
+        "--no-plots",
+        "-q",
+        "--out",
+        dir.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert_eq!(has_raw_scientific(&out), None, "{out}");
+    for v in ["0.3", "0.4", "0.5", "0.6"] {
+        assert!(
+            out.lines()
+                .any(|l| l.trim_start().starts_with(&format!("{v} "))),
+            "{v} missing: {out}"
+        );
+    }
+    assert!(!out.contains(" m "), "{out}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

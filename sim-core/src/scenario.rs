@@ -2263,7 +2263,9 @@ pub fn template_with_parts() -> Scenario {
             distribution: Distribution::Normal,
             at_current_a: Some(0.7),
         }),
-        supply_over_range: true,
+        // Set true to draw the supply over `supply.input_range_v` too
+        // (false here so the starter stays valid without its range).
+        supply_over_range: false,
     });
     s.spec = Some(SpecLimits {
         target_current_a: Some(0.7),

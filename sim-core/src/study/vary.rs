@@ -40,6 +40,8 @@ pub fn unit_of(path: &str) -> Unit {
         "f" => Unit::Farad,
         "s" => Unit::Second,
         "hz" => Unit::Hertz,
+        // `_c` is a charge in coulombs (`gate_charge_c`) or a temperature.
+        "c" if last.contains("charge") => Unit::Coulomb,
         "c" => Unit::Celsius,
         _ => Unit::Ratio,
     }
@@ -270,6 +272,18 @@ impl Grid {
 mod tests {
     use super::*;
     use crate::scenario::template;
+
+    /// A charge ending in `_c` is in coulombs, a temperature in °C.
+    #[test]
+    fn charges_and_temperatures_have_their_units() {
+        assert_eq!(unit_of("parts.switch.gate_charge_c"), Unit::Coulomb);
+        assert_eq!(
+            unit_of("parts.diode.reverse_recovery_charge_c"),
+            Unit::Coulomb
+        );
+        assert_eq!(unit_of("parts.ambient_temperature_c"), Unit::Celsius);
+        assert_eq!(unit_of("load.junction_temperature_c"), Unit::Celsius);
+    }
 
     #[test]
     fn forms_parse() {
