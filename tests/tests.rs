@@ -2,6 +2,7 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod fit_accuracy;
 mod parts;
 mod properties;
 mod reference;
