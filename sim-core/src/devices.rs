@@ -306,18 +306,23 @@ impl PwlCurve {
     }
 
     /// Largest |PWL − exact| voltage over currents `lo_a..hi_a`, sampled at
-    /// 64 points per segment span, V.
+    /// 64 points per segment span and at every breakpoint inside (where
+    /// the raised chords err the most), V.
     pub fn max_error_v(&self, dev: &ExpDevice, lo_a: f64, hi_a: f64) -> f64 {
         if hi_a.partial_cmp(&lo_a) != Some(std::cmp::Ordering::Greater) {
             return (self.voltage_v(hi_a) - dev.voltage_v(hi_a)).abs();
         }
         let n = 64 * self.segments;
+        let err = |i: f64| (self.voltage_v(i) - dev.voltage_v(i)).abs();
+        // The breakpoints inside, where the raised chords err the most.
+        let at_breaks = self.upper_a[..self.segments.saturating_sub(1)]
+            .iter()
+            .filter(|&&b| b > lo_a && b < hi_a)
+            .map(|&b| err(b))
+            .fold(0.0, f64::max);
         (0..=n)
-            .map(|j| {
-                let i = lo_a + (hi_a - lo_a) * j as f64 / n as f64;
-                (self.voltage_v(i) - dev.voltage_v(i)).abs()
-            })
-            .fold(0.0, f64::max)
+            .map(|j| err(lo_a + (hi_a - lo_a) * j as f64 / n as f64))
+            .fold(at_breaks, f64::max)
     }
 }
 
