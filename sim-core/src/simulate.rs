@@ -330,12 +330,12 @@ fn exact_fit_report(e: &ExactEngine, _s: &Scenario, m: &Metrics) -> FitReport {
     let c = &e.circuit;
     let led_err = c.led_exact.map(|d: ExpDevice| {
         let hi = m.led_current_max_a;
-        let lo = m.led_current_min_a.max(c.led.bound_from_a);
+        let lo = bounded_from(&c.led, m.led_current_min_a);
         c.led.max_error_v(&d, lo, hi)
     });
     let diode_err = c.diode_exact.map(|d: ExpDevice| {
         let hi = m.inductor_current_peak_a;
-        let lo = m.inductor_current_valley_a.max(c.diode.bound_from_a);
+        let lo = bounded_from(&c.diode, m.inductor_current_valley_a);
         c.diode.max_error_v(&d, lo, hi)
     });
     FitReport {
@@ -347,6 +347,17 @@ fn exact_fit_report(e: &ExactEngine, _s: &Scenario, m: &Metrics) -> FitReport {
         diode_fit_range_a: c
             .diode_exact
             .map(|_| (c.diode.bound_from_a, c.diode.range_a.1)),
+    }
+}
+
+/// The lowest current a fit's error is reported from: the lowest
+/// visited, or the top of the tail segment when the fit has one (below
+/// it the tail is fitted by its mean, not within the tolerance).
+fn bounded_from(curve: &crate::devices::PwlCurve, lowest_a: f64) -> f64 {
+    if curve.bound_from_a > curve.range_a.0 {
+        lowest_a.max(curve.bound_from_a)
+    } else {
+        lowest_a.max(0.0)
     }
 }
 
