@@ -4,6 +4,7 @@
 mod bad_input;
 mod part_checks;
 mod junction_temperature;
+mod fit_accuracy;
 mod parts;
 mod properties;
 mod readme;

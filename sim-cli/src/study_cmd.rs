@@ -90,7 +90,7 @@ pub struct BoundaryArgs {
     #[arg(long = "vary", value_name = "PATH=LOW:HIGH", required = true)]
     vary: Vec<String>,
     /// Width of the final bracket, % of the boundary value.
-    #[arg(long, value_name = "PCT", default_value_t = 0.02)]
+    #[arg(long, value_name = "PCT", default_value_t = 0.005)]
     tolerance_pct: f64,
     /// Points along the searched variable in the mode map behind a
     /// traced boundary (2-D only).

@@ -20,6 +20,17 @@ fn main() {
         min_on_time_s: 0.0,
     };
     variants.push(("dcm", dcm));
+    // Each design also at the earlier defaults (1 mV, at most 24
+    // segments), in the same run, for a before/after ratio.
+    let variants: Vec<_> = variants
+        .into_iter()
+        .flat_map(|(name, s)| {
+            let mut before = s.clone();
+            before.simulation.curve_tolerance_v = 1e-3;
+            before.simulation.curve_segments = 24;
+            [(name.to_string(), s), (format!("{name} @1mV/24"), before)]
+        })
+        .collect();
     for (name, s) in variants {
         let mut e = ExactEngine::new(&s);
         for _ in 0..100 {

@@ -153,6 +153,13 @@ pub struct Circuit {
     pub diode_exact: Option<ExpDevice>,
     /// Exact LED curve, when the load is exponential.
     pub led_exact: Option<ExpDevice>,
+    /// Voltage the LED string holds while the inductor rests with no
+    /// output capacitor, V: the knee of a straight-line load; for an
+    /// exponential string the exact curve's voltage at the current floor
+    /// below which it is taken to block (the reference engine's
+    /// [`crate::reference::DIODE_FLOOR_REL`] of the current scale), not
+    /// the fit's knee, which moves with the fit.
+    pub led_idle_v: f64,
 }
 
 /// The sense resistance `(in series with the LED string, in series with
@@ -255,6 +262,12 @@ impl Circuit {
             diode,
             led,
             diode_exact,
+            led_idle_v: match led_exact {
+                Some(d) => d.voltage_v(
+                    crate::reference::DIODE_FLOOR_REL * crate::simulate::state_scales(s)[0],
+                ),
+                None => led.knee_v(),
+            },
             led_exact,
         }
     }
@@ -354,7 +367,7 @@ impl Circuit {
                 let vo = self.led.v0_v[k] * one + self.led.r_ohm[k] * il;
                 (vo, il, 0.0)
             }
-            (None, None) => (self.led.knee_v() * one, 0.0, 0.0),
+            (None, None) => (self.led_idle_v * one, 0.0, 0.0),
             (Some((_, esr)), None) => {
                 let vo = x[X_VCO] + esr * il;
                 (vo, 0.0, il)

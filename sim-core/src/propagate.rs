@@ -377,6 +377,18 @@ pub fn first_event(
             };
         }
     }
+    // An event at zero to round-off and not due (falling: typically the
+    // boundary a segment event just crossed, seen from the new segment)
+    // counts as a hair below zero, so that dipping below and coming back
+    // up inside the first step is still a crossing. Left at its round-off
+    // value, a hair above zero, neither end of that step would be below
+    // zero and the return would pass unseen (found on a capacitor's LED
+    // current turning just past a chord boundary).
+    for j in 0..n {
+        if h_a[j] >= 0.0 && h_a[j] <= 1e-12 * events[j].magnitude(&z_a) {
+            h_a[j] = -f64::MIN_POSITIVE;
+        }
+    }
     // Step cap after a suspected double crossing, and retries at this point.
     let mut cap = f64::INFINITY;
     let mut retries = 0u32;
@@ -823,6 +835,41 @@ mod tests {
             "{}",
             r.t
         );
+    }
+
+    #[test]
+    fn a_return_through_zero_from_a_hair_above_is_found() {
+        // i' = v, v' = k: i = i0 + v0·t + k·t²/2 leaves i0 falling and
+        // comes back up through it at t = −2·v0/k. The event i − i0 starts
+        // a round-off hair above zero (as just after the opposite event
+        // on the same boundary fired) and must fire on the return, even
+        // when one step spans the whole dip.
+        let (i0, v0, k) = (0.5622, -2.0e3, 1.0e10);
+        let mut m = AugMatrix::zeros();
+        m[(0, 1)] = 1.0;
+        m[(1, 3)] = k;
+        let z0 = Aug::new(i0, v0, 0.0, 1.0);
+        let mut row = Row::zeros();
+        row[0] = 1.0;
+        row[3] = -i0 * (1.0 - 4.0 * f64::EPSILON);
+        assert!(row[0] * i0 + row[3] > 0.0);
+        let ev = EventFn::new(row, &m);
+        let mut work = WorkCounts::default();
+        let flow = Flow {
+            timer: None,
+            m: &m,
+            spectral: None,
+        };
+        let start = ScanStart {
+            due: true,
+            threshold: None,
+            last_fired: &[],
+        };
+        let t_back = -2.0 * v0 / k;
+        let r = first_event(&flow, &z0, &[ev], start, 1.0, 1.0, &mut work);
+        assert_eq!(r.event, Some(0), "the return at {t_back:e} s was missed");
+        // Accepted a hair past the root (within a few 1e-9 of the step).
+        assert!((r.t - t_back).abs() < 1e-8 * t_back, "{} vs {t_back}", r.t);
     }
 
     #[test]

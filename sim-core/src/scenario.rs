@@ -403,8 +403,13 @@ impl Default for SimSettings {
             max_time_s: 10.0,
             record_cycles: 4,
             record_startup: false,
-            curve_segments: 24,
-            curve_tolerance_v: 1e-3,
+            // Enough segments that the tolerance, not the cap, sets the
+            // fit (a DCM string's range down to zero takes 20 to 50).
+            curve_segments: crate::devices::MAX_SEGMENTS as u32,
+            // 0.5 mV: every figure within 1e-4 of the exact exponential
+            // curves on the DCM cross-checks (1 mV left a Schottky
+            // diode's conduction loss 1.3e-4 off; see tests/reference.rs).
+            curve_tolerance_v: 5e-4,
             samples_per_interval: 24,
             max_interval_s: 10e-3,
             steady_state_method: crate::shooting::SteadyMethod::Shooting,

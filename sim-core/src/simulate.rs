@@ -178,7 +178,10 @@ pub struct SteadyInfo {
 }
 
 /// Worst-case error of the straight-segment curves against the exact
-/// exponential curves over the currents visited (down to 1 % of the peak).
+/// exponential curves over the currents visited, down to the bottom of
+/// the range each fit bounds (1 % of its top when the current falls to
+/// zero: the tail segment below is fitted by its mean, see
+/// [`crate::devices::PwlCurve::fit`]).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct FitReport {
     /// LED string, V (None: the load is already linear).
@@ -189,6 +192,12 @@ pub struct FitReport {
     pub led_segments: usize,
     /// Segments in the diode curve.
     pub diode_segments: usize,
+    /// Currents over which the LED fit's error bound holds, A (None: the
+    /// load is already linear).
+    pub led_fit_range_a: Option<(f64, f64)>,
+    /// Currents over which the diode fit's error bound holds, A (None:
+    /// the diode is already linear).
+    pub diode_fit_range_a: Option<(f64, f64)>,
 }
 
 /// Everything one run produces.
@@ -248,7 +257,28 @@ pub fn simulate_with_progress(
             let mut head = exact_head_start(&mut e, s, opts)?;
             head.record_startup = s.simulation.record_startup && inline_startup;
             let mut r = drive_with(&mut e, s, EngineKind::Exact, head, progress)?;
+            // The measured cycles find every extreme exactly; a fit that
+            // missed one (a turning point the settling cycles' estimate
+            // fell short of) is re-made to cover it, and the steady state
+            // found and measured again with it.
+            for _ in 0..MAX_COVER_ROUNDS {
+                let Some((led, diode)) = uncovered_currents(&e.circuit, &r.metrics) else {
+                    break;
+                };
+                e.cover_currents(led, diode);
+                let again = RunOptions {
+                    initial_state: Some(e.state_array()),
+                    ..*opts
+                };
+                let mut head = exact_head_start(&mut e, s, &again)?;
+                head.record_startup = false;
+                let startup = r.startup.take();
+                r = drive_with(&mut e, s, EngineKind::Exact, head, progress)?;
+                r.startup = startup;
+            }
             r.fit = exact_fit_report(&e, s, &r.metrics);
+            fit_warnings(s, &r.fit, &mut r.warnings);
+            exact_device_voltages(&e.circuit, &mut r.metrics);
             r
         }
         EngineKind::Reference => {
@@ -300,12 +330,12 @@ fn exact_fit_report(e: &ExactEngine, _s: &Scenario, m: &Metrics) -> FitReport {
     let c = &e.circuit;
     let led_err = c.led_exact.map(|d: ExpDevice| {
         let hi = m.led_current_max_a;
-        let lo = m.led_current_min_a.max(0.01 * hi);
+        let lo = bounded_from(&c.led, m.led_current_min_a);
         c.led.max_error_v(&d, lo, hi)
     });
     let diode_err = c.diode_exact.map(|d: ExpDevice| {
         let hi = m.inductor_current_peak_a;
-        let lo = m.inductor_current_valley_a.max(0.01 * hi);
+        let lo = bounded_from(&c.diode, m.inductor_current_valley_a);
         c.diode.max_error_v(&d, lo, hi)
     });
     FitReport {
@@ -313,6 +343,87 @@ fn exact_fit_report(e: &ExactEngine, _s: &Scenario, m: &Metrics) -> FitReport {
         diode_max_error_v: diode_err,
         led_segments: c.led.segments,
         diode_segments: c.diode.segments,
+        led_fit_range_a: c.led_exact.map(|_| (c.led.bound_from_a, c.led.range_a.1)),
+        diode_fit_range_a: c
+            .diode_exact
+            .map(|_| (c.diode.bound_from_a, c.diode.range_a.1)),
+    }
+}
+
+/// The lowest current a fit's error is reported from: the lowest
+/// visited, or the top of the tail segment when the fit has one (below
+/// it the tail is fitted by its mean, not within the tolerance).
+fn bounded_from(curve: &crate::devices::PwlCurve, lowest_a: f64) -> f64 {
+    if curve.bound_from_a > curve.range_a.0 {
+        lowest_a.max(curve.bound_from_a)
+    } else {
+        lowest_a.max(0.0)
+    }
+}
+
+/// Times the exact engine re-fits its curves to currents the measured
+/// cycles visited outside them (each round covers what the last missed;
+/// one is the rule).
+const MAX_COVER_ROUNDS: usize = 3;
+
+/// The LED and diode current ranges (A) the measured cycles visited, when
+/// one of them lies outside the range its fit was made for.
+fn uncovered_currents(
+    c: &crate::circuit::Circuit,
+    m: &Metrics,
+) -> Option<((f64, f64), (f64, f64))> {
+    let led = (m.led_current_min_a.max(0.0), m.led_current_max_a);
+    let diode = (
+        m.inductor_current_valley_a.max(0.0),
+        m.inductor_current_peak_a,
+    );
+    let outside = |r: (f64, f64), fit: (f64, f64)| r.1 > 0.0 && (r.0 < fit.0 || r.1 > fit.1);
+    let miss = (c.led_exact.is_some() && outside(led, c.led.range_a))
+        || (c.diode_exact.is_some() && outside(diode, c.diode.range_a));
+    miss.then_some((led, diode))
+}
+
+/// A warning when a fit's worst error exceeds the tolerance asked for
+/// (the segment limit was reached first).
+fn fit_warnings(s: &Scenario, fit: &FitReport, w: &mut Vec<String>) {
+    let tol = s.simulation.curve_tolerance_v;
+    for (what, err, segs) in [
+        ("LED", fit.led_max_error_v, fit.led_segments),
+        ("diode", fit.diode_max_error_v, fit.diode_segments),
+    ] {
+        if let Some(err) = err.filter(|&e| e > tol) {
+            w.push(format!(
+                "the {what} curve's straight-segment fit errs by up to {:.3} mV, more than \
+                 simulation.curve_tolerance_v = {:.3} mV, with all {segs} segments allowed: \
+                 raise simulation.curve_segments (at most {}) or loosen the tolerance",
+                err * 1e3,
+                tol * 1e3,
+                crate::devices::MAX_SEGMENTS
+            ));
+        }
+    }
+}
+
+/// Reads the device voltages at the current extremes off the exact
+/// exponential curves: the highest LED voltage (at the highest LED
+/// current: the curve rises with the current) and, when the lowest
+/// switch-node voltage is the diode's drop at the inductor peak, that
+/// drop. The fitted chords err by up to the fit tolerance at any one
+/// current (their error alternates ± with zero mean, so integrals are far
+/// closer); these figures are single points, so they take the exact
+/// curve's value at the point.
+fn exact_device_voltages(c: &crate::circuit::Circuit, m: &mut Metrics) {
+    if let Some(d) = c.led_exact {
+        if m.led_current_max_a > 0.0 {
+            m.led_voltage_max_v = d.voltage_v(m.led_current_max_a);
+        }
+    }
+    if let Some(d) = c.diode_exact {
+        let peak = m.inductor_current_peak_a;
+        let fitted = -c.diode.voltage_v(peak);
+        if peak > 0.0 && (m.switch_node_min_v - fitted).abs() <= 1e-9 * fitted.abs().max(1.0) {
+            m.switch_node_min_v = -d.voltage_v(peak);
+        }
     }
 }
 
@@ -571,6 +682,8 @@ fn measure<E: CycleEngine>(
             diode_max_error_v: None,
             led_segments: 1,
             diode_segments: 1,
+            led_fit_range_a: None,
+            diode_fit_range_a: None,
         },
         waveform,
         startup,
