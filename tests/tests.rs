@@ -2,9 +2,9 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
-mod part_checks;
-mod junction_temperature;
 mod fit_accuracy;
+mod junction_temperature;
+mod part_checks;
 mod parts;
 mod properties;
 mod readme;

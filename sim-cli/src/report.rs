@@ -271,11 +271,11 @@ impl Report {
         row(&mut o, "from the supply", eng(m.input_power_w, "W"));
         row(&mut o, "into the LEDs", eng(m.led_power_w, "W"));
         row(&mut o, "efficiency", pct(m.efficiency));
-        let _ = writeln!(o, "\n  {:<24}{:>10}{:>12}", "losses", "W", "% of input");
+        let _ = writeln!(o, "\n  {:<28}{:>10}{:>12}", "losses", "W", "% of input");
         for (name, w, p) in loss_rows(&m.losses_w, &self.losses_pct) {
             let _ = writeln!(
                 o,
-                "  {name:<24}{:>10}{:>10.2} %",
+                "  {name:<28}{:>10}{:>10.2} %",
                 eng_scaled(w, "W", m.input_power_w),
                 p
             );
@@ -286,7 +286,7 @@ impl Report {
             .sum();
         let _ = writeln!(
             o,
-            "  {:<24}{:>10}{:>10.2} %",
+            "  {:<28}{:>10}{:>10.2} %",
             "total",
             eng(m.total_loss_w, "W"),
             total_pct

@@ -978,10 +978,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
                 if matches!(e, StudyError::TimeLimit(_)) {
                     out_of_time += 1;
                 }
-                text.push_str(&format!(
-                    "  {:>12}: {e}\n",
-                    value_of(*v, &across.path, 3)
-                ));
+                text.push_str(&format!("  {:>12}: {e}\n", value_of(*v, &across.path, 3)));
             }
         }
     }

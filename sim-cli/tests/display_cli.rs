@@ -220,3 +220,45 @@ fn sweep_of_a_ratio_shows_plain_numbers() {
     assert!(!out.contains(" m "), "{out}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn loss_table_columns_line_up_for_every_row_name() {
+    // The template's parts give every part loss (gate, output and junction
+    // capacitance, recovery, core, quiescent); with a sense resistor every
+    // loss row of the table is printed. Every row's "%" must sit in the
+    // same column, however long the row's name.
+    let dir = scratch("loss-columns");
+    let f = dir.join("t.json");
+    std::fs::write(&f, run(&["template"]).stdout).unwrap();
+    let o = run(&[
+        "run",
+        "--no-startup",
+        f.to_str().unwrap(),
+        "--set",
+        "sense_resistor.resistance_ohm=0.1",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    let lines: Vec<&str> = out.lines().collect();
+    let head = lines
+        .iter()
+        .position(|l| l.trim_start().starts_with("losses") && l.contains("% of input"))
+        .expect("a loss table");
+    let col = |l: &str| l.chars().position(|c| c == '%');
+    let row_col = col(lines[head + 1]);
+    assert!(row_col.is_some(), "{out}");
+    let mut rows = 0;
+    for l in &lines[head + 1..] {
+        if l.trim().is_empty() || !l.contains('%') {
+            break;
+        }
+        assert_eq!(col(l), row_col, "misaligned: {l:?}\n{out}");
+        rows += 1;
+        if l.trim_start().starts_with("total") {
+            break;
+        }
+    }
+    assert!(rows >= 10, "only {rows} loss rows:\n{out}");
+    assert!(out.contains("diode junction capacitance"), "{out}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
