@@ -11,6 +11,7 @@ use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
 use crate::{load, output, parse_override, study_plot, EngineArg, Failure};
 use anyhow::{Context, Result};
 use indicatif::{ProgressBar, ProgressStyle};
+use rayon::prelude::*;
 use sim_core::simulate::SELV_LIMIT_V;
 use sim_core::study::boundary::{boundary_curve, find_boundary, Boundary, BoundarySettings};
 use sim_core::study::journal::{header_line, read_journal, row_line};
@@ -255,34 +256,41 @@ fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> 
         }
         (StudyKind::Sweep, _) => {
             let name = &t.manifest.scenario;
-            let mode = dir.join(format!("{base}-mode-map.png"));
-            study_plot::grid_map(
-                t,
-                study_plot::MapKind::Mode,
-                &format!("{name} — conduction mode over the grid"),
-                None,
-                &mode,
-            )
-            .context("mode map")?;
-            let ripple = dir.join(format!("{base}-ripple-map.png"));
-            study_plot::grid_map(
-                t,
-                study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
-                &format!("{name} — LED ripple (peak-to-peak, % of average)"),
-                None,
-                &ripple,
-            )
-            .context("ripple map")?;
-            let eff = dir.join(format!("{base}-efficiency-map.png"));
-            study_plot::grid_map(
-                t,
-                study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
-                &format!("{name} — efficiency (LED power over input power)"),
-                None,
-                &eff,
-            )
-            .context("efficiency map")?;
-            written.extend([mode, ripple, eff]);
+            // The maps are drawn and encoded in parallel.
+            let maps = [
+                (
+                    "mode-map",
+                    study_plot::MapKind::Mode,
+                    format!("{name} — conduction mode over the grid"),
+                ),
+                (
+                    "led-current-map",
+                    study_plot::MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
+                    format!("{name} — average LED current"),
+                ),
+                (
+                    "ripple-map",
+                    study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
+                    format!("{name} — peak-to-peak LED ripple relative to the average"),
+                ),
+                (
+                    "efficiency-map",
+                    study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
+                    format!("{name} — efficiency (LED power over input power)"),
+                ),
+            ];
+            let files: Vec<PathBuf> = maps
+                .iter()
+                .map(|(what, _, _)| dir.join(format!("{base}-{what}.png")))
+                .collect();
+            maps.par_iter()
+                .zip(files.par_iter())
+                .map(|((what, kind, title), file)| {
+                    study_plot::grid_map(t, *kind, title, None, file)
+                        .with_context(|| what.replace('-', " "))
+                })
+                .collect::<Result<Vec<()>>>()?;
+            written.extend(files);
         }
         _ => {
             let h = dir.join(format!("{base}-histograms.png"));

@@ -7,7 +7,7 @@
 use crate::format::eng;
 use crate::plot::{
     bold, de, font, render, tick, tick_decimals, wrap, Axis, GRID, GRID_MAJOR, HEIGHT, INDUCTOR,
-    INK, LED, LED_AVG, LEGEND_WIDTH, VLED, VSW, WIDTH,
+    INDUCTOR_LIGHT, INK, LED, LED_AVG, LEGEND_WIDTH, VLED, VSW, WIDTH,
 };
 use anyhow::Result;
 use plotters::coord::Shift;
@@ -48,10 +48,11 @@ fn unit_symbol(path: &str) -> &'static str {
 /// An axis title for a swept field with its prefixed unit.
 fn field_title(path: &str, axis: &Axis) -> String {
     let u = unit_symbol(path);
+    let name = crate::plot::field_name(path);
     if u.is_empty() && axis.prefix.is_empty() {
-        path.to_string()
+        name
     } else {
-        format!("{path} ({}{u})", axis.prefix)
+        format!("{name} ({}{u})", axis.prefix)
     }
 }
 
@@ -459,32 +460,25 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
         },
     ];
     let title = format!(
-        "{} — sweep of {path}: LED current and inductor stress",
-        t.manifest.scenario
+        "{} — {} sweep: LED current and inductor stress",
+        t.manifest.scenario,
+        crate::plot::field_name(&path)
     );
-    render(current, |root| {
-        draw_sweep(
-            root,
-            &title,
-            &subtitle(t),
-            &path,
-            &xs,
-            &modes,
-            &failed,
-            &panels,
-        )
-    })?;
+    let current_title = title;
+    let current_panels = panels;
     let panels = [
         SweepPanel {
             quantity: "Frequency".into(),
             unit: "Hz",
             prefixed: true,
-            curves: vec![Curve {
+            curves: std::iter::once(Curve {
                 label: "switching frequency".into(),
                 color: INDUCTOR,
                 dashed: false,
                 points: metric_points(t, "switching_frequency_hz", 1.0),
-            }],
+            })
+            .chain(frequency_limits(t))
+            .collect(),
             band: None,
         },
         SweepPanel {
@@ -513,21 +507,84 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
         },
     ];
     let title = format!(
-        "{} — sweep of {path}: frequency, duty, efficiency",
-        t.manifest.scenario
+        "{} — {} sweep: frequency, duty, efficiency",
+        t.manifest.scenario,
+        crate::plot::field_name(&path)
     );
-    render(operation, |root| {
-        draw_sweep(
-            root,
-            &title,
-            &subtitle(t),
-            &path,
-            &xs,
-            &modes,
-            &failed,
-            &panels,
-        )
-    })
+    // The two plots are drawn and encoded side by side.
+    let (a, b) = rayon::join(
+        || {
+            render(current, |root| {
+                draw_sweep(
+                    root,
+                    &current_title,
+                    &subtitle(t),
+                    &path,
+                    &xs,
+                    &modes,
+                    &failed,
+                    &current_panels,
+                )
+            })
+        },
+        || {
+            render(operation, |root| {
+                draw_sweep(
+                    root,
+                    &title,
+                    &subtitle(t),
+                    &path,
+                    &xs,
+                    &modes,
+                    &failed,
+                    &panels,
+                )
+            })
+        },
+    );
+    a.and(b)
+}
+
+/// Lowest frequency of the audible band, Hz: switching below it can be
+/// heard from the inductor and capacitors (common practice).
+pub const AUDIBLE_LIMIT_HZ: f64 = 20e3;
+
+/// The limit lines of the frequency panel: the audible limit, the
+/// controller's highest frequency and, from its shortest on-time, the
+/// highest frequency each point's duty allows (f = D / t_on,min).
+fn frequency_limits(t: &StudyTable) -> Vec<Curve> {
+    let xs: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
+    let flat = |v: f64| xs.iter().map(|&x| Some((x, v))).collect::<Vec<_>>();
+    let mut out = vec![Curve {
+        label: "20 kHz: audible below (common practice)".into(),
+        color: FAIL,
+        dashed: true,
+        points: flat(AUDIBLE_LIMIT_HZ),
+    }];
+    if let Some(f) = t.manifest.controller_max_frequency_hz {
+        out.push(Curve {
+            label: format!("controller maximum {}", eng(f, "Hz")),
+            color: INK,
+            dashed: true,
+            points: flat(f),
+        });
+    }
+    if let Some(ton) = t.manifest.controller_min_on_time_s.filter(|v| *v > 0.0) {
+        out.push(Curve {
+            label: format!(
+                "limit from the minimum on-time {} (duty / on-time)",
+                eng(ton, "s")
+            ),
+            color: INDUCTOR_LIGHT,
+            dashed: true,
+            points: t
+                .rows
+                .iter()
+                .map(|r| r.metric("duty").map(|d| (r.input(0), d / ton)))
+                .collect(),
+        });
+    }
+    out
 }
 
 /// Our colour scale for heat maps: deep blue, through teal, to sand.
@@ -546,6 +603,7 @@ fn scale_colour(f: f64) -> RGBColor {
 }
 
 /// How a 2-D map colours its cells.
+#[derive(Debug, Clone, Copy)]
 pub enum MapKind<'a> {
     /// Conduction mode: CCM, boundary, DCM, failed.
     Mode,
@@ -782,7 +840,7 @@ pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
         (
             "led_current_ripple_pct",
             1.0,
-            "LED ripple (% of average)",
+            "Peak-to-peak LED ripple relative to the average",
             "%",
         ),
         ("efficiency", 100.0, "Efficiency", "%"),

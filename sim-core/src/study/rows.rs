@@ -91,6 +91,15 @@ pub struct Manifest {
     pub spec: Option<SpecLimits>,
     /// Inductor saturation rating, A (for the peak-current plot).
     pub inductor_saturation_a: Option<f64>,
+    /// The controller's highest switching frequency, Hz, when the
+    /// scenario gives it (`parts.controller.max_frequency_hz`; for the
+    /// frequency plot).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub controller_max_frequency_hz: Option<f64>,
+    /// The controller's shortest on-time, s, when the scenario gives it
+    /// (`parts.controller.min_on_time_s`; for the frequency plot).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub controller_min_on_time_s: Option<f64>,
     /// Highest supply voltage any point may apply, V (for cautions).
     pub max_supply_v: f64,
     /// The metric columns of every row, in order.

@@ -40,6 +40,8 @@ pub(crate) fn base_manifest(
         input_notes: vec![],
         spec: None,
         inductor_saturation_a: s.inductor.saturation_current_a,
+        controller_max_frequency_hz: s.parts.controller.max_frequency_hz,
+        controller_min_on_time_s: s.parts.controller.min_on_time_s,
         max_supply_v: s.supply.voltage_v,
         metric_columns: metric_columns(),
         shard: None,
