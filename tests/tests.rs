@@ -3,6 +3,7 @@
 
 mod bad_input;
 mod parts;
+mod point_verdicts;
 mod properties;
 mod reference;
 mod shooting;

@@ -332,6 +332,14 @@ pub(crate) fn draw_polyline<DB: DrawingBackend>(
                 .map(|w| PathElement::new(vec![w[0], w[1]], style)),
         )
         .map_err(|e| anyhow!("drawing failed: {e:?}"))?;
+    // Round joins for wide strokes of short (dense-curve) traces, so the
+    // corners show no notches.
+    let w = style.stroke_width;
+    if w >= 3 && pts.len() <= 2000 {
+        chart
+            .draw_series(pts.iter().map(|&p| Circle::new(p, w / 2, style.filled())))
+            .map_err(|e| anyhow!("drawing failed: {e:?}"))?;
+    }
     Ok(())
 }
 

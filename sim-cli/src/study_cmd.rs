@@ -373,7 +373,7 @@ fn print_sweep(t: &StudyTable) {
         head.push_str(&format!("{i:>24} "));
     }
     println!(
-        "{head}{:>10} {:>8} {:>10} {:>7} {:>9} {:>8}",
+        "{head}{:>10} {:>8} {:>10} {:>7} {:>9} {:>8}  verdict",
         "LED avg", "ripple", "frequency", "duty", "mode", "effic."
     );
     for r in t.rows.iter().take(ROWS_SHOWN) {
@@ -393,6 +393,11 @@ fn print_sweep(t: &StudyTable) {
                 mode_word(r),
                 pct(g("efficiency"))
             ));
+            let c = m.check_point(r);
+            line.push_str(&format!("  {}", c.verdict.word()));
+            if !c.warnings.is_empty() {
+                line.push_str(&format!(" ({})", c.codes().replace(';', ", ")));
+            }
         } else {
             line.push_str(&format!("FAILED: {}", r.error().unwrap_or("")));
         }
@@ -411,6 +416,34 @@ fn print_sweep(t: &StudyTable) {
         t.rows.len(),
         t.failed()
     );
+    print_point_verdicts(t);
+}
+
+/// How many points warn or fail, by warning (audible, duty near 100 %,
+/// saturation, not regulating); the verdicts are in the CSV and JSON.
+fn print_point_verdicts(t: &StudyTable) {
+    let checks: Vec<_> = t.rows.iter().map(|r| t.manifest.check_point(r)).collect();
+    let count = |code: &str| {
+        checks
+            .iter()
+            .filter(|c| c.warnings.iter().any(|w| w.code() == code))
+            .count()
+    };
+    let words = [
+        ("audible", "switch below 20 kHz (audible)"),
+        ("duty_near_full", "run at a duty above 95 %"),
+        ("saturation", "exceed the inductor's saturation rating"),
+        (
+            "not_regulating",
+            "do not regulate (inductor peak short of the threshold)",
+        ),
+    ];
+    for (code, what) in words {
+        let n = count(code);
+        if n > 0 {
+            println!("{n} of {} points {what}", t.rows.len());
+        }
+    }
 }
 
 fn study_unit(path: &str) -> &'static str {

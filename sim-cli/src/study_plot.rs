@@ -15,7 +15,7 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use sim_core::study::rows::Row;
-use sim_core::study::rows::{RowExt, StudyTable};
+use sim_core::study::rows::{PointVerdict, RowExt, StudyTable};
 use sim_core::study::spread::SpecLimits;
 use sim_core::study::vary::unit_of;
 use sim_core::units::Unit;
@@ -23,6 +23,7 @@ use std::path::Path;
 
 const DCM_SHADE: RGBColor = RGBColor(250, 226, 218);
 const FAIL: RGBColor = RGBColor(190, 30, 45);
+const WARN: RGBColor = RGBColor(214, 150, 0);
 const CCM_FILL: RGBColor = RGBColor(118, 168, 206);
 const BOUNDARY_FILL: RGBColor = RGBColor(242, 196, 88);
 const DCM_FILL: RGBColor = RGBColor(222, 116, 104);
@@ -184,9 +185,13 @@ fn draw_sweep(
     path: &str,
     xs: &[f64],
     modes: &[Option<String>],
-    failed: &[bool],
+    verdicts: &[PointVerdict],
     panels: &[SweepPanel],
 ) -> Result<()> {
+    let failed: Vec<bool> = verdicts
+        .iter()
+        .map(|v| *v == PointVerdict::NotRun)
+        .collect();
     root.fill(&WHITE).map_err(de)?;
     let (head, body) = root.split_vertically(96);
     head.draw(&Text::new(title.to_string(), (30, 16), bold(34)))
@@ -343,8 +348,40 @@ fn draw_sweep(
         if any_dcm {
             y = legend_line(&legend_area, y, DCM_SHADE, 2, "DCM (shaded)")?;
         }
+        // Points that ran with a warning or a failing verdict: a triangle
+        // at the top of every panel (amber: warning; red: fails).
+        for (kk, v) in verdicts.iter().enumerate() {
+            let c = match v {
+                PointVerdict::Warn => WARN,
+                PointVerdict::Fail => FAIL,
+                _ => continue,
+            };
+            let x = xs[kk] / sx;
+            let y = yr.1 - 0.05 * (yr.1 - yr.0);
+            chart
+                .draw_series(std::iter::once(TriangleMarker::new((x, y), 9, c.filled())))
+                .map_err(de)?;
+        }
         if any_failed {
-            legend_line(&legend_area, y, FAIL, 0, "failed point (tick at bottom)")?;
+            y = legend_line(&legend_area, y, FAIL, 0, "failed point (tick at bottom)")?;
+        }
+        if verdicts.contains(&PointVerdict::Fail) {
+            y = legend_line(
+                &legend_area,
+                y,
+                FAIL,
+                0,
+                "fails: saturation or not regulating (triangle at top)",
+            )?;
+        }
+        if verdicts.contains(&PointVerdict::Warn) {
+            legend_line(
+                &legend_area,
+                y,
+                WARN,
+                0,
+                "warning: audible or duty near 100 % (triangle at top)",
+            )?;
         }
     }
     root.present().map_err(de)?;
@@ -365,8 +402,22 @@ fn mode_words(t: &StudyTable) -> Vec<Option<String>> {
         .collect()
 }
 
-fn fail_flags(t: &StudyTable) -> Vec<bool> {
-    t.rows.iter().map(|r| !r.ok()).collect()
+/// Where the nominal design sits on a 2-D map (its two input values),
+/// when both are plain numbers.
+pub(crate) fn nominal_point(t: &StudyTable) -> Option<(f64, f64)> {
+    match t.manifest.nominal_inputs.as_slice() {
+        [Some(x), Some(y), ..] if x.is_finite() && y.is_finite() => Some((*x, *y)),
+        _ => None,
+    }
+}
+
+/// Each point's verdict, as the sweep plots mark it (see
+/// [`sim_core::study::rows::Manifest::check_point`]).
+pub(crate) fn verdict_marks(t: &StudyTable) -> Vec<PointVerdict> {
+    t.rows
+        .iter()
+        .map(|r| t.manifest.check_point(r).verdict)
+        .collect()
 }
 
 fn subtitle(t: &StudyTable) -> String {
@@ -398,7 +449,7 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
     let path = t.manifest.inputs[0].clone();
     let xs: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
     let modes = mode_words(t);
-    let failed = fail_flags(t);
+    let verdicts = verdict_marks(t);
     let band = Band {
         label: "LED current min to max (ripple band)".into(),
         color: LED,
@@ -522,7 +573,7 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
                     &path,
                     &xs,
                     &modes,
-                    &failed,
+                    &verdicts,
                     &current_panels,
                 )
             })
@@ -536,7 +587,7 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
                     &path,
                     &xs,
                     &modes,
-                    &failed,
+                    &verdicts,
                     &panels,
                 )
             })
@@ -754,6 +805,31 @@ pub fn grid_map(
                     .map_err(de)?;
             }
         }
+        // Points that ran with a warning or a failing verdict: a small
+        // triangle in the cell (amber: warning; red: fails).
+        let marks = verdict_marks(t);
+        for (r, v) in t.rows.iter().zip(&marks) {
+            let c = match v {
+                PointVerdict::Warn => WARN,
+                PointVerdict::Fail => FAIL,
+                _ => continue,
+            };
+            let q = (r.input(0) / xa.scale, r.input(1) / ya.scale);
+            chart
+                .draw_series(std::iter::once(TriangleMarker::new(q, 8, c.filled())))
+                .map_err(de)?;
+        }
+        // The nominal design: a ring.
+        let nominal = nominal_point(t);
+        if let Some((x, y)) = nominal {
+            let q = (x / xa.scale, y / ya.scale);
+            chart
+                .draw_series([
+                    Circle::new(q, 13, WHITE.stroke_width(6)),
+                    Circle::new(q, 13, INK.stroke_width(3)),
+                ])
+                .map_err(de)?;
+        }
         if let Some((_, pts)) = overlay {
             let p: Vec<(f64, f64)> = pts
                 .iter()
@@ -767,6 +843,15 @@ pub fn grid_map(
                 .map_err(de)?;
         }
         let mut y = 30;
+        if nominal.is_some() {
+            y = legend_line(&legend, y, INK, 0, "nominal design (ring)")?;
+        }
+        if marks.contains(&PointVerdict::Fail) {
+            y = legend_line(&legend, y, FAIL, 0, "fails: saturation or not regulating")?;
+        }
+        if marks.contains(&PointVerdict::Warn) {
+            y = legend_line(&legend, y, WARN, 0, "warning: audible or duty near 100 %")?;
+        }
         match kind {
             MapKind::Mode => {
                 let seen = |w: &str| t.rows.iter().any(|r| r.mode() == Some(w));
@@ -860,8 +945,14 @@ pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
             .map_or(String::new(), |s| format!(" (seed {s})"))
     );
     let failed = t.failed();
+    let corners = t.manifest.kind == sim_core::study::rows::StudyKind::Corners;
     let sub = format!(
-        "histograms of the samples that ran{}   ·   red dashed: spec limits   ·   dark dashed: median",
+        "{} that ran{}   ·   red dashed: spec limits   ·   dark dashed: median",
+        if corners {
+            "one bar per corner"
+        } else {
+            "histograms of the samples"
+        },
         if failed > 0 {
             format!(" ({failed} failed, not shown)")
         } else {
@@ -935,11 +1026,148 @@ pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
                 }
                 _ => {}
             }
-            histogram(cell, label, unit, &v, &marks)?;
+            if corners {
+                // One bar per corner, in the table's order: a handful of
+                // deliberate extremes is no distribution to bin.
+                corner_bars(cell, label, unit, &corner_values(t, name, *k), &marks)?;
+            } else {
+                histogram(cell, label, unit, &v, &marks)?;
+            }
         }
         root.present().map_err(de)?;
         Ok(())
     })
+}
+
+/// Each corner's label (its number when unlabelled) and value of a
+/// metric times `k` (`None`: the corner did not run).
+pub(crate) fn corner_values(t: &StudyTable, metric: &str, k: f64) -> Vec<(String, Option<f64>)> {
+    t.rows
+        .iter()
+        .enumerate()
+        .map(|(j, r)| {
+            let name = r.label().map_or(format!("#{}", j + 1), str::to_string);
+            (
+                name,
+                r.metric(metric).map(|x| x * k).filter(|x| x.is_finite()),
+            )
+        })
+        .collect()
+}
+
+/// Horizontal bars, one per corner (top to bottom in the table's order),
+/// from the left edge of the value axis to the corner's value; spec limits
+/// and the median as dashed lines.
+fn corner_bars(
+    cell: &DrawingArea<BitMapBackend, Shift>,
+    label: &str,
+    unit: &str,
+    items: &[(String, Option<f64>)],
+    marks: &[Mark],
+) -> Result<()> {
+    let (legend, area) = cell.split_vertically(64);
+    legend
+        .draw(&Text::new(label.to_string(), (40, 6), bold(22)))
+        .map_err(de)?;
+    let mut lx = 40;
+    for m in marks {
+        legend
+            .draw(&DashedPathElement::new(
+                vec![(lx, 46), (lx + 28, 46)],
+                6,
+                4,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+        legend
+            .draw(&Text::new(m.label.clone(), (lx + 34, 36), font(17)))
+            .map_err(de)?;
+        lx += 44 + 9 * m.label.chars().count() as i32;
+    }
+    let vals: Vec<f64> = items.iter().filter_map(|i| i.1).collect();
+    if vals.is_empty() {
+        area.draw(&Text::new("no corner ran".to_string(), (60, 120), font(20)))
+            .map_err(de)?;
+        return Ok(());
+    }
+    let mut lo = vals.iter().copied().fold(f64::INFINITY, f64::min);
+    let mut hi = vals.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    for m in marks {
+        lo = lo.min(m.x);
+        hi = hi.max(m.x);
+    }
+    let span = (hi - lo).max(1e-9 * hi.abs().max(1e-30));
+    let (lo, hi) = (lo - 0.08 * span, hi + 0.05 * span);
+    let ax = if unit == "%" {
+        Axis {
+            scale: 1.0,
+            prefix: "",
+        }
+    } else {
+        Axis::for_magnitude(lo.abs().max(hi.abs()))
+    };
+    let n = items.len();
+    let xr = (lo / ax.scale, hi / ax.scale);
+    let xd = tick_decimals(xr.1 - xr.0, 6);
+    let mut chart = ChartBuilder::on(&area)
+        .margin_left(16)
+        .margin_right(30)
+        .margin_top(6)
+        .margin_bottom(8)
+        .x_label_area_size(56)
+        .y_label_area_size(150)
+        .build_cartesian_2d(xr.0..xr.1, -0.5..(n as f64 - 0.5))
+        .map_err(de)?;
+    let x_fmt = |v: &f64| tick(*v, xd);
+    // Corner k is drawn at y = n − 1 − k, so the first is at the top.
+    let y_fmt = |v: &f64| {
+        let k = (n as f64 - 1.0 - v.round()) as usize;
+        let name = items.get(k).map_or("", |i| i.0.as_str());
+        name.chars().take(18).collect::<String>()
+    };
+    let unit_text = if unit == "%" {
+        "%".to_string()
+    } else {
+        format!("{}{unit}", ax.prefix)
+    };
+    chart
+        .configure_mesh()
+        .x_labels(6)
+        .y_labels(n.min(24))
+        .disable_y_mesh()
+        .light_line_style(GRID)
+        .bold_line_style(GRID_MAJOR)
+        .axis_style(INK)
+        .label_style(font(16))
+        .axis_desc_style(font(19))
+        .x_desc(format!("{label} ({unit_text})"))
+        .x_label_formatter(&x_fmt)
+        .y_label_formatter(&y_fmt)
+        .draw()
+        .map_err(de)?;
+    let h = 0.36;
+    chart
+        .draw_series(items.iter().enumerate().filter_map(|(k, (_, v))| {
+            let v = (*v)?;
+            let y = (n - 1 - k) as f64;
+            Some(Rectangle::new(
+                [(xr.0, y - h), (v / ax.scale, y + h)],
+                lighten(INDUCTOR, 0.8).filled(),
+            ))
+        }))
+        .map_err(de)?;
+    for m in marks {
+        let x = m.x / ax.scale;
+        chart
+            .draw_series(DashedLineSeries::new(
+                vec![(x, -0.5), (x, n as f64 - 0.5)],
+                10,
+                7,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+    }
+    Ok(())
 }
 
 fn show(v: f64, unit: &str) -> String {
@@ -1077,4 +1305,159 @@ fn histogram(
             .map_err(de)?;
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sim_core::study::run::{Hooks, RunSettings};
+    use sim_core::study::spread::{corners, Distribution, PartTolerance, Tolerances};
+    use sim_core::study::sweep::sweep;
+    use sim_core::study::vary::{Grid, Vary};
+
+    fn grid(s: &sim_core::Scenario, specs: &[&str]) -> Grid {
+        Grid::new(specs.iter().map(|v| Vary::parse(v, s).unwrap()).collect()).unwrap()
+    }
+
+    /// The frequency panel carries the 20 kHz line and the controller's
+    /// limits: its maximum frequency, and from its minimum on-time the
+    /// highest frequency each point's duty allows (f = D / t_on,min: the
+    /// on-time is D/f; Erickson & Maksimovic, 3rd ed., ch. 2).
+    #[test]
+    fn frequency_panel_has_the_limit_lines() {
+        let mut s = sim_core::scenario::template();
+        s.parts.controller.max_frequency_hz = Some(1e6);
+        s.parts.controller.min_on_time_s = Some(200e-9);
+        let t = sweep(
+            &s,
+            &grid(&s, &["supply.voltage_v=10.5:14:3"]),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        );
+        let lines = frequency_limits(&t);
+        assert_eq!(lines.len(), 3);
+        assert!(lines[0]
+            .points
+            .iter()
+            .all(|p| (p.unwrap().1 - 20e3).abs() < 1e-9));
+        assert!(lines[1]
+            .points
+            .iter()
+            .all(|p| (p.unwrap().1 - 1e6).abs() < 1e-6));
+        for (r, p) in t.rows.iter().zip(&lines[2].points) {
+            let d = r.metric("on_time_s").unwrap() / r.metric("period_s").unwrap();
+            assert!((p.unwrap().1 - d / 200e-9).abs() < 1e-6 * p.unwrap().1);
+        }
+    }
+
+    /// A 2-D map marks the nominal design at the scenario's own values,
+    /// and the LED current map's values are the rows' averages.
+    #[test]
+    fn maps_mark_the_nominal_design() {
+        let s = sim_core::scenario::template();
+        let t = sweep(
+            &s,
+            &grid(
+                &s,
+                &[
+                    "supply.voltage_v=10.5:14:2",
+                    "inductor.inductance_h=47u:100u:2",
+                ],
+            ),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        );
+        let (x, y) = nominal_point(&t).unwrap();
+        assert!((x - 12.0).abs() < 1e-12 && (y - 68e-6).abs() < 1e-18);
+        let dir = std::env::temp_dir().join(format!("chopwave-maps-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let f = dir.join("led.png");
+        grid_map(
+            &t,
+            MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
+            "t",
+            None,
+            &f,
+        )
+        .unwrap();
+        assert!(
+            png::Decoder::new(std::io::BufReader::new(std::fs::File::open(&f).unwrap()))
+                .read_info()
+                .is_ok()
+        );
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    /// Corners are shown one bar per corner, each at its own value (a
+    /// histogram of four deliberate extremes bins them into counts).
+    #[test]
+    fn corners_are_one_bar_each() {
+        let mut s = sim_core::scenario::template();
+        s.tolerances = Some(Tolerances {
+            parts: vec![PartTolerance {
+                path: "inductor.inductance_h".into(),
+                tolerance_pct: 20.0,
+                distribution: Distribution::Uniform,
+            }],
+            led_forward_voltage: None,
+            supply_over_range: true,
+        });
+        let t = corners(
+            &s,
+            &SpecLimits::default(),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        )
+        .unwrap();
+        let bars = corner_values(&t, "inductor_ripple_pp_a", 1.0);
+        assert_eq!(bars.len(), t.rows.len());
+        assert_eq!(bars.len(), 4);
+        for (b, r) in bars.iter().zip(&t.rows) {
+            assert_eq!(Some(b.0.as_str()), r.label());
+            assert!((b.1.unwrap() - r.metric("inductor_ripple_pp_a").unwrap()).abs() < 1e-15);
+        }
+        // Constant off-time ripple ΔI ≈ V_out·t_off/L (Erickson &
+        // Maksimovic, ch. 2): the low-L corners have the larger ripple.
+        let low: f64 = bars
+            .iter()
+            .filter(|b| b.0.contains("inductor.inductance_h low"))
+            .map(|b| b.1.unwrap())
+            .fold(0.0, f64::max);
+        let high: f64 = bars
+            .iter()
+            .filter(|b| b.0.contains("inductor.inductance_h high"))
+            .map(|b| b.1.unwrap())
+            .fold(0.0, f64::max);
+        assert!(low > high, "{low} {high}");
+    }
+
+    /// Points with a warning or a failing verdict are marked: a long off-
+    /// time drops the frequency below 20 kHz (common practice: the upper
+    /// limit of hearing) and a rating under the peak threshold fails all.
+    #[test]
+    fn sweep_marks_follow_the_verdicts() {
+        let mut s = sim_core::scenario::template();
+        s.inductor.inductance_h = 1e-3;
+        let t = sweep(
+            &s,
+            &grid(&s, &["controller.off_time_s=5u:60u:4"]),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        );
+        let marks = verdict_marks(&t);
+        for (r, m) in t.rows.iter().zip(&marks) {
+            let f = r.metric("switching_frequency_hz").unwrap();
+            let want = if f < 20e3 {
+                PointVerdict::Warn
+            } else {
+                PointVerdict::Ok
+            };
+            assert_eq!(*m, want, "{f} Hz");
+        }
+        assert!(marks.contains(&PointVerdict::Warn) && marks.contains(&PointVerdict::Ok));
+    }
 }
