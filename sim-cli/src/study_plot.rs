@@ -90,7 +90,7 @@ fn y_range(p: &SweepPanel) -> (f64, f64) {
             hi = hi.max(y);
         }
     };
-    for c in &p.curves {
+    for c in p.curves.iter().filter(|c| !c.dashed) {
         for (_, y) in c.points.iter().flatten() {
             see(*y);
         }
@@ -99,6 +99,27 @@ fn y_range(p: &SweepPanel) -> (f64, f64) {
         for (_, a, c) in b.points.iter().flatten() {
             see(*a);
             see(*c);
+        }
+    }
+    // Limit lines widen the range only up to three times the data, so a
+    // far-off limit does not flatten the data (it is then left out).
+    let data_hi = p
+        .curves
+        .iter()
+        .filter(|c| !c.dashed)
+        .flat_map(|c| c.points.iter().flatten().map(|q| q.1))
+        .chain(
+            p.band
+                .iter()
+                .flat_map(|b| b.points.iter().flatten().map(|q| q.2)),
+        )
+        .filter(|y| y.is_finite())
+        .fold(f64::NEG_INFINITY, f64::max);
+    for c in p.curves.iter().filter(|c| c.dashed) {
+        for (_, y) in c.points.iter().flatten() {
+            if !data_hi.is_finite() || *y <= 3.0 * data_hi.abs() {
+                see(*y);
+            }
         }
     }
     if !lo.is_finite() {
@@ -305,8 +326,11 @@ fn draw_sweep(
             let mut segs = Vec::new();
             for &kk in &order {
                 match c.points[kk] {
-                    Some((x, y)) => seg.push((x / sx, y / sy)),
-                    None => segs.push(std::mem::take(&mut seg)),
+                    // A limit line outside the panel's range is left out.
+                    Some((x, y)) if !c.dashed || (lo..=hi).contains(&y) => {
+                        seg.push((x / sx, y / sy))
+                    }
+                    _ => segs.push(std::mem::take(&mut seg)),
                 }
             }
             segs.push(seg);
@@ -343,7 +367,13 @@ fn draw_sweep(
             y = legend_line(&legend_area, y, lighten(b.color, 0.35), 2, &b.label)?;
         }
         for c in &panel.curves {
-            y = legend_line(&legend_area, y, c.color, u8::from(c.dashed), &c.label)?;
+            let off = c.dashed && !c.points.iter().flatten().any(|p| (lo..=hi).contains(&p.1));
+            let label = if off {
+                format!("{} (off the scale)", c.label)
+            } else {
+                c.label.clone()
+            };
+            y = legend_line(&legend_area, y, c.color, u8::from(c.dashed), &label)?;
         }
         if any_dcm {
             y = legend_line(&legend_area, y, DCM_SHADE, 2, "DCM (shaded)")?;
@@ -365,23 +395,18 @@ fn draw_sweep(
         if any_failed {
             y = legend_line(&legend_area, y, FAIL, 0, "failed point (tick at bottom)")?;
         }
-        if verdicts.contains(&PointVerdict::Fail) {
+        // The verdict marks are explained once, beside the first panel.
+        if k == 0 && verdicts.contains(&PointVerdict::Fail) {
             y = legend_line(
                 &legend_area,
                 y,
                 FAIL,
                 0,
-                "fails: saturation or not regulating (triangle at top)",
+                "top mark: fails (saturation, no regulation)",
             )?;
         }
-        if verdicts.contains(&PointVerdict::Warn) {
-            legend_line(
-                &legend_area,
-                y,
-                WARN,
-                0,
-                "warning: audible or duty near 100 % (triangle at top)",
-            )?;
+        if k == 0 && verdicts.contains(&PointVerdict::Warn) {
+            legend_line(&legend_area, y, WARN, 0, "top mark: audible or duty > 95 %")?;
         }
     }
     root.present().map_err(de)?;
@@ -607,14 +632,14 @@ fn frequency_limits(t: &StudyTable) -> Vec<Curve> {
     let xs: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
     let flat = |v: f64| xs.iter().map(|&x| Some((x, v))).collect::<Vec<_>>();
     let mut out = vec![Curve {
-        label: "20 kHz: audible below (common practice)".into(),
+        label: "20 kHz (audible below)".into(),
         color: FAIL,
         dashed: true,
         points: flat(AUDIBLE_LIMIT_HZ),
     }];
     if let Some(f) = t.manifest.controller_max_frequency_hz {
         out.push(Curve {
-            label: format!("controller maximum {}", eng(f, "Hz")),
+            label: format!("controller max {}", eng(f, "Hz")),
             color: INK,
             dashed: true,
             points: flat(f),
@@ -622,10 +647,7 @@ fn frequency_limits(t: &StudyTable) -> Vec<Curve> {
     }
     if let Some(ton) = t.manifest.controller_min_on_time_s.filter(|v| *v > 0.0) {
         out.push(Curve {
-            label: format!(
-                "limit from the minimum on-time {} (duty / on-time)",
-                eng(ton, "s")
-            ),
+            label: format!("max at min on-time {}", eng(ton, "s")),
             color: INDUCTOR_LIGHT,
             dashed: true,
             points: t
@@ -776,7 +798,12 @@ pub fn grid_map(
                 )))
                 .map_err(de)?;
         }
-        // Values written in the cells when they fit (heat maps).
+        // Values written in the cells when they fit (heat maps): per cent
+        // to a tenth, other units in engineering notation.
+        let cell_text = |v: f64| match kind {
+            MapKind::Heat(_, _, _, u) if u != "%" => eng(v, u),
+            _ => format!("{v:.1}"),
+        };
         let cell_px = f64::from(WIDTH - LEGEND_WIDTH - 180) / xv.len() as f64;
         if matches!(kind, MapKind::Heat(..)) && cell_px >= 64.0 && yv.len() <= 24 {
             let span = vmax - vmin;
@@ -801,7 +828,7 @@ pub fn grid_map(
                     0.5 * (ey[j] + ey[j + 1]) / ya.scale,
                 );
                 chart
-                    .draw_series(std::iter::once(Text::new(format!("{v:.1}"), c, style)))
+                    .draw_series(std::iter::once(Text::new(cell_text(v), c, style)))
                     .map_err(de)?;
             }
         }
