@@ -432,9 +432,21 @@ fn record_startup<E: CycleEngine>(
     let mut cycles = 0u64;
     let mut samples_near = false;
     let close = 0.1 * crate::record::SETTLED_FRACTION;
-    while near < 2 && cycles < sim.max_cycles && e.time_s() < sim.max_time_s {
+    // A run that has settled onto its own orbit (its turn-on state moving
+    // by under 1e-12 of the scales per cycle: round-off) stops too, should
+    // its fitted curves leave it a hair off the measured orbit.
+    let mut still = 0;
+    let mut last = e.state();
+    while near < 2 && still < 2 && cycles < sim.max_cycles && e.time_s() < sim.max_time_s {
         e.run_cycle(None, Some(&mut rec))?;
         cycles += 1;
+        let now = e.state();
+        still = if scaled_change(&now, &last, &scale) <= 1e-12 {
+            still + 1
+        } else {
+            0
+        };
+        last = now;
         if let Some((0, on)) = rec.latest_turn_on() {
             samples_near = target.turn_on.is_empty()
                 || crate::record::distance_from_steady(&on, &target.turn_on, target.current_ref_a)
