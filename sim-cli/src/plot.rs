@@ -456,13 +456,20 @@ pub(crate) fn render(
     path: &Path,
     draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
 ) -> Result<()> {
+    encode_png(path, &draw_buffer(draw)?)
+}
+
+/// Draws into a fresh RGB buffer of [`WIDTH`] × [`HEIGHT`].
+pub(crate) fn draw_buffer(
+    draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
+) -> Result<Vec<u8>> {
     register_fonts()?;
     let mut buf = vec![255u8; (WIDTH * HEIGHT * 3) as usize];
     {
         let root = BitMapBackend::with_buffer(&mut buf, (WIDTH, HEIGHT)).into_drawing_area();
         draw(&root)?;
     }
-    encode_png(path, &buf)
+    Ok(buf)
 }
 
 fn column_pairs(
@@ -528,11 +535,24 @@ fn operating_point(s: &Scenario, r: &SimResult) -> String {
     )
 }
 
+/// The alternatives plot's traces in drawing order: the switching design
+/// last, so it is drawn on top (with its simulated points marked).
+pub(crate) const ALTERNATIVE_LABELS: [&str; 3] = [
+    "series resistor (closed form)",
+    "linear regulator (closed form)",
+    "switching design (simulated points)",
+];
+
 /// Writes the comparison plot: LED current, efficiency and driver loss
 /// versus supply voltage for the switching design (its simulated points)
 /// and the resistor and linear alternatives (drawn densely from their
 /// closed forms).
 pub fn alternatives_png(a: &Assessment, path: &Path) -> Result<()> {
+    encode_png(path, &alternatives_buffer(a)?)
+}
+
+/// The comparison plot's pixels (see [`alternatives_png`]).
+fn alternatives_buffer(a: &Assessment) -> Result<Vec<u8>> {
     let cmp = a
         .comparison
         .as_ref()
@@ -571,12 +591,10 @@ pub fn alternatives_png(a: &Assessment, path: &Path) -> Result<()> {
     let col = |pts: &[OperatingPoint], f: fn(&OperatingPoint) -> f64| -> Vec<(f64, f64)> {
         pts.iter().map(|p| (p.supply_v, f(p))).collect()
     };
-    // The switching design last, so it is drawn on top, with its
-    // simulated points marked.
     let series: [(&[OperatingPoint], &str, RGBColor); 3] = [
-        (&res, "series resistor (closed form)", LED),
-        (&lin, "linear regulator (closed form)", VLED),
-        (&sw, "switching design (simulated points)", INDUCTOR),
+        (&res, ALTERNATIVE_LABELS[0], LED),
+        (&lin, ALTERNATIVE_LABELS[1], VLED),
+        (&sw, ALTERNATIVE_LABELS[2], INDUCTOR),
     ];
     let cur: Vec<Vec<(f64, f64)>> = series
         .iter()
@@ -602,7 +620,7 @@ pub fn alternatives_png(a: &Assessment, path: &Path) -> Result<()> {
                 label: x.1.to_string(),
                 color: x.2,
                 width: 3,
-                dots: x.1.starts_with("switching"),
+                dots: x.1 == ALTERNATIVE_LABELS[2],
                 points: d,
             })
             .collect()
@@ -646,7 +664,7 @@ pub fn alternatives_png(a: &Assessment, path: &Path) -> Result<()> {
         eng(cmp.linear_headroom_v, "V")
     );
     let x_axis = Axis::for_magnitude(v1.abs());
-    render(path, |root| {
+    draw_buffer(|root| {
         draw_stack(
             root,
             &format!(
@@ -1252,6 +1270,27 @@ mod tests {
             var > 1e-3 && var < res.current_variation_pct.unwrap(),
             "{var} %"
         );
+        // The switching design is drawn on top with its points marked:
+        // in the LED current panel (the top third), where the linear
+        // regulator's line lies on it, its colour shows (three dots of
+        // radius 8 px alone cover about 600 px; drawn first and without
+        // dots, as before, 5 pixels showed).
+        let buf = alternatives_buffer(&a).unwrap();
+        let panel_rows = 96..(96 + (HEIGHT - 96 - 70) / 3);
+        let mut seen = 0;
+        for y in panel_rows {
+            for x in 0..(WIDTH - LEGEND_WIDTH) {
+                let k = ((y * WIDTH + x) * 3) as usize;
+                if buf[k..k + 3] == [INDUCTOR.0, INDUCTOR.1, INDUCTOR.2] {
+                    seen += 1;
+                }
+            }
+        }
+        assert!(
+            seen > 2000,
+            "{seen} switching-design pixels in the current panel"
+        );
+        assert_eq!(ALTERNATIVE_LABELS[2], "switching design (simulated points)");
         let dir = std::env::temp_dir().join(format!("chopwave-alt-{}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();
         let f = dir.join("alt.png");
