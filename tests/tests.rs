@@ -6,6 +6,7 @@ mod fit_accuracy;
 mod junction_temperature;
 mod part_checks;
 mod parts;
+mod point_verdicts;
 mod properties;
 mod readme;
 mod reference;

@@ -730,19 +730,34 @@ fn write_plots(s: &Scenario, a: &Assessment, dir: &Path, stem: &str) -> Result<V
     let r: &SimResult = &a.result;
     output::ensure_dir(dir)?;
     let steady = dir.join(format!("{stem}-steady.png"));
-    plot::steady_png(s, r, &steady).context("steady-state plot")?;
-    let mut out = vec![steady];
-    if r.startup.is_some() {
-        let startup = dir.join(format!("{stem}-startup.png"));
-        plot::startup_png(s, r, &startup).context("start-up plot")?;
-        out.push(startup);
-    }
-    if a.comparison.is_some() {
-        let cmp = dir.join(format!("{stem}-alternatives.png"));
-        plot::alternatives_png(a, &cmp).context("alternatives plot")?;
-        out.push(cmp);
-    }
-    Ok(out)
+    let startup = r
+        .startup
+        .is_some()
+        .then(|| dir.join(format!("{stem}-startup.png")));
+    let cmp = a
+        .comparison
+        .is_some()
+        .then(|| dir.join(format!("{stem}-alternatives.png")));
+    // The plots are drawn and encoded in parallel.
+    let ((st, su), al) = rayon::join(
+        || {
+            rayon::join(
+                || plot::steady_png(s, r, &steady).context("steady-state plot"),
+                || match &startup {
+                    Some(p) => plot::startup_png(s, r, p).context("start-up plot"),
+                    None => Ok(()),
+                },
+            )
+        },
+        || match &cmp {
+            Some(p) => plot::alternatives_png(a, p).context("alternatives plot"),
+            None => Ok(()),
+        },
+    );
+    st?;
+    su?;
+    al?;
+    Ok(std::iter::once(steady).chain(startup).chain(cmp).collect())
 }
 
 fn mode_name(m: sim_core::metrics::ConductionMode) -> &'static str {

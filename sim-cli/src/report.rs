@@ -440,6 +440,14 @@ impl Report {
                 "\nAlternatives for the same LEDs at {} target",
                 eng(cmp.target_current_a, "A")
             );
+            if let Some(span) = cmp.assumed_span {
+                let _ = writeln!(
+                    o,
+                    "  no supply.input_range_v given: compared at ±{:.0} % of the nominal supply \
+                     (as plotted)",
+                    100.0 * span
+                );
+            }
             let head: Vec<String> = cmp.supply_v.iter().map(|v| eng(*v, "V")).collect();
             let _ = writeln!(
                 o,

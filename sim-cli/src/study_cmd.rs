@@ -11,6 +11,7 @@ use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
 use crate::{load, output, parse_override, read_text_limited, study_plot, EngineArg, Failure};
 use anyhow::{Context, Result};
 use indicatif::{ProgressBar, ProgressStyle};
+use rayon::prelude::*;
 use sim_core::simulate::SELV_LIMIT_V;
 use sim_core::study::boundary::{boundary_curve, find_boundary, Boundary, BoundarySettings};
 use sim_core::study::journal::{header_line, read_journal, row_line};
@@ -291,34 +292,41 @@ fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> 
         }
         (StudyKind::Sweep, _) => {
             let name = &t.manifest.scenario;
-            let mode = dir.join(format!("{base}-mode-map.png"));
-            study_plot::grid_map(
-                t,
-                study_plot::MapKind::Mode,
-                &format!("{name} — conduction mode over the grid"),
-                None,
-                &mode,
-            )
-            .context("mode map")?;
-            let ripple = dir.join(format!("{base}-ripple-map.png"));
-            study_plot::grid_map(
-                t,
-                study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
-                &format!("{name} — LED ripple (peak-to-peak, % of average)"),
-                None,
-                &ripple,
-            )
-            .context("ripple map")?;
-            let eff = dir.join(format!("{base}-efficiency-map.png"));
-            study_plot::grid_map(
-                t,
-                study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
-                &format!("{name} — efficiency (LED power over input power)"),
-                None,
-                &eff,
-            )
-            .context("efficiency map")?;
-            written.extend([mode, ripple, eff]);
+            // The maps are drawn and encoded in parallel.
+            let maps = [
+                (
+                    "mode-map",
+                    study_plot::MapKind::Mode,
+                    format!("{name} — conduction mode over the grid"),
+                ),
+                (
+                    "led-current-map",
+                    study_plot::MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
+                    format!("{name} — average LED current"),
+                ),
+                (
+                    "ripple-map",
+                    study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
+                    format!("{name} — peak-to-peak LED ripple relative to the average"),
+                ),
+                (
+                    "efficiency-map",
+                    study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
+                    format!("{name} — efficiency (LED power over input power)"),
+                ),
+            ];
+            let files: Vec<PathBuf> = maps
+                .iter()
+                .map(|(what, _, _)| dir.join(format!("{base}-{what}.png")))
+                .collect();
+            maps.par_iter()
+                .zip(files.par_iter())
+                .map(|((what, kind, title), file)| {
+                    study_plot::grid_map(t, *kind, title, None, file)
+                        .with_context(|| what.replace('-', " "))
+                })
+                .collect::<Result<Vec<()>>>()?;
+            written.extend(files);
         }
         _ => {
             let h = dir.join(format!("{base}-histograms.png"));
@@ -401,7 +409,7 @@ fn print_sweep(t: &StudyTable) {
         head.push_str(&format!("{i:>24} "));
     }
     println!(
-        "{head}{:>10} {:>8} {:>10} {:>7} {:>9} {:>8}",
+        "{head}{:>10} {:>8} {:>10} {:>7} {:>9} {:>8}  verdict",
         "LED avg", "ripple", "frequency", "duty", "mode", "effic."
     );
     for r in t.rows.iter().take(ROWS_SHOWN) {
@@ -420,6 +428,11 @@ fn print_sweep(t: &StudyTable) {
                 mode_word(r),
                 pct(g("efficiency"))
             ));
+            let c = m.check_point(r);
+            line.push_str(&format!("  {}", c.verdict.word()));
+            if !c.warnings.is_empty() {
+                line.push_str(&format!(" ({})", c.codes().replace(';', ", ")));
+            }
         } else {
             line.push_str(&format!("FAILED: {}", r.error().unwrap_or("")));
         }
@@ -438,6 +451,34 @@ fn print_sweep(t: &StudyTable) {
         t.rows.len(),
         t.failed()
     );
+    print_point_verdicts(t);
+}
+
+/// How many points warn or fail, by warning (audible, duty near 100 %,
+/// saturation, not regulating); the verdicts are in the CSV and JSON.
+fn print_point_verdicts(t: &StudyTable) {
+    let checks: Vec<_> = t.rows.iter().map(|r| t.manifest.check_point(r)).collect();
+    let count = |code: &str| {
+        checks
+            .iter()
+            .filter(|c| c.warnings.iter().any(|w| w.code() == code))
+            .count()
+    };
+    let words = [
+        ("audible", "switch below 20 kHz (audible)"),
+        ("duty_near_full", "run at a duty above 95 %"),
+        ("saturation", "exceed the inductor's saturation rating"),
+        (
+            "not_regulating",
+            "do not regulate (inductor peak short of the threshold)",
+        ),
+    ];
+    for (code, what) in words {
+        let n = count(code);
+        if n > 0 {
+            println!("{n} of {} points {what}", t.rows.len());
+        }
+    }
 }
 
 /// A value of the field at `path` for people: engineering notation with

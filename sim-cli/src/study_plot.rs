@@ -7,7 +7,7 @@
 use crate::format::eng;
 use crate::plot::{
     bold, de, font, render, tick, tick_decimals, wrap, Axis, GRID, GRID_MAJOR, HEIGHT, INDUCTOR,
-    INK, LED, LED_AVG, LEGEND_WIDTH, VLED, VSW, WIDTH,
+    INDUCTOR_LIGHT, INK, LED, LED_AVG, LEGEND_WIDTH, VLED, VSW, WIDTH,
 };
 use anyhow::Result;
 use plotters::coord::Shift;
@@ -15,7 +15,7 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use sim_core::study::rows::Row;
-use sim_core::study::rows::{RowExt, StudyTable};
+use sim_core::study::rows::{PointVerdict, RowExt, StudyTable};
 use sim_core::study::spread::SpecLimits;
 use sim_core::study::vary::unit_of;
 use sim_core::units::Unit;
@@ -23,6 +23,7 @@ use std::path::Path;
 
 const DCM_SHADE: RGBColor = RGBColor(250, 226, 218);
 const FAIL: RGBColor = RGBColor(190, 30, 45);
+const WARN: RGBColor = RGBColor(214, 150, 0);
 const CCM_FILL: RGBColor = RGBColor(118, 168, 206);
 const BOUNDARY_FILL: RGBColor = RGBColor(242, 196, 88);
 const DCM_FILL: RGBColor = RGBColor(222, 116, 104);
@@ -48,10 +49,11 @@ fn unit_symbol(path: &str) -> &'static str {
 /// An axis title for a swept field with its prefixed unit.
 fn field_title(path: &str, axis: &Axis) -> String {
     let u = unit_symbol(path);
+    let name = crate::plot::field_name(path);
     if u.is_empty() && axis.prefix.is_empty() {
-        path.to_string()
+        name
     } else {
-        format!("{path} ({}{u})", axis.prefix)
+        format!("{name} ({}{u})", axis.prefix)
     }
 }
 
@@ -88,7 +90,7 @@ fn y_range(p: &SweepPanel) -> (f64, f64) {
             hi = hi.max(y);
         }
     };
-    for c in &p.curves {
+    for c in p.curves.iter().filter(|c| !c.dashed) {
         for (_, y) in c.points.iter().flatten() {
             see(*y);
         }
@@ -97,6 +99,27 @@ fn y_range(p: &SweepPanel) -> (f64, f64) {
         for (_, a, c) in b.points.iter().flatten() {
             see(*a);
             see(*c);
+        }
+    }
+    // Limit lines widen the range only up to three times the data, so a
+    // far-off limit does not flatten the data (it is then left out).
+    let data_hi = p
+        .curves
+        .iter()
+        .filter(|c| !c.dashed)
+        .flat_map(|c| c.points.iter().flatten().map(|q| q.1))
+        .chain(
+            p.band
+                .iter()
+                .flat_map(|b| b.points.iter().flatten().map(|q| q.2)),
+        )
+        .filter(|y| y.is_finite())
+        .fold(f64::NEG_INFINITY, f64::max);
+    for c in p.curves.iter().filter(|c| c.dashed) {
+        for (_, y) in c.points.iter().flatten() {
+            if !data_hi.is_finite() || *y <= 3.0 * data_hi.abs() {
+                see(*y);
+            }
         }
     }
     if !lo.is_finite() {
@@ -183,9 +206,13 @@ fn draw_sweep(
     path: &str,
     xs: &[f64],
     modes: &[Option<String>],
-    failed: &[bool],
+    verdicts: &[PointVerdict],
     panels: &[SweepPanel],
 ) -> Result<()> {
+    let failed: Vec<bool> = verdicts
+        .iter()
+        .map(|v| *v == PointVerdict::NotRun)
+        .collect();
     root.fill(&WHITE).map_err(de)?;
     let (head, body) = root.split_vertically(96);
     head.draw(&Text::new(title.to_string(), (30, 16), bold(34)))
@@ -299,8 +326,11 @@ fn draw_sweep(
             let mut segs = Vec::new();
             for &kk in &order {
                 match c.points[kk] {
-                    Some((x, y)) => seg.push((x / sx, y / sy)),
-                    None => segs.push(std::mem::take(&mut seg)),
+                    // A limit line outside the panel's range is left out.
+                    Some((x, y)) if !c.dashed || (lo..=hi).contains(&y) => {
+                        seg.push((x / sx, y / sy))
+                    }
+                    _ => segs.push(std::mem::take(&mut seg)),
                 }
             }
             segs.push(seg);
@@ -337,13 +367,46 @@ fn draw_sweep(
             y = legend_line(&legend_area, y, lighten(b.color, 0.35), 2, &b.label)?;
         }
         for c in &panel.curves {
-            y = legend_line(&legend_area, y, c.color, u8::from(c.dashed), &c.label)?;
+            let off = c.dashed && !c.points.iter().flatten().any(|p| (lo..=hi).contains(&p.1));
+            let label = if off {
+                format!("{} (off the scale)", c.label)
+            } else {
+                c.label.clone()
+            };
+            y = legend_line(&legend_area, y, c.color, u8::from(c.dashed), &label)?;
         }
         if any_dcm {
             y = legend_line(&legend_area, y, DCM_SHADE, 2, "DCM (shaded)")?;
         }
+        // Points that ran with a warning or a failing verdict: a triangle
+        // at the top of every panel (amber: warning; red: fails).
+        for (kk, v) in verdicts.iter().enumerate() {
+            let c = match v {
+                PointVerdict::Warn => WARN,
+                PointVerdict::Fail => FAIL,
+                _ => continue,
+            };
+            let x = xs[kk] / sx;
+            let y = yr.1 - 0.05 * (yr.1 - yr.0);
+            chart
+                .draw_series(std::iter::once(TriangleMarker::new((x, y), 9, c.filled())))
+                .map_err(de)?;
+        }
         if any_failed {
-            legend_line(&legend_area, y, FAIL, 0, "failed point (tick at bottom)")?;
+            y = legend_line(&legend_area, y, FAIL, 0, "failed point (tick at bottom)")?;
+        }
+        // The verdict marks are explained once, beside the first panel.
+        if k == 0 && verdicts.contains(&PointVerdict::Fail) {
+            y = legend_line(
+                &legend_area,
+                y,
+                FAIL,
+                0,
+                "top mark: fails (saturation, no regulation)",
+            )?;
+        }
+        if k == 0 && verdicts.contains(&PointVerdict::Warn) {
+            legend_line(&legend_area, y, WARN, 0, "top mark: audible or duty > 95 %")?;
         }
     }
     root.present().map_err(de)?;
@@ -364,8 +427,22 @@ fn mode_words(t: &StudyTable) -> Vec<Option<String>> {
         .collect()
 }
 
-fn fail_flags(t: &StudyTable) -> Vec<bool> {
-    t.rows.iter().map(|r| !r.ok()).collect()
+/// Where the nominal design sits on a 2-D map (its two input values),
+/// when both are plain numbers.
+pub(crate) fn nominal_point(t: &StudyTable) -> Option<(f64, f64)> {
+    match t.manifest.nominal_inputs.as_slice() {
+        [Some(x), Some(y), ..] if x.is_finite() && y.is_finite() => Some((*x, *y)),
+        _ => None,
+    }
+}
+
+/// Each point's verdict, as the sweep plots mark it (see
+/// [`sim_core::study::rows::Manifest::check_point`]).
+pub(crate) fn verdict_marks(t: &StudyTable) -> Vec<PointVerdict> {
+    t.rows
+        .iter()
+        .map(|r| t.manifest.check_point(r).verdict)
+        .collect()
 }
 
 fn subtitle(t: &StudyTable) -> String {
@@ -397,7 +474,7 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
     let path = t.manifest.inputs[0].clone();
     let xs: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
     let modes = mode_words(t);
-    let failed = fail_flags(t);
+    let verdicts = verdict_marks(t);
     let band = Band {
         label: "LED current min to max (ripple band)".into(),
         color: LED,
@@ -459,32 +536,25 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
         },
     ];
     let title = format!(
-        "{} — sweep of {path}: LED current and inductor stress",
-        t.manifest.scenario
+        "{} — {} sweep: LED current and inductor stress",
+        t.manifest.scenario,
+        crate::plot::field_name(&path)
     );
-    render(current, |root| {
-        draw_sweep(
-            root,
-            &title,
-            &subtitle(t),
-            &path,
-            &xs,
-            &modes,
-            &failed,
-            &panels,
-        )
-    })?;
+    let current_title = title;
+    let current_panels = panels;
     let panels = [
         SweepPanel {
             quantity: "Frequency".into(),
             unit: "Hz",
             prefixed: true,
-            curves: vec![Curve {
+            curves: std::iter::once(Curve {
                 label: "switching frequency".into(),
                 color: INDUCTOR,
                 dashed: false,
                 points: metric_points(t, "switching_frequency_hz", 1.0),
-            }],
+            })
+            .chain(frequency_limits(t))
+            .collect(),
             band: None,
         },
         SweepPanel {
@@ -513,21 +583,81 @@ pub fn sweep_1d(t: &StudyTable, current: &Path, operation: &Path) -> Result<()> 
         },
     ];
     let title = format!(
-        "{} — sweep of {path}: frequency, duty, efficiency",
-        t.manifest.scenario
+        "{} — {} sweep: frequency, duty, efficiency",
+        t.manifest.scenario,
+        crate::plot::field_name(&path)
     );
-    render(operation, |root| {
-        draw_sweep(
-            root,
-            &title,
-            &subtitle(t),
-            &path,
-            &xs,
-            &modes,
-            &failed,
-            &panels,
-        )
-    })
+    // The two plots are drawn and encoded side by side.
+    let (a, b) = rayon::join(
+        || {
+            render(current, |root| {
+                draw_sweep(
+                    root,
+                    &current_title,
+                    &subtitle(t),
+                    &path,
+                    &xs,
+                    &modes,
+                    &verdicts,
+                    &current_panels,
+                )
+            })
+        },
+        || {
+            render(operation, |root| {
+                draw_sweep(
+                    root,
+                    &title,
+                    &subtitle(t),
+                    &path,
+                    &xs,
+                    &modes,
+                    &verdicts,
+                    &panels,
+                )
+            })
+        },
+    );
+    a.and(b)
+}
+
+/// Lowest frequency of the audible band, Hz: switching below it can be
+/// heard from the inductor and capacitors (common practice).
+pub const AUDIBLE_LIMIT_HZ: f64 = 20e3;
+
+/// The limit lines of the frequency panel: the audible limit, the
+/// controller's highest frequency and, from its shortest on-time, the
+/// highest frequency each point's duty allows (f = D / t_on,min).
+fn frequency_limits(t: &StudyTable) -> Vec<Curve> {
+    let xs: Vec<f64> = t.rows.iter().map(|r| r.input(0)).collect();
+    let flat = |v: f64| xs.iter().map(|&x| Some((x, v))).collect::<Vec<_>>();
+    let mut out = vec![Curve {
+        label: "20 kHz (audible below)".into(),
+        color: FAIL,
+        dashed: true,
+        points: flat(AUDIBLE_LIMIT_HZ),
+    }];
+    if let Some(f) = t.manifest.controller_max_frequency_hz {
+        out.push(Curve {
+            label: format!("controller max {}", eng(f, "Hz")),
+            color: INK,
+            dashed: true,
+            points: flat(f),
+        });
+    }
+    if let Some(ton) = t.manifest.controller_min_on_time_s.filter(|v| *v > 0.0) {
+        out.push(Curve {
+            label: format!("max at min on-time {}", eng(ton, "s")),
+            color: INDUCTOR_LIGHT,
+            dashed: true,
+            points: t
+                .rows
+                .iter()
+                .map(|r| r.metric("duty").map(|d| (r.input(0), d / ton)))
+                .collect(),
+        });
+    }
+    out
 }
 
 /// Our colour scale for heat maps: deep blue, through teal, to sand.
@@ -546,6 +676,7 @@ fn scale_colour(f: f64) -> RGBColor {
 }
 
 /// How a 2-D map colours its cells.
+#[derive(Debug, Clone, Copy)]
 pub enum MapKind<'a> {
     /// Conduction mode: CCM, boundary, DCM, failed.
     Mode,
@@ -667,7 +798,12 @@ pub fn grid_map(
                 )))
                 .map_err(de)?;
         }
-        // Values written in the cells when they fit (heat maps).
+        // Values written in the cells when they fit (heat maps): per cent
+        // to a tenth, other units in engineering notation.
+        let cell_text = |v: f64| match kind {
+            MapKind::Heat(_, _, _, u) if u != "%" => eng(v, u),
+            _ => format!("{v:.1}"),
+        };
         let cell_px = f64::from(WIDTH - LEGEND_WIDTH - 180) / xv.len() as f64;
         if matches!(kind, MapKind::Heat(..)) && cell_px >= 64.0 && yv.len() <= 24 {
             let span = vmax - vmin;
@@ -692,9 +828,34 @@ pub fn grid_map(
                     0.5 * (ey[j] + ey[j + 1]) / ya.scale,
                 );
                 chart
-                    .draw_series(std::iter::once(Text::new(format!("{v:.1}"), c, style)))
+                    .draw_series(std::iter::once(Text::new(cell_text(v), c, style)))
                     .map_err(de)?;
             }
+        }
+        // Points that ran with a warning or a failing verdict: a small
+        // triangle in the cell (amber: warning; red: fails).
+        let marks = verdict_marks(t);
+        for (r, v) in t.rows.iter().zip(&marks) {
+            let c = match v {
+                PointVerdict::Warn => WARN,
+                PointVerdict::Fail => FAIL,
+                _ => continue,
+            };
+            let q = (r.input(0) / xa.scale, r.input(1) / ya.scale);
+            chart
+                .draw_series(std::iter::once(TriangleMarker::new(q, 8, c.filled())))
+                .map_err(de)?;
+        }
+        // The nominal design: a ring.
+        let nominal = nominal_point(t);
+        if let Some((x, y)) = nominal {
+            let q = (x / xa.scale, y / ya.scale);
+            chart
+                .draw_series([
+                    Circle::new(q, 13, WHITE.stroke_width(6)),
+                    Circle::new(q, 13, INK.stroke_width(3)),
+                ])
+                .map_err(de)?;
         }
         if let Some((_, pts)) = overlay {
             let p: Vec<(f64, f64)> = pts
@@ -709,6 +870,15 @@ pub fn grid_map(
                 .map_err(de)?;
         }
         let mut y = 30;
+        if nominal.is_some() {
+            y = legend_line(&legend, y, INK, 0, "nominal design (ring)")?;
+        }
+        if marks.contains(&PointVerdict::Fail) {
+            y = legend_line(&legend, y, FAIL, 0, "fails: saturation or not regulating")?;
+        }
+        if marks.contains(&PointVerdict::Warn) {
+            y = legend_line(&legend, y, WARN, 0, "warning: audible or duty near 100 %")?;
+        }
         match kind {
             MapKind::Mode => {
                 let seen = |w: &str| t.rows.iter().any(|r| r.mode() == Some(w));
@@ -782,7 +952,7 @@ pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
         (
             "led_current_ripple_pct",
             1.0,
-            "LED ripple (% of average)",
+            "Peak-to-peak LED ripple relative to the average",
             "%",
         ),
         ("efficiency", 100.0, "Efficiency", "%"),
@@ -802,8 +972,14 @@ pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
             .map_or(String::new(), |s| format!(" (seed {s})"))
     );
     let failed = t.failed();
+    let corners = t.manifest.kind == sim_core::study::rows::StudyKind::Corners;
     let sub = format!(
-        "histograms of the samples that ran{}   ·   red dashed: spec limits   ·   dark dashed: median",
+        "{} that ran{}   ·   red dashed: spec limits   ·   dark dashed: median",
+        if corners {
+            "one bar per corner"
+        } else {
+            "histograms of the samples"
+        },
         if failed > 0 {
             format!(" ({failed} failed, not shown)")
         } else {
@@ -877,11 +1053,148 @@ pub fn spread_histograms(t: &StudyTable, out: &Path) -> Result<()> {
                 }
                 _ => {}
             }
-            histogram(cell, label, unit, &v, &marks)?;
+            if corners {
+                // One bar per corner, in the table's order: a handful of
+                // deliberate extremes is no distribution to bin.
+                corner_bars(cell, label, unit, &corner_values(t, name, *k), &marks)?;
+            } else {
+                histogram(cell, label, unit, &v, &marks)?;
+            }
         }
         root.present().map_err(de)?;
         Ok(())
     })
+}
+
+/// Each corner's label (its number when unlabelled) and value of a
+/// metric times `k` (`None`: the corner did not run).
+pub(crate) fn corner_values(t: &StudyTable, metric: &str, k: f64) -> Vec<(String, Option<f64>)> {
+    t.rows
+        .iter()
+        .enumerate()
+        .map(|(j, r)| {
+            let name = r.label().map_or(format!("#{}", j + 1), str::to_string);
+            (
+                name,
+                r.metric(metric).map(|x| x * k).filter(|x| x.is_finite()),
+            )
+        })
+        .collect()
+}
+
+/// Horizontal bars, one per corner (top to bottom in the table's order),
+/// from the left edge of the value axis to the corner's value; spec limits
+/// and the median as dashed lines.
+fn corner_bars(
+    cell: &DrawingArea<BitMapBackend, Shift>,
+    label: &str,
+    unit: &str,
+    items: &[(String, Option<f64>)],
+    marks: &[Mark],
+) -> Result<()> {
+    let (legend, area) = cell.split_vertically(64);
+    legend
+        .draw(&Text::new(label.to_string(), (40, 6), bold(22)))
+        .map_err(de)?;
+    let mut lx = 40;
+    for m in marks {
+        legend
+            .draw(&DashedPathElement::new(
+                vec![(lx, 46), (lx + 28, 46)],
+                6,
+                4,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+        legend
+            .draw(&Text::new(m.label.clone(), (lx + 34, 36), font(17)))
+            .map_err(de)?;
+        lx += 44 + 9 * m.label.chars().count() as i32;
+    }
+    let vals: Vec<f64> = items.iter().filter_map(|i| i.1).collect();
+    if vals.is_empty() {
+        area.draw(&Text::new("no corner ran".to_string(), (60, 120), font(20)))
+            .map_err(de)?;
+        return Ok(());
+    }
+    let mut lo = vals.iter().copied().fold(f64::INFINITY, f64::min);
+    let mut hi = vals.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    for m in marks {
+        lo = lo.min(m.x);
+        hi = hi.max(m.x);
+    }
+    let span = (hi - lo).max(1e-9 * hi.abs().max(1e-30));
+    let (lo, hi) = (lo - 0.08 * span, hi + 0.05 * span);
+    let ax = if unit == "%" {
+        Axis {
+            scale: 1.0,
+            prefix: "",
+        }
+    } else {
+        Axis::for_magnitude(lo.abs().max(hi.abs()))
+    };
+    let n = items.len();
+    let xr = (lo / ax.scale, hi / ax.scale);
+    let xd = tick_decimals(xr.1 - xr.0, 6);
+    let mut chart = ChartBuilder::on(&area)
+        .margin_left(16)
+        .margin_right(30)
+        .margin_top(6)
+        .margin_bottom(8)
+        .x_label_area_size(56)
+        .y_label_area_size(150)
+        .build_cartesian_2d(xr.0..xr.1, -0.5..(n as f64 - 0.5))
+        .map_err(de)?;
+    let x_fmt = |v: &f64| tick(*v, xd);
+    // Corner k is drawn at y = n − 1 − k, so the first is at the top.
+    let y_fmt = |v: &f64| {
+        let k = (n as f64 - 1.0 - v.round()) as usize;
+        let name = items.get(k).map_or("", |i| i.0.as_str());
+        name.chars().take(18).collect::<String>()
+    };
+    let unit_text = if unit == "%" {
+        "%".to_string()
+    } else {
+        format!("{}{unit}", ax.prefix)
+    };
+    chart
+        .configure_mesh()
+        .x_labels(6)
+        .y_labels(n.min(24))
+        .disable_y_mesh()
+        .light_line_style(GRID)
+        .bold_line_style(GRID_MAJOR)
+        .axis_style(INK)
+        .label_style(font(16))
+        .axis_desc_style(font(19))
+        .x_desc(format!("{label} ({unit_text})"))
+        .x_label_formatter(&x_fmt)
+        .y_label_formatter(&y_fmt)
+        .draw()
+        .map_err(de)?;
+    let h = 0.36;
+    chart
+        .draw_series(items.iter().enumerate().filter_map(|(k, (_, v))| {
+            let v = (*v)?;
+            let y = (n - 1 - k) as f64;
+            Some(Rectangle::new(
+                [(xr.0, y - h), (v / ax.scale, y + h)],
+                lighten(INDUCTOR, 0.8).filled(),
+            ))
+        }))
+        .map_err(de)?;
+    for m in marks {
+        let x = m.x / ax.scale;
+        chart
+            .draw_series(DashedLineSeries::new(
+                vec![(x, -0.5), (x, n as f64 - 0.5)],
+                10,
+                7,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+    }
+    Ok(())
 }
 
 fn show(v: f64, unit: &str) -> String {
@@ -1019,4 +1332,159 @@ fn histogram(
             .map_err(de)?;
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sim_core::study::run::{Hooks, RunSettings};
+    use sim_core::study::spread::{corners, Distribution, PartTolerance, Tolerances};
+    use sim_core::study::sweep::sweep;
+    use sim_core::study::vary::{Grid, Vary};
+
+    fn grid(s: &sim_core::Scenario, specs: &[&str]) -> Grid {
+        Grid::new(specs.iter().map(|v| Vary::parse(v, s).unwrap()).collect()).unwrap()
+    }
+
+    /// The frequency panel carries the 20 kHz line and the controller's
+    /// limits: its maximum frequency, and from its minimum on-time the
+    /// highest frequency each point's duty allows (f = D / t_on,min: the
+    /// on-time is D/f; Erickson & Maksimovic, 3rd ed., ch. 2).
+    #[test]
+    fn frequency_panel_has_the_limit_lines() {
+        let mut s = sim_core::scenario::template();
+        s.parts.controller.max_frequency_hz = Some(1e6);
+        s.parts.controller.min_on_time_s = Some(200e-9);
+        let t = sweep(
+            &s,
+            &grid(&s, &["supply.voltage_v=10.5:14:3"]),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        );
+        let lines = frequency_limits(&t);
+        assert_eq!(lines.len(), 3);
+        assert!(lines[0]
+            .points
+            .iter()
+            .all(|p| (p.unwrap().1 - 20e3).abs() < 1e-9));
+        assert!(lines[1]
+            .points
+            .iter()
+            .all(|p| (p.unwrap().1 - 1e6).abs() < 1e-6));
+        for (r, p) in t.rows.iter().zip(&lines[2].points) {
+            let d = r.metric("on_time_s").unwrap() / r.metric("period_s").unwrap();
+            assert!((p.unwrap().1 - d / 200e-9).abs() < 1e-6 * p.unwrap().1);
+        }
+    }
+
+    /// A 2-D map marks the nominal design at the scenario's own values,
+    /// and the LED current map's values are the rows' averages.
+    #[test]
+    fn maps_mark_the_nominal_design() {
+        let s = sim_core::scenario::template();
+        let t = sweep(
+            &s,
+            &grid(
+                &s,
+                &[
+                    "supply.voltage_v=10.5:14:2",
+                    "inductor.inductance_h=47u:100u:2",
+                ],
+            ),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        );
+        let (x, y) = nominal_point(&t).unwrap();
+        assert!((x - 12.0).abs() < 1e-12 && (y - 68e-6).abs() < 1e-18);
+        let dir = std::env::temp_dir().join(format!("chopwave-maps-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let f = dir.join("led.png");
+        grid_map(
+            &t,
+            MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
+            "t",
+            None,
+            &f,
+        )
+        .unwrap();
+        assert!(
+            png::Decoder::new(std::io::BufReader::new(std::fs::File::open(&f).unwrap()))
+                .read_info()
+                .is_ok()
+        );
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    /// Corners are shown one bar per corner, each at its own value (a
+    /// histogram of four deliberate extremes bins them into counts).
+    #[test]
+    fn corners_are_one_bar_each() {
+        let mut s = sim_core::scenario::template();
+        s.tolerances = Some(Tolerances {
+            parts: vec![PartTolerance {
+                path: "inductor.inductance_h".into(),
+                tolerance_pct: 20.0,
+                distribution: Distribution::Uniform,
+            }],
+            led_forward_voltage: None,
+            supply_over_range: true,
+        });
+        let t = corners(
+            &s,
+            &SpecLimits::default(),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        )
+        .unwrap();
+        let bars = corner_values(&t, "inductor_ripple_pp_a", 1.0);
+        assert_eq!(bars.len(), t.rows.len());
+        assert_eq!(bars.len(), 4);
+        for (b, r) in bars.iter().zip(&t.rows) {
+            assert_eq!(Some(b.0.as_str()), r.label());
+            assert!((b.1.unwrap() - r.metric("inductor_ripple_pp_a").unwrap()).abs() < 1e-15);
+        }
+        // Constant off-time ripple ΔI ≈ V_out·t_off/L (Erickson &
+        // Maksimovic, ch. 2): the low-L corners have the larger ripple.
+        let low: f64 = bars
+            .iter()
+            .filter(|b| b.0.contains("inductor.inductance_h low"))
+            .map(|b| b.1.unwrap())
+            .fold(0.0, f64::max);
+        let high: f64 = bars
+            .iter()
+            .filter(|b| b.0.contains("inductor.inductance_h high"))
+            .map(|b| b.1.unwrap())
+            .fold(0.0, f64::max);
+        assert!(low > high, "{low} {high}");
+    }
+
+    /// Points with a warning or a failing verdict are marked: a long off-
+    /// time drops the frequency below 20 kHz (common practice: the upper
+    /// limit of hearing) and a rating under the peak threshold fails all.
+    #[test]
+    fn sweep_marks_follow_the_verdicts() {
+        let mut s = sim_core::scenario::template();
+        s.inductor.inductance_h = 1e-3;
+        let t = sweep(
+            &s,
+            &grid(&s, &["controller.off_time_s=5u:60u:4"]),
+            &RunSettings::default(),
+            None,
+            &Hooks::default(),
+        );
+        let marks = verdict_marks(&t);
+        for (r, m) in t.rows.iter().zip(&marks) {
+            let f = r.metric("switching_frequency_hz").unwrap();
+            let want = if f < 20e3 {
+                PointVerdict::Warn
+            } else {
+                PointVerdict::Ok
+            };
+            assert_eq!(*m, want, "{f} Hz");
+        }
+        assert!(marks.contains(&PointVerdict::Warn) && marks.contains(&PointVerdict::Ok));
+    }
 }

@@ -471,8 +471,14 @@ fn a_killed_sweep_keeps_its_rows_and_resumes_to_the_same_files() {
     );
     for l in kept {
         let k = l["row"]["index"].as_u64().unwrap() as usize;
-        // Every kept row equals the full run's, to the last printed digit.
-        assert_eq!(l["row"], rows[k], "row {k}");
+        // Every kept row equals the full run's, to the last printed digit
+        // (the table adds each point's verdict, derived from the row).
+        let mut want = rows[k].clone();
+        if let Some(o) = want.as_object_mut() {
+            o.remove("verdict");
+            o.remove("warnings");
+        }
+        assert_eq!(l["row"], want, "row {k}");
     }
 
     // A resume with other options is refused and leaves the journal be.

@@ -21,6 +21,11 @@ use crate::scenario::Scenario;
 /// integrated parts; check the chosen part's dropout).
 pub const LINEAR_HEADROOM_V: f64 = 1.0;
 
+/// The supply span either side of nominal compared when the scenario
+/// declares no input range: ±10 % (common practice for a regulated
+/// supply's tolerance).
+pub const ASSUMED_SPAN: f64 = 0.1;
+
 /// One operating point of a driver at one supply voltage.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct OperatingPoint {
@@ -65,6 +70,10 @@ pub struct Comparison {
     pub linear_headroom_v: f64,
     /// The switching design, the resistor and the linear regulator.
     pub drivers: Vec<DriverSweep>,
+    /// The relative span either side of the nominal supply used because
+    /// the scenario declares no `supply.input_range_v` (e.g. 0.1: ±10 %);
+    /// `None` when the declared range was used.
+    pub assumed_span: Option<f64>,
 }
 
 /// Finds the current where `f(i) = 0` for an increasing `f` on `[0, hi]`.
@@ -161,6 +170,7 @@ pub fn compare(
         led_dynamic_resistance_ohm: rd,
         resistor_sensitivity_a_per_v: r.map(|r| 1.0 / (r + rd)),
         linear_headroom_v: LINEAR_HEADROOM_V,
+        assumed_span: None,
         drivers: vec![
             DriverSweep {
                 driver: "switching",

@@ -279,12 +279,8 @@ fn assess_at(
     };
     let mut result = result;
     if want_startup {
-        result.startup = Some(crate::simulate::startup_transient(
-            &eff,
-            run.engine,
-            result.steady.state_at_turn_on,
-            progress,
-        )?);
+        let startup = crate::simulate::startup_transient(&eff, run.engine, &result, progress)?;
+        result.startup = Some(startup);
     }
     if !converged {
         result.warnings.push(format!(
@@ -389,14 +385,20 @@ fn compare(
     let v_nom = eff.supply.voltage_v;
     let mut supply = vec![v_nom];
     let mut nominal = 0;
-    if let Some(r) = eff.supply.input_range_v {
-        if r.min_v < v_nom {
-            supply.insert(0, r.min_v);
-            nominal = 1;
-        }
-        if r.max_v > v_nom {
-            supply.push(r.max_v);
-        }
+    // Without a declared range, the same ±span the plot shows.
+    let (min_v, max_v) = match eff.supply.input_range_v {
+        Some(r) => (r.min_v, r.max_v),
+        None => (
+            v_nom * (1.0 - alternatives::ASSUMED_SPAN),
+            v_nom * (1.0 + alternatives::ASSUMED_SPAN),
+        ),
+    };
+    if min_v < v_nom {
+        supply.insert(0, min_v);
+        nominal = 1;
+    }
+    if max_v > v_nom {
+        supply.push(max_v);
     }
     let run = RunOptions {
         initial_state: None,
@@ -423,5 +425,11 @@ fn compare(
     // Sized for the LED current the switching design delivers at the
     // nominal supply, so all three drive the LEDs equally there.
     let target = nominal_run.metrics.led_current_avg_a;
-    Ok(alternatives::compare(eff, target, &supply, nominal, points))
+    let mut c = alternatives::compare(eff, target, &supply, nominal, points);
+    c.assumed_span = eff
+        .supply
+        .input_range_v
+        .is_none()
+        .then_some(alternatives::ASSUMED_SPAN);
+    Ok(c)
 }

@@ -56,6 +56,182 @@ pub struct ShardInfo {
     pub end: usize,
 }
 
+/// Switching below this frequency can be heard, Hz (the upper limit of
+/// hearing, about 20 kHz; common practice).
+pub const AUDIBLE_LIMIT_HZ: f64 = 20e3;
+
+/// Duty above which a point has almost no room left to regulate (the same
+/// limit the run's own warning uses; common practice).
+pub const DUTY_NEAR_FULL: f64 = 0.95;
+
+/// Relative shortfall of the inductor peak from the controller's
+/// switch-off threshold beyond which a point is called not regulating: a
+/// current-mode controller turns off only at its threshold (delays only
+/// add overshoot), so a peak short of it means the supply could not
+/// drive the current there and the switch was ended by something else
+/// (a maximum on-time, the supply running out). 2 %: common practice.
+pub const REGULATION_TOLERANCE: f64 = 0.02;
+
+/// A warning about one point of a study, with the numbers behind it.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum PointWarning {
+    /// Switching frequency below [`AUDIBLE_LIMIT_HZ`].
+    Audible {
+        /// The point's switching frequency, Hz.
+        frequency_hz: f64,
+    },
+    /// Duty above [`DUTY_NEAR_FULL`].
+    DutyNearFull {
+        /// The point's duty (0–1).
+        duty: f64,
+    },
+    /// Inductor peak current above its saturation rating.
+    Saturation {
+        /// The point's inductor peak current, A.
+        peak_a: f64,
+        /// The rating, A.
+        rating_a: f64,
+    },
+    /// Inductor peak short of the controller's switch-off threshold by
+    /// more than [`REGULATION_TOLERANCE`]: the driver has run out of
+    /// supply headroom and no longer sets the current.
+    NotRegulating {
+        /// The point's inductor peak current, A.
+        peak_a: f64,
+        /// The switch-off threshold, A.
+        threshold_a: f64,
+    },
+}
+
+impl PointWarning {
+    /// A short code for tables (`audible`, `duty_near_full`,
+    /// `saturation`, `not_regulating`).
+    pub fn code(&self) -> &'static str {
+        match self {
+            PointWarning::Audible { .. } => "audible",
+            PointWarning::DutyNearFull { .. } => "duty_near_full",
+            PointWarning::Saturation { .. } => "saturation",
+            PointWarning::NotRegulating { .. } => "not_regulating",
+        }
+    }
+    /// Whether this warning makes the point fail (saturation, not
+    /// regulating) rather than only warn.
+    pub fn fails(&self) -> bool {
+        matches!(
+            self,
+            PointWarning::Saturation { .. } | PointWarning::NotRegulating { .. }
+        )
+    }
+}
+
+/// The verdict on one point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PointVerdict {
+    /// Ran, nothing to flag.
+    Ok,
+    /// Ran with a warning (audible, duty near 100 %).
+    Warn,
+    /// Ran but fails (saturation, not regulating).
+    Fail,
+    /// Did not run.
+    NotRun,
+}
+
+impl PointVerdict {
+    /// The verdict as a word.
+    pub fn word(self) -> &'static str {
+        match self {
+            PointVerdict::Ok => "ok",
+            PointVerdict::Warn => "warn",
+            PointVerdict::Fail => "fail",
+            PointVerdict::NotRun => "not_run",
+        }
+    }
+}
+
+/// A point's verdict and its warnings.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PointCheck {
+    /// The verdict.
+    pub verdict: PointVerdict,
+    /// Every warning, in a fixed order.
+    pub warnings: Vec<PointWarning>,
+}
+
+impl PointCheck {
+    /// The warnings' codes joined by `;` (empty when none).
+    pub fn codes(&self) -> String {
+        self.warnings
+            .iter()
+            .map(PointWarning::code)
+            .collect::<Vec<_>>()
+            .join(";")
+    }
+}
+
+impl Manifest {
+    /// The verdict on one row of this study, from its metrics and the
+    /// manifest's ratings alone (so a table read from a file gets the
+    /// same verdicts). The threshold test is left out when an input
+    /// changes a controller setting (a swept threshold moves it).
+    pub fn check_point(&self, r: &Row) -> PointCheck {
+        if !r.ok() {
+            return PointCheck {
+                verdict: PointVerdict::NotRun,
+                warnings: vec![],
+            };
+        }
+        let mut w = Vec::new();
+        if let Some(f) = r.metric("switching_frequency_hz") {
+            if f < AUDIBLE_LIMIT_HZ {
+                w.push(PointWarning::Audible { frequency_hz: f });
+            }
+        }
+        let duty = r.metric("duty");
+        if let Some(d) = duty {
+            if d > DUTY_NEAR_FULL {
+                w.push(PointWarning::DutyNearFull { duty: d });
+            }
+        }
+        if let (Some(p), Some(rating)) = (
+            r.metric("inductor_current_peak_a"),
+            self.inductor_saturation_a,
+        ) {
+            if p > rating {
+                w.push(PointWarning::Saturation {
+                    peak_a: p,
+                    rating_a: rating,
+                });
+            }
+        }
+        let swept_controller = self.inputs.iter().any(|p| p.starts_with("controller."));
+        if let (Some(p), Some(th)) = (
+            r.metric("inductor_current_peak_a"),
+            self.switch_off_current_a,
+        ) {
+            if !swept_controller && th > 0.0 && p < (1.0 - REGULATION_TOLERANCE) * th {
+                w.push(PointWarning::NotRegulating {
+                    peak_a: p,
+                    threshold_a: th,
+                });
+            }
+        }
+        let verdict = if w.iter().any(PointWarning::fails) {
+            PointVerdict::Fail
+        } else if w.is_empty() {
+            PointVerdict::Ok
+        } else {
+            PointVerdict::Warn
+        };
+        PointCheck {
+            verdict,
+            warnings: w,
+        }
+    }
+}
+
 /// Describes a study: enough to check that shards belong together and to
 /// render the outputs from the rows.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -91,6 +267,26 @@ pub struct Manifest {
     pub spec: Option<SpecLimits>,
     /// Inductor saturation rating, A (for the peak-current plot).
     pub inductor_saturation_a: Option<f64>,
+    /// The controller's highest switching frequency, Hz, when the
+    /// scenario gives it (`parts.controller.max_frequency_hz`; for the
+    /// frequency plot).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub controller_max_frequency_hz: Option<f64>,
+    /// The controller's shortest on-time, s, when the scenario gives it
+    /// (`parts.controller.min_on_time_s`; for the frequency plot).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub controller_min_on_time_s: Option<f64>,
+    /// The inductor current at which the controller turns the switch
+    /// off, A (the peak threshold, or the upper one of a hysteretic
+    /// controller; absent for fixed duty): for the per-point "not
+    /// regulating" verdict.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub switch_off_current_a: Option<f64>,
+    /// The nominal design's value of each input (`null` where an input
+    /// is not a plain scenario number), to mark it on maps; empty when
+    /// none is.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub nominal_inputs: Vec<Option<f64>>,
     /// Highest supply voltage any point may apply, V (for cautions).
     pub max_supply_v: f64,
     /// The metric columns of every row, in order.
@@ -580,7 +776,16 @@ impl StudyTable {
         let head = format!("{{\"manifest\":{manifest},\"rows\":[");
         let rows = self.rows.iter().enumerate().map(|(k, r)| {
             let sep = if k == 0 { "\n" } else { ",\n" };
-            format!("{sep}{}", r.to_value())
+            let mut v = r.to_value();
+            let c = self.manifest.check_point(r);
+            if let Value::Object(o) = &mut v {
+                o.insert("verdict".into(), c.verdict.word().into());
+                o.insert(
+                    "warnings".into(),
+                    serde_json::to_value(&c.warnings).unwrap_or(Value::Null),
+                );
+            }
+            format!("{sep}{v}")
         });
         std::iter::once(head)
             .chain(rows)
@@ -607,7 +812,16 @@ impl StudyTable {
         }
         head.push("status".into());
         head.extend(m.metric_columns.iter().cloned());
-        head.extend(["cycles_to_settle", "warm_start", "error"].map(String::from));
+        head.extend(
+            [
+                "cycles_to_settle",
+                "warm_start",
+                "error",
+                "verdict",
+                "warnings",
+            ]
+            .map(String::from),
+        );
         let head = csv_line(&head);
         let rows = self.rows.iter().map(move |r| {
             let mut cells: Vec<String> = vec![r.index.to_string()];
@@ -630,6 +844,9 @@ impl StudyTable {
             );
             cells.push(r.warm_start().map_or(String::new(), |w| w.to_string()));
             cells.push(csv_cell(&r.error().map_or(Value::Null, Value::from)));
+            let c = m.check_point(r);
+            cells.push(c.verdict.word().into());
+            cells.push(c.codes());
             csv_line(&cells)
         });
         std::iter::once(head).chain(rows)

@@ -7,7 +7,7 @@ use super::rows::{
 use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
 use super::vary::Grid;
 use super::{scenario_json, scenario_with};
-use crate::scenario::Scenario;
+use crate::scenario::{ControllerSpec, Scenario};
 use crate::simulate::EngineKind;
 use std::ops::Range;
 use std::sync::Arc;
@@ -20,8 +20,23 @@ pub(crate) fn base_manifest(
     inputs: Vec<String>,
     points: usize,
 ) -> Manifest {
-    let json = scenario_json(s).to_string();
+    let value = scenario_json(s);
+    let nominal_inputs: Vec<Option<f64>> = inputs
+        .iter()
+        .map(|p| {
+            value
+                .pointer(&format!("/{}", p.replace('.', "/")))
+                .and_then(serde_json::Value::as_f64)
+        })
+        .collect();
+    let nominal_inputs = if nominal_inputs.iter().any(Option::is_some) {
+        nominal_inputs
+    } else {
+        vec![]
+    };
+    let json = value.to_string();
     Manifest {
+        nominal_inputs,
         format: STUDY_FORMAT.into(),
         kind,
         scenario: s.name.clone(),
@@ -40,6 +55,15 @@ pub(crate) fn base_manifest(
         input_notes: vec![],
         spec: None,
         inductor_saturation_a: s.inductor.saturation_current_a,
+        controller_max_frequency_hz: s.parts.controller.max_frequency_hz,
+        controller_min_on_time_s: s.parts.controller.min_on_time_s,
+        switch_off_current_a: match s.controller {
+            ControllerSpec::ConstantOffTime { peak_current_a, .. } => Some(peak_current_a),
+            ControllerSpec::Hysteretic {
+                upper_current_a, ..
+            } => Some(upper_current_a),
+            ControllerSpec::FixedDuty { .. } => None,
+        },
         max_supply_v: s.supply.voltage_v,
         metric_columns: metric_columns(),
         shard: None,
