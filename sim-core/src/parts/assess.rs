@@ -293,10 +293,7 @@ fn assess_at(
     let startup_peak = match (&result.startup, s.inductor.saturation_current_a) {
         (Some(w), _) => peak_inductor_current_a(w),
         (None, Some(_)) => peak_inductor_current_a(&crate::simulate::startup_transient(
-            &eff,
-            run.engine,
-            result.steady.state_at_turn_on,
-            progress,
+            &eff, run.engine, &result, progress,
         )?),
         (None, None) => None,
     };
