@@ -165,3 +165,130 @@ fn deep_dcm_is_explained_not_rejected() {
         "{l_uh} µH × 1.3"
     );
 }
+
+fn template_text() -> serde_json::Value {
+    serde_json::to_value(template()).unwrap()
+}
+
+fn overrides(list: &[(&str, &str)]) -> Vec<(String, String)> {
+    list.iter()
+        .map(|(p, v)| (p.to_string(), v.to_string()))
+        .collect()
+}
+
+#[test]
+fn a_duplicate_key_is_refused_with_and_without_overrides() {
+    let text = serde_json::to_string_pretty(&template_text()).unwrap();
+    // The same key twice in one object, at the top and inside sections
+    // (a tagged part included).
+    for (section, key) in [
+        ("\"supply\": {", "\"voltage_v\": 13,"),
+        ("\"inductor\": {", "\"inductance_h\": 1e-4,"),
+        ("\"load\": {", "\"count\": 7,"),
+        ("{", "\"name\": \"twice\","),
+    ] {
+        let dup = text.replacen(section, &format!("{section}\n{key}"), 1);
+        for set in [vec![], overrides(&[("supply.voltage_v", "12")])] {
+            let e = Scenario::from_json_str_with_overrides(&dup, &set).unwrap_err();
+            assert!(
+                e.to_string().contains("duplicate key"),
+                "{key} with {set:?}: {e}"
+            );
+        }
+    }
+}
+
+#[test]
+fn a_type_error_inside_a_section_names_the_full_path() {
+    for (path, bad) in [
+        ("load.count", "\"abc\""),
+        ("load.emission_coefficient", "[1]"),
+        ("diode.forward_voltage_v", "{\"a\": 1}"),
+        ("controller.off_time_s", "[2e-6]"),
+        ("inductor.inductance_h", "[1]"),
+    ] {
+        let mut v = template_text();
+        let (sec, field) = path.split_once('.').unwrap();
+        v[sec][field] = serde_json::from_str(bad).unwrap();
+        let e = Scenario::from_json_str(&v.to_string()).unwrap_err();
+        let problems = e.problems();
+        assert_eq!(problems[0].path, path, "{bad}: {e}");
+    }
+}
+
+#[test]
+fn errors_from_set_name_the_override() {
+    let text = template_text().to_string();
+    for (path, value) in [
+        ("load.count", "abc"),
+        ("supply.voltage_v", "abc"),
+        ("inductor.inductanse_h", "3"),
+        ("controller.off_time_s", "true"),
+    ] {
+        let e = Scenario::from_json_str_with_overrides(&text, &overrides(&[(path, value)]))
+            .unwrap_err();
+        match &e {
+            sim_core::ScenarioError::Override { path: p, reason } => {
+                assert_eq!(p, &format!("{path}={value}"));
+                assert!(reason.contains(path), "{reason}");
+            }
+            other => panic!("{path}={value}: {other:?}"),
+        }
+        assert!(!e.to_string().contains("line"), "{e}");
+    }
+    // A problem elsewhere in the file keeps the file's own line.
+    let mut v = template_text();
+    v["inductor"]["inductance_h"] = "4.7uu".into();
+    let pretty = serde_json::to_string_pretty(&v).unwrap();
+    let line = pretty
+        .lines()
+        .position(|l| l.contains("4.7uu"))
+        .map(|k| k + 1)
+        .unwrap();
+    let e =
+        Scenario::from_json_str_with_overrides(&pretty, &overrides(&[("supply.voltage_v", "12")]))
+            .unwrap_err();
+    match e {
+        sim_core::ScenarioError::Syntax { path, line: l, .. } => {
+            assert_eq!(path, "inductor.inductance_h");
+            assert_eq!(l, line);
+        }
+        other => panic!("{other:?}"),
+    }
+}
+
+#[test]
+fn every_problem_is_listed_including_every_unknown_field() {
+    let mut v = template_text();
+    v["inductor"]["inductanse_h"] = 1.into();
+    v["supply"]["voltag_v"] = 3.into();
+    v["load"]["cuont"] = 3.into();
+    v["simulation"]["record_cycle"] = 3.into();
+    v["nmae"] = "x".into();
+    // And a value problem beside them.
+    v["switch"]["on_resistance_ohm"] = (-1.0).into();
+    let all = Scenario::problems_in(&v.to_string(), &[]);
+    for (path, near) in [
+        ("inductor.inductanse_h", "inductance_h"),
+        ("supply.voltag_v", "voltage_v"),
+        ("load.cuont", "count"),
+        ("simulation.record_cycle", "record_cycles"),
+        ("nmae", "name"),
+    ] {
+        let p = all
+            .iter()
+            .find(|p| p.path == path)
+            .unwrap_or_else(|| panic!("{path} not listed: {all:?}"));
+        assert!(
+            p.reason.contains(&format!("did you mean `{near}`?")),
+            "{p:?}"
+        );
+    }
+    assert!(
+        all.iter().any(|p| p.path == "switch.on_resistance_ohm"),
+        "{all:?}"
+    );
+    assert_eq!(all.len(), 6, "{all:?}");
+    // A scenario that loads has none.
+    assert!(Scenario::problems_in(&template_text().to_string(), &[]).is_empty());
+}

@@ -520,8 +520,22 @@ fn fragment_loads(load: &serde_json::Value, tempco: Option<f64>) -> Result<(), F
 fn load(file: &Path, overrides: &[(String, String)]) -> Result<Scenario, Failure> {
     let text = read_text_capped(file, MAX_SCENARIO_BYTES)
         .map_err(|e| Failure::Input(format!("cannot read {}: {e}", file.display())))?;
-    Scenario::from_json_str_with_overrides(&text, overrides)
-        .map_err(|e| Failure::Input(describe_scenario_error(&file.display().to_string(), &e)))
+    let name = file.display().to_string();
+    Scenario::from_json_str_with_overrides(&text, overrides).map_err(|e| {
+        // A structural problem stops the reader at the first; list them
+        // all (every unknown field, each with its path).
+        let all = Scenario::problems_in(&text, overrides);
+        if matches!(e, ScenarioError::Syntax { .. }) && all.len() > 1 {
+            let mut m = describe_scenario_error(&name, &e);
+            m.push_str(&format!("\n{name}: {} problems found:", all.len()));
+            for p in &all {
+                m.push_str(&format!("\n  field `{}`: {}", p.path, p.reason));
+            }
+            Failure::Input(m)
+        } else {
+            Failure::Input(describe_scenario_error(&name, &e))
+        }
+    })
 }
 
 /// One clear message naming the file, each field, its value and the reason.
@@ -538,7 +552,11 @@ fn describe_scenario_error(file: &str, e: &ScenarioError) -> String {
             } else {
                 format!(" field `{path}`:")
             };
-            format!("{file}:{line}:{column}:{field} {message}")
+            if *line == 0 {
+                format!("{file}:{field} {message}")
+            } else {
+                format!("{file}:{line}:{column}:{field} {message}")
+            }
         }
         ScenarioError::Invalid(problems) => {
             let mut s = format!(
@@ -558,6 +576,7 @@ fn describe_scenario_error(file: &str, e: &ScenarioError) -> String {
             }
             s
         }
+        ScenarioError::Override { path, reason } => format!("{file}: --set {path}: {reason}"),
         other => format!("{file}: {other}"),
     }
 }
