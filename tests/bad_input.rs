@@ -292,3 +292,42 @@ fn every_problem_is_listed_including_every_unknown_field() {
     // A scenario that loads has none.
     assert!(Scenario::problems_in(&template_text().to_string(), &[]).is_empty());
 }
+
+/// The seed corpora of the `overrides` and `study_files` fuzz targets,
+/// replayed by the ordinary suite through the same calls (without the
+/// simulation): overrides through the loader and the every-problem list,
+/// which must agree on whether there is a problem; study files through
+/// the journal reader, the table reader and the merge, which must refuse
+/// a manifest claiming 1e15 points without reserving them.
+#[test]
+fn fuzz_corpora_of_overrides_and_study_files_replay() {
+    use sim_core::study::journal::read_journal;
+    use sim_core::study::rows::StudyTable;
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fuzz/corpus");
+    let mut seen = 0;
+    for entry in std::fs::read_dir(dir.join("overrides")).unwrap() {
+        let text = std::fs::read_to_string(entry.unwrap().path()).unwrap();
+        let (head, body) = text.split_once("\n\n").unwrap_or(("", &text));
+        let set: Vec<(String, String)> = head
+            .lines()
+            .filter_map(|l| l.split_once('='))
+            .map(|(p, v)| (p.trim().to_string(), v.trim().to_string()))
+            .collect();
+        let loaded = Scenario::from_json_str_with_overrides(body, &set);
+        let problems = Scenario::problems_in(body, &set);
+        assert_eq!(loaded.is_ok(), problems.is_empty(), "{problems:?}");
+        seen += 1;
+    }
+    assert!(seen >= 5);
+    let study = dir.join("study_files");
+    let read = |name: &str| std::fs::read_to_string(study.join(name)).unwrap();
+    assert!(read_journal(&read("journal.jsonl")).unwrap().is_some());
+    assert!(read_journal(&read("journal-cut.jsonl")).is_ok());
+    let pair: Vec<StudyTable> = read("shards-pair.txt")
+        .split("\n---\n")
+        .map(|p| StudyTable::from_json_text(p).unwrap())
+        .collect();
+    assert_eq!(StudyTable::merge(pair).unwrap().rows.len(), 3);
+    let e = StudyTable::from_json_text(&read("shard-claims-1e15.json")).unwrap_err();
+    assert!(e.to_string().contains("manifest"), "{e}");
+}
