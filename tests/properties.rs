@@ -160,7 +160,7 @@ fn random_designs_never_panic_and_close_the_energy_balance() {
                         Err(e) => prop_assert!(!e.to_string().is_empty()),
                         Ok(r) => {
                             ran.fetch_add(1, Ordering::Relaxed);
-                            let m = serde_json::to_value(&r.metrics).unwrap();
+                            let m = serde_json::to_value(r.metrics).unwrap();
                             let mut bad = Vec::new();
                             non_finite("metrics", &m, &mut bad);
                             prop_assert!(bad.is_empty(), "non-finite: {:?}", bad);

@@ -284,6 +284,21 @@ fn is_closed_output(what: &str) -> bool {
     what.starts_with("failed printing to stdout") || what.starts_with("failed printing to stderr")
 }
 
+/// Prints to standard output; when its reader has gone away the text is
+/// dropped (and noted), and the command goes on with its files.
+fn say(text: &str) {
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Ok(()) => {}
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => {
+            OUTPUT_CLOSED.store(true, Ordering::SeqCst);
+        }
+        Err(e) => {
+            let _ = writeln!(std::io::stderr(), "chopwave: cannot print: {e}");
+        }
+    }
+}
+
 /// Largest scenario file read, bytes (a larger one is refused unread).
 pub(crate) const MAX_SCENARIO_BYTES: u64 = 16 << 20;
 
@@ -686,14 +701,17 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     if let Some(dir) = &args.plot {
         written.extend(write_plots(&s, &a, dir, &output::file_stem(&s.name)).map_err(io_failure)?);
     }
-    if args.json {
-        println!("{}", report.to_json());
+    // A closed standard output does not stop the run: the files are
+    // written, and --strict still decides the exit code.
+    let text = if args.json {
+        report.to_json() + "\n"
     } else {
-        print!("{}", report.to_text());
-    }
+        report.to_text()
+    };
+    say(&text);
     if !quiet {
         for p in &written {
-            eprintln!("wrote {}", p.display());
+            let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
         }
     }
     if args.strict && worst(&a.checks) == Status::Fail {
@@ -794,7 +812,7 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
                     format::pct(m.efficiency),
                     elapsed.as_secs_f64()
                 );
-                println!("{line}");
+                say(&format!("{line}\n"));
                 index.push_str(&line);
                 index.push('\n');
                 for p in &f {
@@ -808,9 +826,13 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
     let index_path = out.join("index.txt");
     output::write_text(&index_path, &index).map_err(io_failure)?;
     written.push(index_path);
-    println!("\nwrote {} files into {}:", written.len(), out.display());
+    say(&format!(
+        "\nwrote {} files into {}:\n",
+        written.len(),
+        out.display()
+    ));
     for p in &written {
-        println!("  {}", p.display());
+        say(&format!("  {}\n", p.display()));
     }
     if failures.is_empty() {
         Ok(())

@@ -97,6 +97,15 @@ fn a_closed_standard_output_ends_quietly_and_keeps_the_files() {
     assert!(csv.exists(), "the run's CSV is written");
     let o = run_closed_stdout(&["check", &scenario("cabin-light-9-32v.json")]);
     assert_quiet_end(&o, "check");
+    // --strict still decides the exit code when nothing could be printed.
+    let o = run_closed_stdout(&[
+        "run",
+        &scenario("undersized-inductor-dcm.json"),
+        "--strict",
+        "--no-startup",
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o.stderr));
+    assert!(!text(&o.stderr).contains("internal error"));
     // A study writes its tables whatever happens to standard output.
     let out = d.join("study");
     let o = run_closed_stdout(&[
