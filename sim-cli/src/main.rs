@@ -284,6 +284,18 @@ fn is_closed_output(what: &str) -> bool {
     what.starts_with("failed printing to stdout") || what.starts_with("failed printing to stderr")
 }
 
+/// The outcome a command reached before printing its summary (a study
+/// whose files are written): kept so that a closed standard output while
+/// printing still ends with that exit code and message.
+static PENDING: std::sync::Mutex<Option<(u8, String)>> = std::sync::Mutex::new(None);
+
+/// Records a command's outcome before it prints (see [`PENDING`]).
+pub(crate) fn note_outcome(outcome: &Result<(), Failure>) {
+    if let (Ok(mut p), Err(f)) = (PENDING.lock(), outcome) {
+        *p = Some((f.code(), f.message().to_string()));
+    }
+}
+
 /// Prints to standard output; when its reader has gone away the text is
 /// dropped (and noted), and the command goes on with its files.
 fn say(text: &str) {
@@ -371,7 +383,15 @@ fn main() -> ExitCode {
         }
         // The reader of our output went away: end quietly (files were
         // written before anything was printed).
-        Err(_) if OUTPUT_CLOSED.load(Ordering::SeqCst) => ExitCode::SUCCESS,
+        Err(_) if OUTPUT_CLOSED.load(Ordering::SeqCst) => {
+            match PENDING.lock().ok().and_then(|mut p| p.take()) {
+                Some((code, message)) => {
+                    let _ = writeln!(std::io::stderr(), "chopwave: {message}");
+                    ExitCode::from(code)
+                }
+                None => ExitCode::SUCCESS,
+            }
+        }
         Err(_) => {
             if !quiet {
                 let _ = writeln!(
