@@ -1719,8 +1719,13 @@ fn duplicate_keys(text: &str) -> Vec<ScenarioError> {
     found
         .into_iter()
         .map(|(path, key)| {
-            // Where the second one starts, for line and column.
-            let (line, column) = locate_key(text, &key, 2);
+            // Where the second one starts, for line and column (only when
+            // the name occurs just twice in the text, so the place is sure).
+            let (line, column) = if text.matches(&format!("\"{key}\"")).count() == 2 {
+                locate_key(text, &key, 2)
+            } else {
+                (0, 0)
+            };
             ScenarioError::Syntax {
                 path,
                 message: format!("duplicate key `{key}`: it is given twice in the same object"),
