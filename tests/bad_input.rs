@@ -171,3 +171,169 @@ fn deep_dcm_is_explained_not_rejected() {
         "{l_uh} µH × 1.3"
     );
 }
+
+fn template_text() -> serde_json::Value {
+    serde_json::to_value(template()).unwrap()
+}
+
+fn overrides(list: &[(&str, &str)]) -> Vec<(String, String)> {
+    list.iter()
+        .map(|(p, v)| (p.to_string(), v.to_string()))
+        .collect()
+}
+
+#[test]
+fn a_duplicate_key_is_refused_with_and_without_overrides() {
+    let text = serde_json::to_string_pretty(&template_text()).unwrap();
+    // The same key twice in one object, at the top and inside sections
+    // (a tagged part included).
+    for (section, key) in [
+        ("\"supply\": {", "\"voltage_v\": 13,"),
+        ("\"inductor\": {", "\"inductance_h\": 1e-4,"),
+        ("\"load\": {", "\"count\": 7,"),
+        ("{", "\"name\": \"twice\","),
+    ] {
+        let dup = text.replacen(section, &format!("{section}\n{key}"), 1);
+        for set in [vec![], overrides(&[("supply.voltage_v", "12")])] {
+            let e = Scenario::from_json_str_with_overrides(&dup, &set).unwrap_err();
+            assert!(
+                e.to_string().contains("duplicate key"),
+                "{key} with {set:?}: {e}"
+            );
+        }
+    }
+}
+
+#[test]
+fn a_type_error_inside_a_section_names_the_full_path() {
+    for (path, bad) in [
+        ("load.count", "\"abc\""),
+        ("load.emission_coefficient", "[1]"),
+        ("diode.forward_voltage_v", "{\"a\": 1}"),
+        ("controller.off_time_s", "[2e-6]"),
+        ("inductor.inductance_h", "[1]"),
+    ] {
+        let mut v = template_text();
+        let (sec, field) = path.split_once('.').unwrap();
+        v[sec][field] = serde_json::from_str(bad).unwrap();
+        let e = Scenario::from_json_str(&v.to_string()).unwrap_err();
+        let problems = e.problems();
+        assert_eq!(problems[0].path, path, "{bad}: {e}");
+    }
+}
+
+#[test]
+fn errors_from_set_name_the_override() {
+    let text = template_text().to_string();
+    for (path, value) in [
+        ("load.count", "abc"),
+        ("supply.voltage_v", "abc"),
+        ("inductor.inductanse_h", "3"),
+        ("controller.off_time_s", "true"),
+    ] {
+        let e = Scenario::from_json_str_with_overrides(&text, &overrides(&[(path, value)]))
+            .unwrap_err();
+        match &e {
+            sim_core::ScenarioError::Override { path: p, reason } => {
+                assert_eq!(p, &format!("{path}={value}"));
+                assert!(reason.contains(path), "{reason}");
+            }
+            other => panic!("{path}={value}: {other:?}"),
+        }
+        assert!(!e.to_string().contains("line"), "{e}");
+    }
+    // A problem elsewhere in the file keeps the file's own line.
+    let mut v = template_text();
+    v["inductor"]["inductance_h"] = "4.7uu".into();
+    let pretty = serde_json::to_string_pretty(&v).unwrap();
+    let line = pretty
+        .lines()
+        .position(|l| l.contains("4.7uu"))
+        .map(|k| k + 1)
+        .unwrap();
+    let e =
+        Scenario::from_json_str_with_overrides(&pretty, &overrides(&[("supply.voltage_v", "12")]))
+            .unwrap_err();
+    match e {
+        sim_core::ScenarioError::Syntax { path, line: l, .. } => {
+            assert_eq!(path, "inductor.inductance_h");
+            assert_eq!(l, line);
+        }
+        other => panic!("{other:?}"),
+    }
+}
+
+#[test]
+fn every_problem_is_listed_including_every_unknown_field() {
+    let mut v = template_text();
+    v["inductor"]["inductanse_h"] = 1.into();
+    v["supply"]["voltag_v"] = 3.into();
+    v["load"]["cuont"] = 3.into();
+    v["simulation"]["record_cycle"] = 3.into();
+    v["nmae"] = "x".into();
+    // And a value problem beside them.
+    v["switch"]["on_resistance_ohm"] = (-1.0).into();
+    let all = Scenario::problems_in(&v.to_string(), &[]);
+    for (path, near) in [
+        ("inductor.inductanse_h", "inductance_h"),
+        ("supply.voltag_v", "voltage_v"),
+        ("load.cuont", "count"),
+        ("simulation.record_cycle", "record_cycles"),
+        ("nmae", "name"),
+    ] {
+        let p = all
+            .iter()
+            .find(|p| p.path == path)
+            .unwrap_or_else(|| panic!("{path} not listed: {all:?}"));
+        assert!(
+            p.reason.contains(&format!("did you mean `{near}`?")),
+            "{p:?}"
+        );
+    }
+    assert!(
+        all.iter().any(|p| p.path == "switch.on_resistance_ohm"),
+        "{all:?}"
+    );
+    assert_eq!(all.len(), 6, "{all:?}");
+    // A scenario that loads has none.
+    assert!(Scenario::problems_in(&template_text().to_string(), &[]).is_empty());
+}
+
+/// The seed corpora of the `overrides` and `study_files` fuzz targets,
+/// replayed by the ordinary suite through the same calls (without the
+/// simulation): overrides through the loader and the every-problem list,
+/// which must agree on whether there is a problem; study files through
+/// the journal reader, the table reader and the merge, which must refuse
+/// a manifest claiming 1e15 points without reserving them.
+#[test]
+fn fuzz_corpora_of_overrides_and_study_files_replay() {
+    use sim_core::study::journal::read_journal;
+    use sim_core::study::rows::StudyTable;
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fuzz/corpus");
+    let mut seen = 0;
+    for entry in std::fs::read_dir(dir.join("overrides")).unwrap() {
+        let text = std::fs::read_to_string(entry.unwrap().path()).unwrap();
+        let (head, body) = text.split_once("\n\n").unwrap_or(("", &text));
+        let set: Vec<(String, String)> = head
+            .lines()
+            .filter_map(|l| l.split_once('='))
+            .map(|(p, v)| (p.trim().to_string(), v.trim().to_string()))
+            .collect();
+        let loaded = Scenario::from_json_str_with_overrides(body, &set);
+        let problems = Scenario::problems_in(body, &set);
+        assert_eq!(loaded.is_ok(), problems.is_empty(), "{problems:?}");
+        seen += 1;
+    }
+    assert!(seen >= 5);
+    let study = dir.join("study_files");
+    let read = |name: &str| std::fs::read_to_string(study.join(name)).unwrap();
+    assert!(read_journal(&read("journal.jsonl")).unwrap().is_some());
+    assert!(read_journal(&read("journal-cut.jsonl")).is_ok());
+    let pair: Vec<StudyTable> = read("shards-pair.txt")
+        .split("\n---\n")
+        .map(|p| StudyTable::from_json_text(p).unwrap())
+        .collect();
+    assert_eq!(StudyTable::merge(pair).unwrap().rows.len(), 3);
+    let e = StudyTable::from_json_text(&read("shard-claims-1e15.json")).unwrap_err();
+    assert!(e.to_string().contains("manifest"), "{e}");
+}

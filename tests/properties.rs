@@ -108,37 +108,101 @@ fn design() -> impl Strategy<Value = Scenario> {
         })
 }
 
-proptest! {
-    #![proptest_config(ProptestConfig { cases: 96, failure_persistence: None, ..ProptestConfig::default() })]
+/// Every number in a JSON value, nested objects and arrays included, with
+/// its path; `null` stands for a non-finite number (serde writes NaN and
+/// infinities as `null`), so it counts as one.
+fn non_finite(path: &str, v: &serde_json::Value, out: &mut Vec<String>) {
+    match v {
+        serde_json::Value::Null => out.push(format!("{path} = null")),
+        serde_json::Value::Number(n) => {
+            if !n.as_f64().is_some_and(f64::is_finite) {
+                out.push(format!("{path} = {n}"));
+            }
+        }
+        serde_json::Value::Array(a) => {
+            for (k, x) in a.iter().enumerate() {
+                non_finite(&format!("{path}[{k}]"), x, out);
+            }
+        }
+        serde_json::Value::Object(o) => {
+            for (k, x) in o {
+                non_finite(&format!("{path}.{k}"), x, out);
+            }
+        }
+        serde_json::Value::Bool(_) | serde_json::Value::String(_) => {}
+    }
+}
 
-    #[test]
-    fn random_designs_never_panic_and_close_the_energy_balance(s in design()) {
-        // Invalid designs must be refused with named fields; valid ones run.
-        match s.validate() {
-            Err(e) => prop_assert!(e.problems().iter().all(|p| !p.path.is_empty())),
-            Ok(()) => match simulate(&s, &RunOptions::default()) {
-                // A design that does not settle in the cycle cap, or waits
-                // too long on a threshold, is reported, not crashed.
-                Err(e) => prop_assert!(!e.to_string().is_empty()),
-                Ok(r) => {
-                    let m = serde_json::to_value(r.metrics).unwrap();
-                    for (k, v) in m.as_object().unwrap() {
-                        if let Some(x) = v.as_f64() {
-                            prop_assert!(x.is_finite(), "{} = {}", k, x);
+#[test]
+fn the_finiteness_check_sees_nulls_and_nested_values() {
+    let v = serde_json::json!({"a": 1.0, "b": {"c": null, "d": [2.0, null]}, "e": "x"});
+    let mut out = Vec::new();
+    non_finite("m", &v, &mut out);
+    assert_eq!(out, ["m.b.c = null", "m.b.d[1] = null"]);
+}
+
+/// Designs drawn; at least this many must be valid and run to a result
+/// (so the checks below judge real runs, not a stream of errors).
+const DESIGNS: u32 = 96;
+const MIN_RAN: usize = 64;
+
+#[test]
+fn random_designs_never_panic_and_close_the_energy_balance() {
+    use proptest::test_runner::{Config, TestRunner};
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let ran = AtomicUsize::new(0);
+    let valid = AtomicUsize::new(0);
+    let mut runner = TestRunner::new(Config {
+        cases: DESIGNS,
+        failure_persistence: None,
+        ..Config::default()
+    });
+    runner
+        .run(&design(), |s| {
+            // Invalid designs must be refused with named fields; valid ones run.
+            match s.validate() {
+                Err(e) => prop_assert!(e.problems().iter().all(|p| !p.path.is_empty())),
+                Ok(()) => {
+                    valid.fetch_add(1, Ordering::Relaxed);
+                    match simulate(&s, &RunOptions::default()) {
+                        // A design that does not settle in the cycle cap, or
+                        // waits too long on a threshold, is reported, not crashed.
+                        Err(e) => prop_assert!(!e.to_string().is_empty()),
+                        Ok(r) => {
+                            ran.fetch_add(1, Ordering::Relaxed);
+                            let m = serde_json::to_value(r.metrics).unwrap();
+                            let mut bad = Vec::new();
+                            non_finite("metrics", &m, &mut bad);
+                            prop_assert!(bad.is_empty(), "non-finite: {:?}", bad);
+                            // The residual is relative to the input energy; a
+                            // design that barely conducts (under 1 mW) leaves
+                            // only round-off of the stored energy, so it is not
+                            // judged there.
+                            if r.metrics.input_power_w > 1e-3 {
+                                prop_assert!(
+                                    r.metrics.energy_balance_residual.abs() < 1e-6,
+                                    "residual {}",
+                                    r.metrics.energy_balance_residual
+                                );
+                            }
+                            prop_assert!(r.metrics.efficiency <= 1.0 + 1e-9);
                         }
                     }
-                    // The residual is relative to the input energy; a design
-                    // that barely conducts (under 1 mW) leaves only round-off
-                    // of the stored energy, so it is not judged there.
-                    if r.metrics.input_power_w > 1e-3 {
-                        prop_assert!(r.metrics.energy_balance_residual.abs() < 1e-6,
-                            "residual {}", r.metrics.energy_balance_residual);
-                    }
-                    prop_assert!(r.metrics.efficiency <= 1.0 + 1e-9);
                 }
-            },
-        }
-    }
+            }
+            Ok(())
+        })
+        .unwrap();
+    let (ran, valid) = (ran.into_inner(), valid.into_inner());
+    println!("{valid} of {DESIGNS} random designs valid, {ran} ran");
+    assert!(
+        ran >= MIN_RAN,
+        "only {ran} of {DESIGNS} random designs ran ({valid} valid): the checks judged too few"
+    );
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 96, failure_persistence: None, ..ProptestConfig::default() })]
 
     #[test]
     fn random_bytes_never_panic_the_loader(bytes in prop::collection::vec(any::<u8>(), 0..400)) {

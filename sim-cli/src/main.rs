@@ -288,6 +288,33 @@ fn is_closed_output(what: &str) -> bool {
     what.starts_with("failed printing to stdout") || what.starts_with("failed printing to stderr")
 }
 
+/// The outcome a command reached before printing its summary (a study
+/// whose files are written): kept so that a closed standard output while
+/// printing still ends with that exit code and message.
+static PENDING: std::sync::Mutex<Option<(u8, String)>> = std::sync::Mutex::new(None);
+
+/// Records a command's outcome before it prints (see [`PENDING`]).
+pub(crate) fn note_outcome(outcome: &Result<(), Failure>) {
+    if let (Ok(mut p), Err(f)) = (PENDING.lock(), outcome) {
+        *p = Some((f.code(), f.message().to_string()));
+    }
+}
+
+/// Prints to standard output; when its reader has gone away the text is
+/// dropped (and noted), and the command goes on with its files.
+fn say(text: &str) {
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Ok(()) => {}
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => {
+            OUTPUT_CLOSED.store(true, Ordering::SeqCst);
+        }
+        Err(e) => {
+            let _ = writeln!(std::io::stderr(), "chopwave: cannot print: {e}");
+        }
+    }
+}
+
 /// Largest scenario file read, bytes (a larger one is refused unread).
 pub(crate) const MAX_SCENARIO_BYTES: u64 = 16 << 20;
 
@@ -360,7 +387,15 @@ fn main() -> ExitCode {
         }
         // The reader of our output went away: end quietly (files were
         // written before anything was printed).
-        Err(_) if OUTPUT_CLOSED.load(Ordering::SeqCst) => ExitCode::SUCCESS,
+        Err(_) if OUTPUT_CLOSED.load(Ordering::SeqCst) => {
+            match PENDING.lock().ok().and_then(|mut p| p.take()) {
+                Some((code, message)) => {
+                    let _ = writeln!(std::io::stderr(), "chopwave: {message}");
+                    ExitCode::from(code)
+                }
+                None => ExitCode::SUCCESS,
+            }
+        }
         Err(_) => {
             if !quiet {
                 let _ = writeln!(
@@ -552,8 +587,22 @@ fn fragment_loads(load: &serde_json::Value, tempco: Option<f64>) -> Result<(), F
 fn load(file: &Path, overrides: &[(String, String)]) -> Result<Scenario, Failure> {
     let text = read_text_capped(file, MAX_SCENARIO_BYTES)
         .map_err(|e| Failure::Input(format!("cannot read {}: {e}", file.display())))?;
-    Scenario::from_json_str_with_overrides(&text, overrides)
-        .map_err(|e| Failure::Input(describe_scenario_error(&file.display().to_string(), &e)))
+    let name = file.display().to_string();
+    Scenario::from_json_str_with_overrides(&text, overrides).map_err(|e| {
+        // A structural problem stops the reader at the first; list them
+        // all (every unknown field, each with its path).
+        let all = Scenario::problems_in(&text, overrides);
+        if matches!(e, ScenarioError::Syntax { .. }) && all.len() > 1 {
+            let mut m = describe_scenario_error(&name, &e);
+            m.push_str(&format!("\n{name}: {} problems found:", all.len()));
+            for p in &all {
+                m.push_str(&format!("\n  field `{}`: {}", p.path, p.reason));
+            }
+            Failure::Input(m)
+        } else {
+            Failure::Input(describe_scenario_error(&name, &e))
+        }
+    })
 }
 
 /// One clear message naming the file, each field, its value and the reason.
@@ -570,7 +619,11 @@ fn describe_scenario_error(file: &str, e: &ScenarioError) -> String {
             } else {
                 format!(" field `{path}`:")
             };
-            format!("{file}:{line}:{column}:{field} {message}")
+            if *line == 0 {
+                format!("{file}:{field} {message}")
+            } else {
+                format!("{file}:{line}:{column}:{field} {message}")
+            }
         }
         ScenarioError::Invalid(problems) => {
             let mut s = format!(
@@ -590,6 +643,7 @@ fn describe_scenario_error(file: &str, e: &ScenarioError) -> String {
             }
             s
         }
+        ScenarioError::Override { path, reason } => format!("{file}: --set {path}: {reason}"),
         other => format!("{file}: {other}"),
     }
 }
@@ -699,14 +753,17 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     if let Some(dir) = &args.plot {
         written.extend(write_plots(&s, &a, dir, &output::file_stem(&s.name)).map_err(io_failure)?);
     }
-    if args.json {
-        println!("{}", report.to_json());
+    // A closed standard output does not stop the run: the files are
+    // written, and --strict still decides the exit code.
+    let text = if args.json {
+        report.to_json() + "\n"
     } else {
-        print!("{}", report.to_text());
-    }
+        report.to_text()
+    };
+    say(&text);
     if !quiet {
         for p in &written {
-            eprintln!("wrote {}", p.display());
+            let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
         }
     }
     if args.strict && worst(&a.checks) == Status::Fail {
@@ -822,7 +879,7 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
                     format::pct(m.efficiency),
                     elapsed.as_secs_f64()
                 );
-                println!("{line}");
+                say(&format!("{line}\n"));
                 index.push_str(&line);
                 index.push('\n');
                 for p in &f {
@@ -836,9 +893,13 @@ fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
     let index_path = out.join("index.txt");
     output::write_text(&index_path, &index).map_err(io_failure)?;
     written.push(index_path);
-    println!("\nwrote {} files into {}:", written.len(), out.display());
+    say(&format!(
+        "\nwrote {} files into {}:\n",
+        written.len(),
+        out.display()
+    ));
     for p in &written {
-        println!("  {}", p.display());
+        say(&format!("  {}\n", p.display()));
     }
     if failures.is_empty() {
         Ok(())

@@ -539,7 +539,8 @@ fn run_journaled(
             }
         }
         if !quiet {
-            eprintln!(
+            let _ = writeln!(
+                std::io::stderr(),
                 "resuming: {} points taken from {}",
                 resumed.len(),
                 path.display()
@@ -562,7 +563,8 @@ fn run_journaled(
             )));
         }
         if !quiet {
-            eprintln!(
+            let _ = writeln!(
+                std::io::stderr(),
                 "note: replacing {} from an earlier run (--resume would take over its points)",
                 path.display()
             );
@@ -601,7 +603,8 @@ fn run_journaled(
         resume: Some(&resumed),
     })?;
     if let Some(e) = trouble.into_inner().ok().flatten() {
-        eprintln!(
+        let _ = writeln!(
+            std::io::stderr(),
             "chopwave: warning: rows could not be added to {} ({e}); the study went on",
             path.display()
         );
@@ -688,6 +691,7 @@ fn run_study(
         common.stop_after,
         true,
     );
+    crate::note_outcome(&outcome);
     print(&t);
     print_incomplete(&t);
     print_cautions(&t);
@@ -1093,7 +1097,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     }
     if !quiet {
         for p in &written {
-            eprintln!("wrote {}", p.display());
+            let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
         }
     }
     if out_of_time > 0 || t.manifest.incomplete.is_some() {
@@ -1155,6 +1159,7 @@ pub fn run_merge(a: &MergeArgs, quiet: bool) -> Result<(), Failure> {
     let t = StudyTable::merge(tables).map_err(|e| Failure::Input(e.to_string()))?;
     let _lock = lock_out(&a.out)?;
     let outcome = finish(&t, &a.out, !a.no_plots, quiet, None, false);
+    crate::note_outcome(&outcome);
     println!(
         "merged {} shards: {} {} points of `{}`, {} failed",
         a.files.len(),

@@ -398,3 +398,38 @@ fn fit_led_refuses_points_that_define_no_led_curve() {
     let o = chopwave().arg("check").arg(&f).output().unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }
+
+#[test]
+fn check_lists_every_unknown_field() {
+    let mut v = template();
+    v["inductor"]["inductanse_h"] = 1.into();
+    v["supply"]["voltag_v"] = 3.into();
+    v["load"]["cuont"] = 3.into();
+    let d = scratch("unknown-all");
+    let f = d.join("s.json");
+    std::fs::write(&f, v.to_string()).unwrap();
+    let o = chopwave().arg("check").arg(&f).output().unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    for (path, near) in [
+        ("inductor.inductanse_h", "inductance_h"),
+        ("supply.voltag_v", "voltage_v"),
+        ("load.cuont", "count"),
+    ] {
+        let line = err
+            .lines()
+            .find(|l| l.contains(&format!("`{path}`")))
+            .unwrap_or_else(|| panic!("{path} not listed: {err}"));
+        assert!(line.contains(&format!("did you mean `{near}`")), "{line}");
+    }
+    // An error from --set names the override.
+    let t = d.join("t.json");
+    std::fs::write(&t, template().to_string()).unwrap();
+    let o = chopwave()
+        .args(["check", t.to_str().unwrap(), "--set", "load.count=abc"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("--set load.count=abc:"), "{err}");
+}

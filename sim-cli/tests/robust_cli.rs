@@ -97,6 +97,15 @@ fn a_closed_standard_output_ends_quietly_and_keeps_the_files() {
     assert!(csv.exists(), "the run's CSV is written");
     let o = run_closed_stdout(&["check", &scenario("cabin-light-9-32v.json")]);
     assert_quiet_end(&o, "check");
+    // --strict still decides the exit code when nothing could be printed.
+    let o = run_closed_stdout(&[
+        "run",
+        &scenario("undersized-inductor-dcm.json"),
+        "--strict",
+        "--no-startup",
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o.stderr));
+    assert!(!text(&o.stderr).contains("internal error"));
     // A study writes its tables whatever happens to standard output.
     let out = d.join("study");
     let o = run_closed_stdout(&[
@@ -119,6 +128,19 @@ fn a_closed_standard_output_ends_quietly_and_keeps_the_files() {
         !out.join("cabin-light-9-32v-sweep-journal.jsonl").exists(),
         "the finished study's journal is removed"
     );
+    // A study with a failed point keeps its exit code (1) and message.
+    let o = run_closed_stdout(&[
+        "sweep",
+        &scenario("cabin-light-9-32v.json"),
+        "--vary",
+        "supply.voltage_v=5,13.8",
+        "--no-plots",
+        "--out",
+        &out.display().to_string(),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
+    assert!(text(&o.stderr).contains("1 of 2 points failed"));
+    assert!(!text(&o.stderr).contains("internal error"));
 }
 
 /// The interrupted-study command of `study_cli.rs`: a sweep on the

@@ -1161,14 +1161,108 @@ impl Scenario {
         overrides: &[(String, String)],
     ) -> Result<Scenario, ScenarioError> {
         let mut value: serde_json::Value = serde_json::from_str(text).map_err(|e| syntax(e, ""))?;
+        // A key given twice is refused before the JSON value (which keeps
+        // only the last) hides it.
+        if let Some(e) = duplicate_keys(text).into_iter().next() {
+            return Err(e);
+        }
         for (path, v) in overrides {
             apply_override(&mut value, path, v)?;
         }
         if overrides.is_empty() {
             return Scenario::from_text(text);
         }
-        // Lines and columns then refer to the overridden scenario.
-        Scenario::from_text(&serde_json::to_string_pretty(&value).unwrap_or_default())
+        // Read straight from the value: an error on a field an override
+        // set names the override, any other the original file's line.
+        match structure_error(&value) {
+            None => {
+                let s = Scenario::deserialize(&value).map_err(|e| ScenarioError::Syntax {
+                    path: String::new(),
+                    message: e.to_string(),
+                    line: 0,
+                    column: 0,
+                })?;
+                s.validate()?;
+                Ok(s)
+            }
+            Some((path, message)) => {
+                let by = overrides.iter().rev().find(|(p, _)| {
+                    p == &path
+                        || p.starts_with(&format!("{path}."))
+                        || path.starts_with(&format!("{p}."))
+                });
+                if let Some((p, v)) = by {
+                    return Err(ScenarioError::Override {
+                        path: format!("{p}={v}"),
+                        reason: format!("{path}: {message}"),
+                    });
+                }
+                match Scenario::from_text(text) {
+                    Err(e @ ScenarioError::Syntax { .. })
+                        if e.problems().first().is_some_and(|f| f.path == path) =>
+                    {
+                        Err(e)
+                    }
+                    _ => Err(ScenarioError::Syntax {
+                        path,
+                        message,
+                        line: 0,
+                        column: 0,
+                    }),
+                }
+            }
+        }
+    }
+
+    /// Every problem of a scenario text with overrides, not only the
+    /// first: each duplicate key, each unknown, missing or mistyped field
+    /// (the reader continues past each by dropping the unknown field or
+    /// putting the starter scenario's value in place of the bad one), then
+    /// every value problem. Empty when the scenario loads.
+    pub fn problems_in(text: &str, overrides: &[(String, String)]) -> Vec<FieldProblem> {
+        let mut value: serde_json::Value = match serde_json::from_str(text) {
+            Ok(v) => v,
+            Err(e) => return syntax(e, "").problems(),
+        };
+        let mut out: Vec<FieldProblem> = duplicate_keys(text)
+            .into_iter()
+            .flat_map(|e| e.problems())
+            .collect();
+        for (path, v) in overrides {
+            if let Err(e) = apply_override(&mut value, path, v) {
+                out.extend(e.problems());
+            }
+        }
+        let model = serde_json::to_value(template_with_parts()).unwrap_or_default();
+        let mut seen = std::collections::HashSet::new();
+        for _ in 0..MAX_LISTED_PROBLEMS {
+            let Some((path, message)) = structure_error(&value) else {
+                break;
+            };
+            if !seen.insert((path.clone(), message.clone())) {
+                break;
+            }
+            out.push(FieldProblem {
+                path: path.clone(),
+                value: String::new(),
+                reason: message.clone(),
+            });
+            if !repair(&mut value, &model, &path, &message) {
+                break;
+            }
+        }
+        // The value problems too, once the structure reads (fields that
+        // were put right above are not listed twice).
+        if structure_error(&value).is_none() {
+            if let Err(e) = Scenario::from_json_value(&value) {
+                for p in e.problems() {
+                    if !out.iter().any(|o| o.path == p.path) {
+                        out.push(p);
+                    }
+                }
+            }
+        }
+        out
     }
 
     /// Reads and validates a scenario already parsed as JSON (a study's
@@ -1186,6 +1280,9 @@ impl Scenario {
     }
 
     fn from_text(text: &str) -> Result<Scenario, ScenarioError> {
+        if let Some(e) = duplicate_keys(text).into_iter().next() {
+            return Err(e);
+        }
         // serde_path_to_error adds the field path to line and column.
         let de = &mut serde_json::Deserializer::from_str(text);
         let scenario: Scenario = serde_path_to_error::deserialize(de).map_err(|e| {
@@ -1195,10 +1292,11 @@ impl Scenario {
             // the path stops at the part: find the field inside it.
             if let Ok(root) = serde_json::from_str::<serde_json::Value>(text) {
                 let tagged = ["diode", "load", "controller"].contains(&path.as_str());
+                let message = inner.to_string();
                 if let Some(field) = root
                     .get(&path)
                     .filter(|_| tagged)
-                    .and_then(|v| field_in(v, &inner.to_string()))
+                    .and_then(|v| culprit(&path, v, &message).or_else(|| field_in(v, &message)))
                 {
                     path = format!("{path}.{field}");
                 }
@@ -1635,6 +1733,241 @@ impl Scenario {
             );
         }
     }
+}
+
+/// Most structural problems [`Scenario::problems_in`] lists.
+const MAX_LISTED_PROBLEMS: usize = 200;
+
+/// The first structural problem of a scenario held as JSON: the full
+/// dotted path of the field (inside a tagged part too) and the message,
+/// with a suggestion for an unknown name. `None`: it reads.
+fn structure_error(value: &serde_json::Value) -> Option<(String, String)> {
+    let e = serde_path_to_error::deserialize::<_, Scenario>(value).err()?;
+    let mut path = e.path().to_string();
+    if path == "." {
+        path.clear();
+    }
+    let inner = e.into_inner().to_string();
+    if let Some(field) = value
+        .get(&path)
+        .filter(|_| TAGGED_PARTS.contains(&path.as_str()))
+        .and_then(|part| culprit(&path, part, &inner).or_else(|| field_in(part, &inner)))
+    {
+        path = format!("{path}.{field}");
+    }
+    Some((path, explain(&inner)))
+}
+
+/// The parts read as a whole by an internally tagged enum: serde's path
+/// stops at the part.
+const TAGGED_PARTS: [&str; 3] = ["diode", "load", "controller"];
+
+/// The message reading one tagged part alone gives (None: it reads).
+fn part_error(name: &str, part: &serde_json::Value) -> Option<String> {
+    let e = match name {
+        "diode" => Diode::deserialize(part).err(),
+        "load" => Load::deserialize(part).err(),
+        "controller" => ControllerSpec::deserialize(part).err(),
+        _ => None,
+    };
+    e.map(|e| e.to_string())
+}
+
+/// The field of a tagged part an error is about, found by taking fields
+/// out one at a time: the one whose absence changes the error is it
+/// (a type error is raised while the fields are read, before any
+/// "missing field" check, so taking out a good field leaves it).
+fn culprit(name: &str, part: &serde_json::Value, message: &str) -> Option<String> {
+    let obj = part.as_object()?;
+    if message.contains("unknown field") || message.contains("missing field") {
+        return None;
+    }
+    let original = part_error(name, part)?;
+    obj.keys()
+        .filter(|k| !["kind", "model"].contains(&k.as_str()))
+        .find(|k| {
+            let mut less = obj.clone();
+            less.remove(*k);
+            part_error(name, &serde_json::Value::Object(less)).as_deref() != Some(&original)
+        })
+        .cloned()
+}
+
+/// Changes `value` so that reading goes past the problem at `path`:
+/// an unknown field is dropped, a missing or bad one takes the starter
+/// scenario's value (or is dropped when it has none). False when nothing
+/// could be done.
+fn repair(
+    value: &mut serde_json::Value,
+    model: &serde_json::Value,
+    path: &str,
+    message: &str,
+) -> bool {
+    let quoted = |marker: &str| -> Option<String> {
+        let i = message.find(marker)? + marker.len();
+        let rest = &message[i..];
+        rest.find('`').map(|j| rest[..j].to_string())
+    };
+    let parts: Vec<&str> = path.split('.').filter(|p| !p.is_empty()).collect();
+    let lookup = |root: &serde_json::Value, parts: &[&str]| -> Option<serde_json::Value> {
+        parts.iter().try_fold(root, |v, p| v.get(*p)).cloned()
+    };
+    // The object the field sits in, and the field's name.
+    let (parent, field): (Vec<&str>, String) = if let Some(name) = quoted("missing field `") {
+        // The path names the object missing it (or the field, for a
+        // tagged part found by name).
+        if parts.last() == Some(&name.as_str()) {
+            (parts[..parts.len() - 1].to_vec(), name)
+        } else {
+            (parts.clone(), name)
+        }
+    } else if let Some(name) = quoted("unknown field `") {
+        if parts.last() == Some(&name.as_str()) {
+            (parts[..parts.len() - 1].to_vec(), name)
+        } else {
+            (parts.clone(), name)
+        }
+    } else if let Some((last, rest)) = parts.split_last() {
+        (rest.to_vec(), (*last).to_string())
+    } else {
+        return false;
+    };
+    let mut full = parent.clone();
+    full.push(&field);
+    let replacement = if message.contains("unknown field") {
+        None
+    } else {
+        lookup(model, &full)
+    };
+    let Some(obj) = parent
+        .iter()
+        .try_fold(&mut *value, |v, p| v.get_mut(*p))
+        .and_then(|v| v.as_object_mut())
+    else {
+        return false;
+    };
+    match replacement {
+        Some(r) => {
+            obj.insert(field, r);
+            true
+        }
+        None => obj.remove(&field).is_some(),
+    }
+}
+
+/// Every key given twice in one object of a JSON text, each as a syntax
+/// error with its path, line and column (a JSON value keeps only the
+/// last, so the check reads the text itself).
+fn duplicate_keys(text: &str) -> Vec<ScenarioError> {
+    use serde::de::{DeserializeSeed, MapAccess, SeqAccess, Visitor};
+    struct Walk<'a> {
+        path: String,
+        found: &'a std::cell::RefCell<Vec<(String, String)>>,
+    }
+    impl<'de> DeserializeSeed<'de> for Walk<'_> {
+        type Value = ();
+        fn deserialize<D: Deserializer<'de>>(self, d: D) -> Result<(), D::Error> {
+            d.deserialize_any(self)
+        }
+    }
+    impl<'de> Visitor<'de> for Walk<'_> {
+        type Value = ();
+        fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+            f.write_str("any JSON value")
+        }
+        fn visit_bool<E>(self, _: bool) -> Result<(), E> {
+            Ok(())
+        }
+        fn visit_i64<E>(self, _: i64) -> Result<(), E> {
+            Ok(())
+        }
+        fn visit_u64<E>(self, _: u64) -> Result<(), E> {
+            Ok(())
+        }
+        fn visit_f64<E>(self, _: f64) -> Result<(), E> {
+            Ok(())
+        }
+        fn visit_str<E>(self, _: &str) -> Result<(), E> {
+            Ok(())
+        }
+        fn visit_unit<E>(self) -> Result<(), E> {
+            Ok(())
+        }
+        fn visit_seq<A: SeqAccess<'de>>(self, mut a: A) -> Result<(), A::Error> {
+            let mut k = 0;
+            while a
+                .next_element_seed(Walk {
+                    path: format!("{}[{k}]", self.path),
+                    found: self.found,
+                })?
+                .is_some()
+            {
+                k += 1;
+            }
+            Ok(())
+        }
+        fn visit_map<A: MapAccess<'de>>(self, mut a: A) -> Result<(), A::Error> {
+            let mut keys = std::collections::HashSet::new();
+            while let Some(key) = a.next_key::<String>()? {
+                let path = if self.path.is_empty() {
+                    key.clone()
+                } else {
+                    format!("{}.{key}", self.path)
+                };
+                if !keys.insert(key.clone()) {
+                    self.found.borrow_mut().push((path.clone(), key));
+                }
+                a.next_value_seed(Walk {
+                    path,
+                    found: self.found,
+                })?;
+            }
+            Ok(())
+        }
+    }
+    let found = std::cell::RefCell::new(Vec::new());
+    let mut de = serde_json::Deserializer::from_str(text);
+    if (Walk {
+        path: String::new(),
+        found: &found,
+    })
+    .deserialize(&mut de)
+    .is_err()
+    {
+        return Vec::new();
+    }
+    let found = found.into_inner();
+    found
+        .into_iter()
+        .map(|(path, key)| {
+            // Where the second one starts, for line and column (only when
+            // the name occurs just twice in the text, so the place is sure).
+            let (line, column) = if text.matches(&format!("\"{key}\"")).count() == 2 {
+                locate_key(text, &key, 2)
+            } else {
+                (0, 0)
+            };
+            ScenarioError::Syntax {
+                path,
+                message: format!("duplicate key `{key}`: it is given twice in the same object"),
+                line,
+                column,
+            }
+        })
+        .collect()
+}
+
+/// Line and column (1-based) of the `nth` occurrence of `"key"` in the
+/// text (0, 0 when not found).
+fn locate_key(text: &str, key: &str, nth: usize) -> (usize, usize) {
+    let needle = format!("\"{key}\"");
+    let Some((at, _)) = text.match_indices(&needle).nth(nth.saturating_sub(1)) else {
+        return (0, 0);
+    };
+    let before = &text[..at];
+    let line = before.matches('\n').count() + 1;
+    let column = before.rfind('\n').map_or(at, |n| at - n - 1) + 1;
+    (line, column)
 }
 
 /// The field of a tagged part that an error message is about.
