@@ -274,8 +274,9 @@ mod tests {
             .check(&Budget::default(), RAISE)
             .unwrap_err();
         assert_eq!(e.what, "memory");
-        // 10 000 × 10 002 samples × (4 + 4 × 24) intervals × 56 bytes.
-        assert_eq!(e.needed, 10_000 * 10_002 * 100 * 56);
+        // 10 000 × 10 002 samples × (4 + 4 × 64) intervals (the default
+        // segment cap) × 56 bytes.
+        assert_eq!(e.needed, 10_000 * 10_002 * 260 * 56);
         let m = e.to_string();
         assert!(m.contains("simulation.record_cycles"), "{m}");
         assert!(m.contains("simulation.samples_per_interval"), "{m}");
