@@ -10,7 +10,20 @@ fn main() {
         capacitance_f: 2.2e-6,
         esr_ohm: 0.01,
     });
-    variants.push(("with cout", co));
+    variants.push(("with cout", co.clone()));
+    let mut small = co.clone();
+    small.output_capacitor = Some(Capacitor {
+        capacitance_f: 2.2e-7,
+        esr_ohm: 0.02,
+    });
+    variants.push(("with 220 nF", small.clone()));
+    // The capacitor designs with the slope bound relaxed to its loosest
+    // (voltage tolerance and tangent-point alignment only), for a ratio.
+    let mut loose = co;
+    loose.simulation.curve_slope_tolerance = 1.0;
+    variants.push(("with cout, slope 1", loose));
+    small.simulation.curve_slope_tolerance = 1.0;
+    variants.push(("with 220 nF, slope 1", small));
     let mut dcm = s.clone();
     dcm.inductor.inductance_h = 6.8e-6;
     dcm.controller = ControllerSpec::ConstantOffTime {

@@ -370,7 +370,27 @@ pub struct PwlCurve {
     /// top, that 1 % (the tail segment below it is fitted by its mean; see
     /// [`PwlCurve::fit`]).
     pub bound_from_a: f64,
+    /// For a fit with its visited extremes at tangent points (see
+    /// [`PwlCurve::fit`]): the lowest and highest currents asked for, A, and
+    /// the natural log of the breakpoint ratio; `None` otherwise.
+    pub aligned: Option<(f64, f64, f64)>,
 }
+
+/// Share of a geometric cell's log span, from its bottom, where the chord
+/// of c·ln(i) over [a, e^L·a] is parallel to the curve: at
+/// i* = a·(e^L − 1)/L (about the middle, ½ + L/24).
+fn tangent_share(log_ratio: f64) -> f64 {
+    if log_ratio < 1e-6 {
+        return 0.5 + log_ratio / 24.0;
+    }
+    (log_ratio.exp_m1() / log_ratio).ln() / log_ratio
+}
+
+/// How far (in shares of a cell's log span) the visited extremes may move
+/// from an aligned fit's tangent points before the fit is made again: the
+/// voltage error there changes by about c·(share·L)²/2, a few 1e-4 of the
+/// fit's tolerance.
+const ALIGN_SLACK: f64 = 0.05;
 
 impl PwlCurve {
     /// A single straight line v = knee + r·i above the knee.
@@ -382,6 +402,7 @@ impl PwlCurve {
             upper_a: [f64::INFINITY; MAX_SEGMENTS],
             range_a: (0.0, f64::INFINITY),
             bound_from_a: 0.0,
+            aligned: None,
         };
         c.v0_v[0] = knee_v;
         c.r_ohm[0] = r_ohm;
@@ -420,6 +441,26 @@ impl PwlCurve {
     /// The tail is steeper than the chord above it, so the curve stays
     /// concave, and its intercept is the knee.
     pub fn fit(dev: &ExpDevice, lo_a: f64, hi_a: f64, max_segments: usize, tol_v: f64) -> PwlCurve {
+        Self::fit_with_slope(dev, lo_a, hi_a, max_segments, tol_v, f64::INFINITY)
+    }
+
+    /// [`Self::fit`], for an LED with an output capacitor across it: with a
+    /// finite `slope_tol` and a range not reaching down to 1 % of its top,
+    /// the lowest and highest currents asked for sit at tangent points of
+    /// their geometric cells (where the chord is parallel to the curve), and
+    /// the cells are narrow enough that each chord's slope is within
+    /// `slope_tol` (relative) of the curve's own slope (its dynamic
+    /// resistance) over the cell, as long as the segment cap allows: what
+    /// an output capacitor's LED ripple depends on. `f64::INFINITY` bounds
+    /// the voltage error only.
+    pub fn fit_with_slope(
+        dev: &ExpDevice,
+        lo_a: f64,
+        hi_a: f64,
+        max_segments: usize,
+        tol_v: f64,
+        slope_tol: f64,
+    ) -> PwlCurve {
         let mut hi = hi_a.max(1e-9);
         let mut lo = lo_a.clamp(0.0, hi);
         let span = (hi - lo).max(0.02 * hi);
@@ -446,20 +487,68 @@ impl PwlCurve {
             }
             c * (ln_r * (1.0 + 1.0 / ln_r.exp_m1()) - 1.0 - 0.5 * ln_r)
         };
-        let mut k = 1;
-        while k < max_main && mean_shortfall(log_span / k as f64) > tol_v {
-            k += 1;
-        }
-        let ratio = (log_span / k as f64).exp();
-        let shift = mean_shortfall(log_span / k as f64);
         let mut pts = [0.0; MAX_SEGMENTS + 1];
-        for (j, p) in pts.iter_mut().enumerate().take(k + 1) {
-            *p = start * ratio.powi(j as i32);
+        let mut aligned = None;
+        let mut k = 0;
+        let mut shift = 0.0;
+        if !tail && slope_tol.is_finite() && lo_a > 0.0 && hi_a > lo_a {
+            // The lowest and highest currents asked for at tangent points
+            // of their cells: the error there is the same and stationary,
+            // so the voltage difference between them (what sets an output
+            // capacitor's LED ripple) is exact, and the chord's slope there
+            // is the curve's, with small misplacements counting only to
+            // second order.
+            let span = (hi_a / lo_a).ln();
+            // The chord of c·ln(i) over [a, e^L·a] has slope
+            // c·L/(a·(e^L − 1)); the curve's slope c/i + R falls from c/a + R
+            // to c·e^(−L)/a + R over the cell. Worst relative difference, on
+            // a cell starting a whole cell below the widened range's bottom
+            // (no cell starts lower; c/i weighs most there).
+            let r_ser = dev.count * dev.series_resistance_ohm;
+            let slope_err = |l: f64| {
+                let a = lo * (-l).exp();
+                let g = |i: f64| c / (i + dev.saturation_current_a) + r_ser;
+                let chord = (dev.voltage_v(a * l.exp()) - dev.voltage_v(a)) / (a * l.exp_m1());
+                let (ga, gb) = (g(a), g(a * l.exp()));
+                ((ga - chord) / ga).max((chord - gb) / gb)
+            };
+            let mut n = 1;
+            while n < max_main
+                && (mean_shortfall(span / n as f64) > tol_v
+                    || slope_err(span / n as f64) > slope_tol)
+            {
+                n += 1;
+            }
+            let l = span / n as f64;
+            let theta = tangent_share(l);
+            let j_lo = ((lo / lo_a).ln() / l + theta).floor();
+            let j_hi = ((hi / lo_a).ln() / l + theta).floor() + 1.0;
+            let cells = j_hi - j_lo;
+            if mean_shortfall(l) <= tol_v && cells >= 1.0 && cells <= max_main as f64 {
+                k = cells as usize;
+                shift = mean_shortfall(l);
+                for (j, p) in pts.iter_mut().enumerate().take(k + 1) {
+                    *p = lo_a * ((j_lo + j as f64 - theta) * l).exp();
+                }
+                aligned = Some((lo_a, hi_a, l));
+            }
         }
-        pts[k] = hi;
+        if aligned.is_none() {
+            k = 1;
+            while k < max_main && mean_shortfall(log_span / k as f64) > tol_v {
+                k += 1;
+            }
+            let ratio = (log_span / k as f64).exp();
+            shift = mean_shortfall(log_span / k as f64);
+            for (j, p) in pts.iter_mut().enumerate().take(k + 1) {
+                *p = start * ratio.powi(j as i32);
+            }
+            pts[k] = hi;
+        }
         let mut curve = PwlCurve::line(0.0, 0.0);
         curve.range_a = (lo, hi);
         curve.bound_from_a = start;
+        curve.aligned = aligned;
         let first = usize::from(tail);
         curve.segments = k + first;
         for j in 0..k {
@@ -489,7 +578,13 @@ impl PwlCurve {
         if !b.is_finite() || hi_a.is_nan() || hi_a <= 0.0 {
             return false;
         }
-        lo_a < a || hi_a > b || (hi_a - lo_a.max(0.0)) < 0.5 * (b - a)
+        let off_tangent =
+            |at: f64, asked: f64, l: f64| at > 0.0 && (at / asked).ln().abs() > ALIGN_SLACK * l;
+        let moved = match self.aligned {
+            Some((lo, hi, l)) => off_tangent(lo_a, lo, l) || off_tangent(hi_a, hi, l),
+            None => false,
+        };
+        lo_a < a || hi_a > b || (hi_a - lo_a.max(0.0)) < 0.5 * (b - a) || moved
     }
 
     /// The knee voltage: no current flows below it, V.
@@ -602,6 +697,50 @@ mod tests {
         assert!(err <= 1.0001e-4, "{err}");
         // The error bound is used, not wasted: half the segments would miss it.
         assert!(narrow.segments > 1);
+    }
+
+    // With a slope tolerance the visited extremes sit where the chord is
+    // parallel to the exponential curve (its slope c/i + R, the dynamic
+    // resistance), with the same voltage error at both, and every cell's
+    // chord slope is within the tolerance of the curve's over the cell.
+    #[test]
+    fn slope_bounded_fit_puts_the_extremes_at_tangent_points() {
+        let d = led();
+        let (lo, hi) = (0.62, 0.79);
+        let c = d.count * d.n_vt_v;
+        let g = |i: f64| c / (i + d.saturation_current_a) + d.count * d.series_resistance_ohm;
+        for slope_tol in [0.05, 5e-3, 1e-3] {
+            let f = PwlCurve::fit_with_slope(&d, lo, hi, 64, 5e-4, slope_tol);
+            assert!(f.aligned.is_some());
+            for i in [lo, hi] {
+                let k = f.segment_for_current(i);
+                assert_relative_eq!(f.r_ohm[k], g(i), max_relative = 1e-9);
+            }
+            let e = |i: f64| f.voltage_v(i) - d.voltage_v(i);
+            assert!((e(lo) - e(hi)).abs() < 1e-12, "{} {}", e(lo), e(hi));
+            for k in 0..f.segments {
+                let a = if k == 0 { 0.0 } else { f.upper_a[k - 1] }.max(lo);
+                let b = f.upper_a[k].min(hi);
+                if a >= b {
+                    continue;
+                }
+                for i in [a, b] {
+                    let rel = (f.r_ohm[k] - g(i)).abs() / g(i);
+                    assert!(
+                        rel <= slope_tol * (1.0 + 1e-9),
+                        "{slope_tol}: cell {k} of {}: {rel:e}",
+                        f.segments
+                    );
+                }
+            }
+        }
+        // Without one the fit is the voltage-only fit.
+        let plain = PwlCurve::fit(&d, lo, hi, 64, 5e-4);
+        assert!(plain.aligned.is_none());
+        assert_eq!(
+            plain,
+            PwlCurve::fit_with_slope(&d, lo, hi, 64, 5e-4, f64::INFINITY)
+        );
     }
 }
 

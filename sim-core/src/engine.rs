@@ -122,6 +122,9 @@ pub struct ExactEngine {
     max_step_s: f64,
     curve_segments: usize,
     curve_tolerance_v: f64,
+    /// Relative slope tolerance of the LED fit (with an output capacitor;
+    /// infinite without one).
+    curve_slope_tolerance: f64,
     /// Work done so far.
     pub work: WorkCounts,
     /// Intervals (between events) simulated.
@@ -191,6 +194,11 @@ impl ExactEngine {
             max_step_s,
             curve_segments: s.simulation.curve_segments as usize,
             curve_tolerance_v: s.simulation.curve_tolerance_v,
+            curve_slope_tolerance: if s.output_capacitor.is_some() {
+                s.simulation.curve_slope_tolerance
+            } else {
+                f64::INFINITY
+            },
             work: WorkCounts::default(),
             intervals: 0,
             cycles: 0,
@@ -300,7 +308,14 @@ impl ExactEngine {
             let (lo, hi) = self.led_range;
             // A current a hair below zero where it reached zero is zero.
             if lo.is_finite() && self.circuit.led.needs_refit(lo.max(0.0), hi) {
-                self.circuit.led = PwlCurve::fit(&dev, lo.max(0.0), hi, segs, tol);
+                self.circuit.led = PwlCurve::fit_with_slope(
+                    &dev,
+                    lo.max(0.0),
+                    hi,
+                    segs,
+                    tol,
+                    self.curve_slope_tolerance,
+                );
                 changed = true;
             }
         }
