@@ -1082,6 +1082,35 @@ pub(crate) fn corner_values(t: &StudyTable, metric: &str, k: f64) -> Vec<(String
         .collect()
 }
 
+/// Draws a panel's title and the legend of its dashed marks (spec limits,
+/// median) in a strip at the top of `cell`; returns the area below.
+fn titled_with_marks<'a>(
+    cell: &DrawingArea<BitMapBackend<'a>, Shift>,
+    label: &str,
+    marks: &[Mark],
+) -> Result<DrawingArea<BitMapBackend<'a>, Shift>> {
+    let (legend, area) = cell.split_vertically(64);
+    legend
+        .draw(&Text::new(label.to_string(), (40, 6), bold(22)))
+        .map_err(de)?;
+    let mut x = 40;
+    for m in marks {
+        legend
+            .draw(&DashedPathElement::new(
+                vec![(x, 46), (x + 28, 46)],
+                6,
+                4,
+                m.color.stroke_width(3),
+            ))
+            .map_err(de)?;
+        legend
+            .draw(&Text::new(m.label.clone(), (x + 34, 36), font(17)))
+            .map_err(de)?;
+        x += 44 + 9 * m.label.chars().count() as i32;
+    }
+    Ok(area)
+}
+
 /// Horizontal bars, one per corner (top to bottom in the table's order),
 /// from the left edge of the value axis to the corner's value; spec limits
 /// and the median as dashed lines.
@@ -1092,25 +1121,7 @@ fn corner_bars(
     items: &[(String, Option<f64>)],
     marks: &[Mark],
 ) -> Result<()> {
-    let (legend, area) = cell.split_vertically(64);
-    legend
-        .draw(&Text::new(label.to_string(), (40, 6), bold(22)))
-        .map_err(de)?;
-    let mut lx = 40;
-    for m in marks {
-        legend
-            .draw(&DashedPathElement::new(
-                vec![(lx, 46), (lx + 28, 46)],
-                6,
-                4,
-                m.color.stroke_width(3),
-            ))
-            .map_err(de)?;
-        legend
-            .draw(&Text::new(m.label.clone(), (lx + 34, 36), font(17)))
-            .map_err(de)?;
-        lx += 44 + 9 * m.label.chars().count() as i32;
-    }
+    let area = titled_with_marks(cell, label, marks)?;
     let vals: Vec<f64> = items.iter().filter_map(|i| i.1).collect();
     if vals.is_empty() {
         area.draw(&Text::new("no corner ran".to_string(), (60, 120), font(20)))
@@ -1212,25 +1223,7 @@ fn histogram(
     sorted: &[f64],
     marks: &[Mark],
 ) -> Result<()> {
-    let (legend, area) = cell.split_vertically(64);
-    legend
-        .draw(&Text::new(label.to_string(), (40, 6), bold(22)))
-        .map_err(de)?;
-    let mut x = 40;
-    for m in marks {
-        legend
-            .draw(&DashedPathElement::new(
-                vec![(x, 46), (x + 28, 46)],
-                6,
-                4,
-                m.color.stroke_width(3),
-            ))
-            .map_err(de)?;
-        legend
-            .draw(&Text::new(m.label.clone(), (x + 34, 36), font(17)))
-            .map_err(de)?;
-        x += 44 + 9 * m.label.chars().count() as i32;
-    }
+    let area = titled_with_marks(cell, label, marks)?;
     if sorted.is_empty() {
         area.draw(&Text::new(
             "no samples ran".to_string(),
