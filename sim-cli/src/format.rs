@@ -1,33 +1,10 @@
 //! Engineering notation for people: `1.02 A`, `412 kHz`, `3.3 µs`.
 
-/// SI prefixes from pico to giga, with their powers of ten.
-const PREFIXES: [(i32, &str); 8] = [
-    (-12, "p"),
-    (-9, "n"),
-    (-6, "µ"),
-    (-3, "m"),
-    (0, ""),
-    (3, "k"),
-    (6, "M"),
-    (9, "G"),
-];
-
-/// The power of ten (a multiple of three, from −12 to 9) that puts `v`
-/// between 1 and 1000 once divided by it.
-pub fn eng_exponent(v: f64) -> i32 {
-    if v == 0.0 || !v.is_finite() {
-        return 0;
-    }
-    let e = (v.abs().log10() / 3.0).floor() as i32 * 3;
-    e.clamp(-12, 9)
-}
+pub use sim_core::units::eng_exponent;
 
 /// The prefix symbol for a power of ten from [`eng_exponent`].
 pub fn prefix(exp: i32) -> &'static str {
-    PREFIXES
-        .iter()
-        .find(|(e, _)| *e == exp)
-        .map_or("", |(_, p)| p)
+    sim_core::units::shown_prefix(exp)
 }
 
 /// `v` in engineering notation with three significant figures (trailing

@@ -275,11 +275,22 @@ const SHOWN_PREFIXES: [(i32, &str); 9] = [
     (9, "G"),
 ];
 
-fn shown_prefix(exp: i32) -> &'static str {
+/// The SI prefix symbol for a power of ten that is a multiple of three
+/// from −15 to 9 (`""` for any other).
+pub fn shown_prefix(exp: i32) -> &'static str {
     SHOWN_PREFIXES
         .iter()
         .find(|(e, _)| *e == exp)
         .map_or("", |(_, p)| p)
+}
+
+/// The power of ten (a multiple of three, from −12 to 9) that puts `v`
+/// between 1 and 1000 once divided by it (0 for zero and non-finite `v`).
+pub fn eng_exponent(v: f64) -> i32 {
+    if v == 0.0 || !v.is_finite() {
+        return 0;
+    }
+    ((v.abs().log10() / 3.0).floor() as i32 * 3).clamp(-12, 9)
 }
 
 /// `v` in engineering notation with `sig` significant figures (trailing
@@ -296,8 +307,7 @@ pub fn eng_sig(v: f64, unit: &str, sig: usize) -> String {
     if v == 0.0 {
         return format!("0 {unit}").trim_end().to_string();
     }
-    let exponent = |x: f64| ((x.abs().log10() / 3.0).floor() as i32 * 3).clamp(-12, 9);
-    let mut exp = exponent(v);
+    let mut exp = eng_exponent(v);
     let mut mant = v / 10f64.powi(exp);
     // Decimals for `sig` significant figures (more below 1, at the
     // clamped ends of the prefix range).
