@@ -1257,7 +1257,7 @@ impl Scenario {
                 break;
             }
             out.push(FieldProblem {
-                path: path.clone(),
+                path: missing_field_path(&path, &message),
                 value: String::new(),
                 reason: message.clone(),
             });
@@ -2844,6 +2844,21 @@ impl<'de> Deserialize<'de> for OrderedJson {
     }
 }
 
+/// The path a problem is listed under: a missing field's own path
+/// (`supply.voltage_v`, `name`) rather than its section's (or the empty
+/// top level).
+fn missing_field_path(path: &str, message: &str) -> String {
+    let name = message
+        .split_once("missing field `")
+        .and_then(|(_, rest)| rest.split_once('`'))
+        .map(|(name, _)| name);
+    match name {
+        Some(name) if path.is_empty() => name.to_string(),
+        Some(name) if path.rsplit('.').next() != Some(name) => format!("{path}.{name}"),
+        _ => path.to_string(),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -3075,5 +3090,15 @@ mod tests {
         .unwrap();
         assert!((s.supply.voltage_v - 13.0).abs() < 1e-12);
         assert!((s.inductor.inductance_h - 47e-6).abs() < 1e-18);
+    }
+
+    #[test]
+    fn check_lists_a_missing_field_under_its_own_path() {
+        let problems = Scenario::problems_in(r#"{"supply": {}}"#, &[]);
+        let paths: Vec<&str> = problems.iter().map(|p| p.path.as_str()).collect();
+        for want in ["name", "switch", "supply.voltage_v"] {
+            assert!(paths.contains(&want), "{want} not in {paths:?}");
+        }
+        assert!(!paths.contains(&""), "{paths:?}");
     }
 }
