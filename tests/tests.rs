@@ -2,9 +2,11 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
-mod part_checks;
+mod figures;
 mod junction_temperature;
+mod part_checks;
 mod parts;
+mod pinned;
 mod properties;
 mod readme;
 mod reference;
