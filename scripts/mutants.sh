@@ -9,6 +9,7 @@
 #   MUTANTS_JOBS=2 scripts/mutants.sh       # parallel builds (needs cores;
 #                                           # default one, not with --in-place)
 #   MUTANTS_OUT=dir scripts/mutants.sh      # where cargo-mutants writes
+#   MUTANTS_RE='^sim-core/src/units.rs:138:' scripts/mutants.sh  # by name
 #   MUTANTS_EXTRA="--in-place" scripts/mutants.sh  # more cargo-mutants options
 #                                           # (--in-place: only in a scratch copy)
 #
@@ -57,8 +58,13 @@ done
 if [ -n "${MUTANTS_JOBS:-}" ]; then
     ARGS+=(--jobs "$MUTANTS_JOBS")
 fi
+if [ -n "${MUTANTS_RE:-}" ]; then
+    # Only the mutants whose names (as --list prints them) match, e.g. the
+    # survivors of an earlier run after new tests were added.
+    ARGS+=(--re "$MUTANTS_RE")
+fi
 if [ -n "${MUTANTS_SHARD:-}" ]; then
-    ARGS+=(--shard "$MUTANTS_SHARD")
+    ARGS+=(--shard "$MUTANTS_SHARD" --sharding round-robin)
 fi
 OUT="${MUTANTS_OUT:-target/mutants-run}"
 mkdir -p "$OUT"
@@ -69,7 +75,6 @@ set +e
 cargo mutants \
     --workspace \
     --no-shuffle \
-    --sharding round-robin \
     --profile mutants \
     --timeout 300 \
     --output "$OUT" \
