@@ -2,10 +2,12 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod figures;
 mod fit_accuracy;
 mod junction_temperature;
 mod part_checks;
 mod parts;
+mod pinned;
 mod point_verdicts;
 mod properties;
 mod readme;

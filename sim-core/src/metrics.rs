@@ -410,3 +410,250 @@ impl Metrics {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    //! `Metrics::from_totals` on hand-made totals: each figure against its
+    //! definition (average = ∫x dt / T, RMS = √(∫x² dt / T), AC RMS =
+    //! √(mean square − mean²)), with every input distinct so a figure read
+    //! from the wrong integral shows, and the classification rule at the
+    //! exact edges documented on [`ConductionMode`].
+    use super::*;
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-12 * b.abs().max(1e-300)
+    }
+
+    macro_rules! check {
+        ($a:expr, $b:expr) => {
+            assert!(
+                close($a, $b),
+                "{} = {} (expected {})",
+                stringify!($a),
+                $a,
+                $b
+            )
+        };
+    }
+
+    /// Loss entries 1, 2, 4, … 2¹⁴ (distinct powers of two: any sum of a
+    /// subset is exact and identifies the subset).
+    fn powers_of_two() -> LossEnergies {
+        let mut k = 0.5;
+        let mut next = || {
+            k *= 2.0;
+            k
+        };
+        LossEnergies {
+            source_resistance: next(),
+            input_capacitor_esr: next(),
+            switch_conduction: next(),
+            diode_conduction: next(),
+            inductor_dcr: next(),
+            output_capacitor_esr: next(),
+            reverse_current_clamp: next(),
+            switch_transition: next(),
+            switch_gate_drive: next(),
+            switch_output_capacitance: next(),
+            diode_reverse_recovery: next(),
+            diode_junction_capacitance: next(),
+            inductor_core: next(),
+            controller_quiescent: next(),
+            current_sense: next(),
+        }
+    }
+
+    fn entries(l: &LossEnergies) -> Vec<f64> {
+        serde_json::to_value(l)
+            .unwrap()
+            .as_object()
+            .unwrap()
+            .values()
+            .map(|v| v.as_f64().unwrap())
+            .collect()
+    }
+
+    #[test]
+    fn total_scaled_and_add_cover_every_entry() {
+        let l = powers_of_two();
+        let e = entries(&l);
+        // Every serialised entry distinct, and the total their exact sum
+        // (2¹⁵ − 1 for fifteen entries).
+        assert_eq!(e.len(), 15);
+        let sum: f64 = e.iter().sum();
+        check!(l.total(), sum);
+        check!(l.total(), 32767.0);
+        for (s, x) in entries(&l.scaled(3.0)).iter().zip(&e) {
+            check!(*s, 3.0 * x);
+        }
+        let mut a = l.scaled(65536.0);
+        a.add(&l);
+        for (s, x) in entries(&a).iter().zip(&e) {
+            check!(*s, 65537.0 * x);
+        }
+    }
+
+    #[test]
+    fn edges_book_each_product_on_its_own_side() {
+        let mut e = EdgeTotals::default();
+        e.note(true, 2.0, 30.0, Some(29.0));
+        e.note(true, 3.0, 10.0, None);
+        e.note(false, 5.0, 7.0, Some(100.0));
+        // Negative currents and voltages are clipped to zero.
+        e.note(true, -1.0, 50.0, Some(-4.0));
+        e.note(false, 4.0, -9.0, None);
+        assert_eq!((e.turn_ons, e.turn_offs), (3, 2));
+        check!(e.on_vi, 2.0 * 30.0 + 3.0 * 10.0);
+        check!(e.on_v2, 30.0 * 30.0 + 10.0 * 10.0 + 50.0 * 50.0);
+        check!(e.recovery_v, 29.0);
+        check!(e.off_vi, 5.0 * 7.0);
+    }
+
+    #[test]
+    fn new_totals_start_extremes_at_infinity() {
+        let t = Totals::new();
+        assert!(t.il_max == f64::NEG_INFINITY && t.il_min == f64::INFINITY);
+        assert!(t.iled_max == f64::NEG_INFINITY && t.iled_min == f64::INFINITY);
+        assert!(t.vsw_max == f64::NEG_INFINITY && t.vsw_min == f64::INFINITY);
+        assert!(t.vled_max == f64::NEG_INFINITY);
+        assert_eq!(t.cycles, 0);
+        assert!(t.il == 0.0 && t.e_in == 0.0);
+    }
+
+    /// Four cycles over 2 s, every integral distinct.
+    fn hand_totals() -> Totals {
+        Totals {
+            cycles: 4,
+            time_s: 2.0,
+            on_time_s: 0.8,
+            idle_time_s: 0.0,
+            il: 3.0,
+            il2: 10.0,
+            iled: 5.0,
+            iled2: 14.0,
+            vled: 8.0,
+            isrc: 1.0,
+            isrc2: 2.0,
+            icin: 0.4,
+            icin2: 0.5,
+            ico: 0.2,
+            ico2: 0.18,
+            isw2: 18.0,
+            idiode: 1.2,
+            idiode2: 4.5,
+            e_in: 20.0,
+            e_led: 16.0,
+            loss: powers_of_two().scaled(1.0 / 32767.0 * 3.5),
+            stored_start_j: 0.25,
+            stored_end_j: 0.75,
+            il_max: 2.0,
+            il_min: 0.9,
+            iled_max: 2.75,
+            iled_min: 2.25,
+            vsw_max: 24.5,
+            vsw_min: -0.6,
+            vled_max: 4.25,
+            edges: EdgeTotals::default(),
+            e_parts: 0.0,
+        }
+    }
+
+    #[test]
+    fn every_figure_from_its_own_integral() {
+        let m = Metrics::from_totals(&hand_totals());
+        assert_eq!(m.cycles_measured, 4);
+        check!(m.period_s, 0.5);
+        check!(m.switching_frequency_hz, 2.0);
+        check!(m.on_time_s, 0.2);
+        check!(m.off_time_s, 0.3);
+        check!(m.duty, 0.4);
+        check!(m.idle_time_s + 1.0, 1.0);
+        check!(m.inductor_current_avg_a, 1.5);
+        check!(m.inductor_current_rms_a, 5f64.sqrt());
+        check!(m.inductor_current_peak_a, 2.0);
+        check!(m.inductor_current_valley_a, 0.9);
+        check!(m.inductor_ripple_pp_a, 1.1);
+        check!(m.led_current_avg_a, 2.5);
+        check!(m.led_current_rms_a, 7f64.sqrt());
+        check!(m.led_current_max_a, 2.75);
+        check!(m.led_current_min_a, 2.25);
+        check!(m.led_current_ripple_pp_a, 0.5);
+        check!(m.led_current_ripple_pct, 20.0);
+        check!(m.led_voltage_avg_v, 4.0);
+        check!(m.led_voltage_max_v, 4.25);
+        check!(m.input_current_avg_a, 0.5);
+        check!(m.input_current_rms_a, 1.0);
+        // AC RMS: √(0.25 − 0.2²) and √(0.09 − 0.1²).
+        check!(m.input_capacitor_ripple_rms_a, 0.21f64.sqrt());
+        check!(m.output_capacitor_ripple_rms_a, 0.08f64.sqrt());
+        check!(m.switch_current_rms_a, 3.0);
+        check!(m.diode_current_avg_a, 0.6);
+        check!(m.diode_current_rms_a, 1.5);
+        check!(m.switch_node_max_v, 24.5);
+        check!(m.switch_node_min_v, -0.6);
+        check!(m.input_power_w, 10.0);
+        check!(m.led_power_w, 8.0);
+        check!(m.total_loss_w, 1.75);
+        check!(m.losses_w.current_sense, 3.5 * 16384.0 / 32767.0 / 2.0);
+        check!(m.losses_w.source_resistance, 3.5 / 32767.0 / 2.0);
+        check!(m.efficiency, 0.8);
+        // (20 − 16 − 3.5 − 0.5)/20 = 0.
+        check!(m.energy_balance_residual + 1.0, 1.0);
+        assert_eq!(m.conduction_mode, ConductionMode::Ccm);
+        check!(m.ccm_margin, 0.6);
+        let mut t = hand_totals();
+        t.stored_end_j = 0.5;
+        check!(
+            Metrics::from_totals(&t).energy_balance_residual,
+            0.25 / 20.0
+        );
+    }
+
+    #[test]
+    fn degenerate_totals_give_zeros_not_nan() {
+        // A negative mean square (round-off) gives a zero AC RMS.
+        let mut t = hand_totals();
+        t.icin2 = 0.01;
+        assert!(Metrics::from_totals(&t).input_capacitor_ripple_rms_a == 0.0);
+        // No LED current, no inductor current, no input energy.
+        t.iled = 0.0;
+        t.il = 0.0;
+        t.il_min = 0.0;
+        t.e_in = 0.0;
+        t.e_led = 0.0;
+        let m = Metrics::from_totals(&t);
+        assert!(m.led_current_ripple_pct == 0.0);
+        assert!(m.efficiency == 0.0);
+        assert!(m.energy_balance_residual == 0.0);
+        assert!(m.ccm_margin == 0.0);
+        assert_eq!(m.conduction_mode, ConductionMode::Boundary);
+        // Zero cycles count as one (no division by zero).
+        t.cycles = 0;
+        check!(Metrics::from_totals(&t).period_s, 2.0);
+    }
+
+    #[test]
+    fn conduction_mode_at_its_exact_edges() {
+        let mode = |idle_s: f64, valley_a: f64| {
+            let mut t = hand_totals();
+            t.cycles = 1;
+            t.time_s = 1.0;
+            t.il = 1.0;
+            t.idle_time_s = idle_s;
+            t.il_min = valley_a;
+            let m = Metrics::from_totals(&t);
+            (m.conduction_mode, m.ccm_margin)
+        };
+        // DCM only above a thousandth of the period (period 1 s here).
+        assert_eq!(mode(1e-3, 0.0).0, ConductionMode::Boundary);
+        assert_eq!(mode(1.0001e-3, 0.0), (ConductionMode::Dcm, 0.0));
+        // Any idle time at all is at least the boundary, whatever the valley.
+        assert_eq!(mode(1e-9, 0.5).0, ConductionMode::Boundary);
+        // Boundary strictly under 1 % valley/average; CCM from 1 % on.
+        assert_eq!(mode(0.0, 0.01), (ConductionMode::Ccm, 0.01));
+        assert_eq!(mode(0.0, 0.0099).0, ConductionMode::Boundary);
+        check!(mode(0.0, 0.0099).1, 0.0099);
+        // A negative valley (reverse current) counts as zero.
+        assert_eq!(mode(0.0, -0.2), (ConductionMode::Boundary, 0.0));
+    }
+}

@@ -657,6 +657,109 @@ mod tests {
         }
     }
 
+    /// The writers at the edges of each of their ranges (the prefix range
+    /// pico to giga and its carry, the plain and scientific forms, the
+    /// display-zero threshold), and every display symbol.
+    #[test]
+    fn writers_at_their_edges() {
+        // Rounding carries into the next prefix, except past giga.
+        assert_eq!(eng(999.7, "V"), "1 kV");
+        assert_eq!(eng(0.9997, "V"), "1 V");
+        assert_eq!(eng(999.7e9, "Hz"), "1000 GHz");
+        assert_eq!(eng(5e12, "Hz"), "5000 GHz");
+        assert_eq!(eng(1e-15, "A"), "0.001 pA");
+        assert_eq!(eng(4.7e-12, "F"), "4.7 pF");
+        assert_eq!(eng(4.7e-9, "F"), "4.7 nF");
+        assert_eq!(eng(2.2e6, "Hz"), "2.2 MHz");
+        assert_eq!(eng(1.0, ""), "1");
+        assert_eq!(eng(0.0, "A"), "0 A");
+        assert_eq!(eng(0.0, ""), "0");
+        assert_eq!(eng(f64::NAN, "A"), "n/a");
+        assert_eq!(eng(f64::INFINITY, "A"), "∞ A");
+        assert_eq!(eng(f64::NEG_INFINITY, "A"), "−∞ A");
+        assert_eq!(eng_sig(123_456.0, "Hz", 4), "123.5 kHz");
+        assert_eq!(eng_sig(123_456.0, "Hz", 6), "123.456 kHz");
+        // Exact text: prefixes split from the digits, `u` shown as µ.
+        assert_eq!(eng_exact(4.7e-9, Unit::Farad), "4.7 nF");
+        assert_eq!(eng_exact(2200.0, Unit::Ohm), "2.2 kΩ");
+        assert_eq!(eng_exact(12.0, Unit::Volt), "12 V");
+        assert_eq!(eng_exact(0.0, Unit::Volt), "0 V");
+        assert_eq!(eng_exact(-1e-18, Unit::Ampere), "−1e-18 A");
+        assert_eq!(eng_exact(1500.0, Unit::Celsius), "1500 °C");
+        assert_eq!(eng_exact(2500.0, Unit::Ratio), "2500");
+        // Plain numbers: decimal from 1e-4 up to (not including) 1e6.
+        assert_eq!(plain_number(0.0), "0");
+        assert_eq!(plain_number(1e-4), "0.0001");
+        assert_eq!(plain_number(9.5e-5), "9.5e-5");
+        assert_eq!(plain_number(999_999.0), "999999");
+        assert_eq!(plain_number(1e6), "1e6");
+        assert_eq!(plain_number(-2.5), "-2.5");
+        // Short numbers: fixed from 1e-4 to 1e9 magnitudes, else scientific.
+        assert_eq!(short_number(f64::NAN, 3), "n/a");
+        assert_eq!(short_number(f64::INFINITY, 3), "n/a");
+        assert_eq!(short_number(0.0, 3), "0");
+        assert_eq!(short_number(1.234e-4, 3), "0.000123");
+        assert_eq!(short_number(1.234e-5, 3), "1.23e-5");
+        assert_eq!(short_number(1.234e9, 3), "1234000000");
+        assert_eq!(short_number(1.234e10, 3), "1.23e10");
+        assert_eq!(short_number(-45.678, 3), "-45.7");
+        assert_eq!(short_number(1.5, 1), "2");
+        // Display zero: strictly below a millionth of the scale, finite only.
+        assert!((zero_if_round_off(1e-6, 1.0) - 1e-6).abs() < 1e-22);
+        assert!(zero_if_round_off(0.999e-6, 1.0) == 0.0);
+        assert!(zero_if_round_off(-0.999e-6, -1.0) == 0.0);
+        assert!(zero_if_round_off(f64::NAN, 1.0).is_nan());
+        assert!(zero_if_round_off(f64::INFINITY, f64::INFINITY) == f64::INFINITY);
+        assert!((zero_if_round_off(0.5, 0.0) - 0.5).abs() < 1e-16);
+        // Symbols.
+        let shown = [
+            (Unit::Volt, "V", "V"),
+            (Unit::Ampere, "A", "A"),
+            (Unit::Ohm, "Ω", "ohm"),
+            (Unit::Henry, "H", "H"),
+            (Unit::Farad, "F", "F"),
+            (Unit::Second, "s", "s"),
+            (Unit::Hertz, "Hz", "Hz"),
+            (Unit::Celsius, "°C", "degC"),
+            (Unit::Coulomb, "C", "C"),
+            (Unit::Ratio, "", "(no unit)"),
+        ];
+        for (unit, display, main) in shown {
+            assert_eq!(unit.display_symbol(), display);
+            assert_eq!(unit.symbol(), main);
+            assert_eq!(
+                unit.takes_prefix(),
+                !matches!(unit, Unit::Celsius | Unit::Ratio)
+            );
+        }
+        // The refusal names what was expected.
+        let e = parse_quantity("3x", Unit::Henry).unwrap_err();
+        assert!(e.contains("`H`") && e.contains("`x`"), "{e}");
+        let e = parse_quantity("3x", Unit::Ratio).unwrap_err();
+        assert!(e.contains("no unit, or `%`"), "{e}");
+    }
+
+    /// Exponents beyond any `f64` saturate: a huge negative one reads as
+    /// zero (finite), a huge positive one is refused as not finite.
+    #[test]
+    fn huge_exponents_saturate() {
+        for text in ["1e-99999999999999999999", "1e-400", "5e-1000000u"] {
+            let v = parse_quantity(text, Unit::Volt).unwrap();
+            assert!(v == 0.0, "{text}: {v:e}");
+        }
+        assert!(parse_quantity("1e400", Unit::Volt).is_err());
+        assert_eq!(
+            parse_quantity("1e+5k", Unit::Volt).unwrap().to_bits(),
+            1e8_f64.to_bits()
+        );
+        assert_eq!(
+            parse_quantity("  2.5e-3 kV ", Unit::Volt)
+                .unwrap()
+                .to_bits(),
+            2.5_f64.to_bits()
+        );
+    }
+
     #[test]
     fn thermal_voltage_at_room_temperature() {
         // kT/q at 300 K = 25.852 mV (CODATA 2018 constants).
