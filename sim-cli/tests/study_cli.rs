@@ -411,7 +411,7 @@ fn check_files_whole(dir: &Path) {
 fn a_killed_sweep_keeps_its_rows_and_resumes_to_the_same_files() {
     let d = scratch("killed");
     let (full, cut) = (d.join("full"), d.join("cut"));
-    let points = 96;
+    let points = 40;
     let o = run_owned(&slow_sweep(&full, points, &[]));
     assert!(o.status.success(), "{}", text(&o.stderr));
     let csv = "grow-light-48v-sweep.csv";
