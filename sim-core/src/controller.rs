@@ -337,3 +337,74 @@ pub fn build(spec: &ControllerSpec) -> Box<dyn Controller> {
         }),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Steps a controller through two cycles as the engine would (a
+    /// watched threshold is crossed at once, else the deadline passes) and
+    /// checks at every step that `waiting_for`, which error messages
+    /// quote, describes what the command really waits for: the threshold
+    /// with its value, or the end of a timed interval.
+    fn describes_every_wait(spec: &ControllerSpec, thresholds: &[(&str, f64)]) {
+        let mut c = build(spec);
+        let mut cmd = c.start(0.0);
+        for _ in 0..12 {
+            let text = c.waiting_for();
+            match cmd.watch {
+                Some(w) => {
+                    let named = thresholds
+                        .iter()
+                        .find(|(_, a)| (w.level_a - a).abs() < 1e-12)
+                        .unwrap_or_else(|| panic!("unexpected threshold {}", w.level_a));
+                    assert!(
+                        text.contains(named.0) && text.contains(&format!("{} A", named.1)),
+                        "waiting on {} A but says {text:?}",
+                        named.1
+                    );
+                    cmd = c.on_event(0.0, Cause::Threshold, w.level_a);
+                }
+                None => {
+                    assert!(text.starts_with("end of"), "timed wait described as {text:?}");
+                    cmd = c.on_event(cmd.deadline_s, Cause::Deadline, 0.0);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn waiting_for_names_what_each_controller_waits_for() {
+        describes_every_wait(
+            &ControllerSpec::ConstantOffTime {
+                peak_current_a: 0.8,
+                off_time_s: 2e-6,
+                delay_s: 5e-8,
+                min_on_time_s: 1e-7,
+            },
+            &[("peak", 0.8)],
+        );
+        describes_every_wait(
+            &ControllerSpec::Hysteretic {
+                upper_current_a: 0.9,
+                lower_current_a: 0.7,
+                turn_off_delay_s: 4e-8,
+                turn_on_delay_s: 6e-8,
+            },
+            &[("upper", 0.9), ("lower", 0.7)],
+        );
+        describes_every_wait(
+            &ControllerSpec::FixedDuty {
+                frequency_hz: 2e5,
+                duty: 0.4,
+            },
+            &[],
+        );
+        let mut fixed = build(&ControllerSpec::FixedDuty {
+            frequency_hz: 2e5,
+            duty: 0.4,
+        });
+        fixed.start(0.0);
+        assert!(fixed.waiting_for().contains("fixed on- or off-time"));
+    }
+}
