@@ -366,7 +366,10 @@ mod tests {
                     cmd = c.on_event(0.0, Cause::Threshold, w.level_a);
                 }
                 None => {
-                    assert!(text.starts_with("end of"), "timed wait described as {text:?}");
+                    assert!(
+                        text.starts_with("end of"),
+                        "timed wait described as {text:?}"
+                    );
                     cmd = c.on_event(cmd.deadline_s, Cause::Deadline, 0.0);
                 }
             }
