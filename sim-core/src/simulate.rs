@@ -563,7 +563,7 @@ fn record_startup<E: CycleEngine>(
                 || crate::record::distance_from_steady(&on, &target.turn_on, target.current_ref_a)
                     <= close;
         }
-        let d = scaled_change(&e.state(), &target.state, &scale);
+        let d = scaled_change(&now, &target.state, &scale);
         near = if d <= STARTUP_SETTLED && samples_near {
             near + 1
         } else {

@@ -91,10 +91,10 @@ fn effective_scenario(s: &Scenario, v_in: f64, v_out: f64, t_j: Option<f64>) -> 
     if let Some(c) = e.output_capacitor.as_mut() {
         c.capacitance_f = bias::effective_capacitance_f(c, &s.parts.output_capacitor, v_out);
     }
-    e.load = thermal::load_with_led_tempco(s);
-    if let (Some(_), Some(tj)) = (s.parts.led, t_j) {
-        e.load = thermal::load_at_junction(s, tj);
-    }
+    e.load = match (s.parts.led, t_j) {
+        (Some(_), Some(tj)) => thermal::load_at_junction(s, tj),
+        _ => thermal::load_with_led_tempco(s),
+    };
     e
 }
 
@@ -346,7 +346,6 @@ fn assess_at(
             ));
         }
     }
-    let comparison = None;
     Ok(Assessment {
         result,
         effective: eff,
@@ -356,7 +355,7 @@ fn assess_at(
         temperatures,
         checks,
         startup_peak_a: startup_peak,
-        comparison,
+        comparison: None,
     })
 }
 
