@@ -2,10 +2,13 @@
 //! reference integrator, and bad input.
 
 mod bad_input;
+mod check_edges;
+mod controller_edges;
 mod figures;
 mod fit_accuracy;
 mod junction_temperature;
 mod part_checks;
+mod part_heat;
 mod parts;
 mod pinned;
 mod point_verdicts;
