@@ -15,6 +15,7 @@ mod point_verdicts;
 mod properties;
 mod readme;
 mod reference;
+mod reference_problems;
 mod sense_resistor;
 mod shooting;
 mod study;

@@ -5,6 +5,8 @@
 //! particular product or datasheet.
 #![allow(missing_docs)] // Builders are self-describing test fixtures.
 
+pub mod reference_problems;
+
 use std::alloc::{GlobalAlloc, Layout, System};
 use std::sync::atomic::{AtomicU64, Ordering};
 
