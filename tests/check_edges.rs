@@ -522,3 +522,68 @@ fn a_rating_exceeded_only_at_the_top_of_the_range_is_reported_there() {
     assert_relative_eq!(c.supply_v, hi);
     assert_relative_eq!(c.value, hi, max_relative = 1e-12);
 }
+
+#[test]
+fn peak_current_and_temperature_worst_at_the_top_of_the_range() {
+    // With a turn-off delay t_d the peak is I_pk + (V_in − V_out)·t_d/L
+    // (the on-slope carries it past the threshold; Erickson & Maksimovic,
+    // ch. 2), in steady state and in the first cycle from power-on alike
+    // (no output capacitor): largest at the top of the range. The
+    // diode's heat V_F·I_out·(1 − D) grows with the supply too.
+    let b = Buck::BASE;
+    let t_d = 150e-9;
+    let (lo, hi) = (20.0, 30.0);
+    let peak = |v: f64| b.i_pk + (v - b.v_out) * t_d / b.l;
+    // The delayed cycle: the same off-time ripple from the higher peak.
+    let heat = |v: f64| {
+        let x = Buck {
+            v_in: v,
+            i_pk: peak(v),
+            ..b
+        };
+        b.v_f * x.diode_avg()
+    };
+    let mut s = ranged(&b, lo, hi);
+    s.controller = ControllerSpec::ConstantOffTime {
+        peak_current_a: b.i_pk,
+        off_time_s: b.t_off,
+        delay_s: t_d,
+        min_on_time_s: 0.0,
+    };
+    // Saturation just under the top's peak, above the nominal's.
+    s.inductor.saturation_current_a = Some(peak(hi) * (1.0 - EPS));
+    assert!(peak(b.v_in) < peak(hi) * (1.0 - EPS));
+    // A diode maximum 0.1 K under its temperature at the top.
+    s.parts.ambient_temperature_c = 40.0;
+    let r_th = 400.0;
+    let t_top = 40.0 + r_th * heat(hi);
+    assert!(t_top - (40.0 + r_th * heat(b.v_in)) > 0.5);
+    s.parts.diode.thermal = Some(Thermal {
+        resistance_c_per_w: r_th,
+        max_temperature_c: t_top - 0.1,
+    });
+    let a = assessed(&s);
+    for check in [
+        "inductor peak current vs saturation current",
+        "inductor start-up peak vs saturation current",
+    ] {
+        let c = row(&a, check);
+        assert_eq!(c.status, Status::Fail, "{c:?}");
+        assert_relative_eq!(c.supply_v, hi);
+        assert_relative_eq!(c.value, peak(hi), max_relative = 1e-6);
+    }
+    let c = row(&a, "diode temperature vs maximum");
+    assert_eq!(c.status, Status::Fail, "{c:?}");
+    assert_relative_eq!(c.supply_v, hi);
+    assert_relative_eq!(c.value, t_top, max_relative = 1e-6);
+    // Without the range, the nominal supply's figures pass both.
+    s.supply.input_range_v = None;
+    let a = assessed(&s);
+    assert_eq!(
+        row(&a, "inductor peak current vs saturation current").status,
+        Status::Warn
+    );
+    let c = row(&a, "diode temperature vs maximum");
+    assert_ne!(c.status, Status::Fail, "{c:?}");
+    assert_relative_eq!(c.value, 40.0 + r_th * heat(b.v_in), max_relative = 1e-6);
+}
