@@ -587,3 +587,63 @@ fn peak_current_and_temperature_worst_at_the_top_of_the_range() {
     assert_ne!(c.status, Status::Fail, "{c:?}");
     assert_relative_eq!(c.value, 40.0 + r_th * heat(b.v_in), max_relative = 1e-6);
 }
+
+#[test]
+fn output_capacitor_rows_at_their_edges() {
+    // Fixed duty D into a resistor behind a large output capacitor, ideal
+    // parts, CCM: the average output is D·V_in (volt-second balance); the
+    // capacitor takes the inductor's triangular ripple
+    // ΔI = (V_in − V_out)·D·T/L, so its RMS current is ΔI/√12 (Appendix A,
+    // a zero-mean triangle) and its voltage ripple ΔV = ΔI·T/(8·C)
+    // (Erickson & Maksimovic, ch. 2, capacitor charge over the half-cycle
+    // the ripple current is positive): the peak is D·V_in + ΔV/2. Both
+    // neglect the load current's own ripple (ΔV/R, a thousandth of ΔI
+    // here), well inside the tolerances below.
+    let (v_in, l, r, c, f, d) = (24.0, 100e-6, 12.0, 100e-6, 100e3, 0.5);
+    let t = 1.0 / f;
+    let v_out = d * v_in;
+    let di = (v_in - v_out) * d * t / l;
+    let peak_v = v_out + di * t / (8.0 * c) / 2.0;
+    let ripple = di / 12f64.sqrt();
+    let opts = AssessOptions {
+        run: sim_core::simulate::RunOptions {
+            initial_state: Some([v_out / r - di / 2.0, v_out, 0.0]),
+            ..Default::default()
+        },
+        alternatives: false,
+    };
+    type Set = fn(&mut Scenario, f64);
+    let cases: [(&str, f64, f64, f64, Set); 2] = [
+        (
+            "output capacitor peak voltage vs rating",
+            peak_v,
+            2e-5,
+            0.8,
+            |s, x| {
+                s.parts.output_capacitor.dielectric = Dielectric::Polymer;
+                s.parts.output_capacitor.voltage_rating_v = Some(x);
+            },
+        ),
+        (
+            "output capacitor RMS ripple current vs rating",
+            ripple,
+            5e-4,
+            0.7,
+            |s, x| {
+                s.parts.output_capacitor.dielectric = Dielectric::AluminiumElectrolytic;
+                s.parts.output_capacitor.ripple_current_rating_a = Some(x);
+            },
+        ),
+    ];
+    for (check, value, tol, frac, set) in cases {
+        for (limit, want) in upper_edges(value, frac) {
+            let mut s = fixed_duty_resistive(v_in, l, r, c, f, d);
+            set(&mut s, limit);
+            s.validate().unwrap();
+            let a = assess(&s, &opts).unwrap();
+            let got = row(&a, check);
+            assert_eq!(got.status, want, "{check} at {limit}: {got:?}");
+            assert_relative_eq!(got.value, value, max_relative = tol);
+        }
+    }
+}
