@@ -1,24 +1,13 @@
-//! Engineering notation for people: `1.02 A`, `412 kHz`, `3.3 µs`.
+//! Numbers for people in the text summary and the plots: engineering
+//! notation (`1.02 A`, `412 kHz`, `3.3 µs`, from `sim_core::units`),
+//! round-off shown as zero, ratios, percentages and residuals.
 
-pub use sim_core::units::eng_exponent;
-
-/// The prefix symbol for a power of ten from [`eng_exponent`].
-pub fn prefix(exp: i32) -> &'static str {
-    sim_core::units::shown_prefix(exp)
-}
-
-/// `v` in engineering notation with three significant figures (trailing
-/// zeros dropped) and the unit, e.g. `eng(4.12e5, "Hz")` is `412 kHz`.
-pub fn eng(v: f64, unit: &str) -> String {
-    eng_sig(v, unit, 3)
-}
-
-/// As [`eng`] with `sig` significant figures (the one implementation is
-/// `sim_core::units::eng_sig`, which the library's notes and messages use
-/// too).
-pub fn eng_sig(v: f64, unit: &str, sig: usize) -> String {
-    sim_core::units::eng_sig(v, unit, sig)
-}
+// The one implementation of engineering notation is the library's
+// (`sim_core::units`), which its notes and messages use too: `eng` gives
+// three significant figures (`eng(4.12e5, "Hz")` is `412 kHz`), `eng_sig`
+// as many as asked; `prefix` is the symbol for a power of ten from
+// `eng_exponent`.
+pub use sim_core::units::{eng, eng_exponent, eng_sig, shown_prefix as prefix};
 
 /// `v` in engineering notation, shown as 0 when it is round-off beside
 /// `scale`, the largest magnitude of the same quantity in the same output

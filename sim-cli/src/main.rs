@@ -10,10 +10,10 @@
 mod bundled;
 mod format;
 mod output;
-mod plot;
+mod plots;
 mod report;
 mod study_cmd;
-mod study_plot;
+use plots::{self as plot, self as study_plot}; // reshape shim: the old module paths
 
 use anyhow::{Context, Result};
 use clap::{Parser, Subcommand, ValueEnum};

@@ -1,21 +1,9 @@
 //! Bad input through the binary: every case exits with code 2 and one
 //! message that names the field (or the file), never a panic.
 
-use std::path::PathBuf;
-use std::process::Command;
+mod common;
 
-fn chopwave() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_chopwave"));
-    c.env("RUST_BACKTRACE", "1");
-    c
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-bad-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
+use common::{chopwave, scratch};
 
 fn template() -> serde_json::Value {
     let o = chopwave().arg("template").output().unwrap();

@@ -3,44 +3,12 @@
 //!
 //! Analytic checks name their source beside the check.
 
+mod common;
+
+use common::{chopwave, decode_png, run, scenarios_dir, scratch, stderr, stdout};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn chopwave() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_chopwave"));
-    // The CI environment may set RUST_BACKTRACE; no user input may ever
-    // produce one, so keep it set to catch a panic's backtrace.
-    c.env("RUST_BACKTRACE", "1");
-    c
-}
-
-fn run(args: &[&str]) -> Output {
-    chopwave()
-        .args(args)
-        .output()
-        .expect("the chopwave binary runs")
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-/// A fresh, empty scratch folder for one test.
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn scenarios_dir() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("../scenarios")
-}
+use std::process::Output;
 
 fn bundled_files() -> Vec<PathBuf> {
     let mut v: Vec<PathBuf> = std::fs::read_dir(scenarios_dir())
@@ -211,17 +179,6 @@ fn set_overrides_change_the_result_as_expected() {
         num(&c, "duty") < num(&a, "duty"),
         "higher supply, lower duty"
     );
-}
-
-fn decode_png(p: &Path) -> (u32, u32, Vec<u8>, png::ColorType) {
-    let file = std::fs::File::open(p).unwrap_or_else(|e| panic!("{}: {e}", p.display()));
-    let mut reader = png::Decoder::new(std::io::BufReader::new(file))
-        .read_info()
-        .unwrap();
-    let mut buf = vec![0; reader.output_buffer_size()];
-    let info = reader.next_frame(&mut buf).unwrap();
-    buf.truncate(info.buffer_size());
-    (info.width, info.height, buf, info.color_type)
 }
 
 fn assert_readable_png(p: &Path) {

@@ -2,36 +2,10 @@
 //! engineering notation, study summaries in engineering notation, and
 //! round-off shown as zero.
 
+mod common;
+
+use common::{run, scenario, scratch, text};
 use serde_json::Value;
-use std::process::{Command, Output};
-
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_chopwave"))
-        .env("RUST_BACKTRACE", "1")
-        .args(args)
-        .output()
-        .expect("the chopwave binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
-/// A fresh, empty scratch folder for one test.
-fn scratch(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-display-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn scenario(name: &str) -> String {
-    std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../scenarios")
-        .join(name)
-        .to_string_lossy()
-        .into_owned()
-}
 
 #[test]
 fn template_shows_every_section_in_engineering_notation_and_loads_back() {

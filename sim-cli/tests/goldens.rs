@@ -11,15 +11,10 @@
 //! CHOPWAVE_BLESS=1 cargo test -p sim-cli --test goldens
 //! ```
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+mod common;
 
-fn workspace_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .parent()
-        .expect("sim-cli sits in the workspace")
-        .to_path_buf()
-}
+use common::{scratch, workspace_root};
+use std::path::{Path, PathBuf};
 
 fn golden_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/goldens")
@@ -29,7 +24,7 @@ fn golden_dir() -> PathBuf {
 /// output are the relative ones the goldens hold) and returns its stdout;
 /// panics with its stderr if it did not exit 0.
 fn chopwave(args: &[&str]) -> Vec<u8> {
-    let out = Command::new(env!("CARGO_BIN_EXE_chopwave"))
+    let out = common::chopwave()
         .current_dir(workspace_root())
         .arg("--quiet")
         .args(args)
@@ -39,17 +34,9 @@ fn chopwave(args: &[&str]) -> Vec<u8> {
         out.status.success(),
         "chopwave {args:?} failed ({}):\n{}",
         out.status,
-        String::from_utf8_lossy(&out.stderr)
+        common::stderr(&out)
     );
     out.stdout
-}
-
-/// A fresh, empty scratch folder for one study.
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-goldens-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
 }
 
 /// Compares `actual` with the golden file `name`, or records it when

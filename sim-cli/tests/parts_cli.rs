@@ -1,36 +1,10 @@
 //! The real-part output of the `chopwave` binary: the design-check table,
 //! `--strict`, the alternatives and their plot, and `fit-led`.
 
+mod common;
+
+use common::{run, scenario, scratch, text};
 use serde_json::Value;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_chopwave"))
-        .env("RUST_BACKTRACE", "1")
-        .args(args)
-        .output()
-        .expect("the chopwave binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
-fn scenario(name: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../scenarios")
-        .join(name)
-        .display()
-        .to_string()
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-parts-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
 
 #[test]
 fn strict_exits_3_on_a_failed_check_and_0_on_a_passing_design() {

@@ -2,34 +2,12 @@
 //! output, two studies in one folder, planted symlinks at temporary
 //! names, requests too large for the machine, unbounded input files.
 
-use std::path::{Path, PathBuf};
+mod common;
+
+use common::{chopwave, scenario, scratch, text};
+use std::path::Path;
 use std::process::{Child, Command, Output, Stdio};
 use std::time::{Duration, Instant};
-
-fn chopwave() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_chopwave"));
-    c.env("RUST_BACKTRACE", "1");
-    c
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-robust-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn scenario(name: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../scenarios")
-        .join(name)
-        .display()
-        .to_string()
-}
 
 /// Waits for a child at most `limit`, killing it past that (a test that
 /// would hang on the old code fails instead).
@@ -146,22 +124,7 @@ fn a_closed_standard_output_ends_quietly_and_keeps_the_files() {
 /// The interrupted-study command of `study_cli.rs`: a sweep on the
 /// reference engine, slow enough to be running while a second starts.
 fn slow_sweep(out: &Path, vary: &str) -> Vec<String> {
-    [
-        "sweep",
-        &scenario("grow-light-48v.json"),
-        "--vary",
-        vary,
-        "--engine",
-        "reference",
-        "--threads",
-        "1",
-        "--no-plots",
-        "-q",
-        "--out",
-        &out.display().to_string(),
-    ]
-    .map(String::from)
-    .to_vec()
+    common::slow_sweep(out, vary, 1, &[])
 }
 
 #[test]

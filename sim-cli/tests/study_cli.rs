@@ -1,46 +1,11 @@
 //! The study commands as a user runs them: `sweep`, `boundary`,
 //! `spread` and `merge`, their files, exit codes and messages.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_chopwave"))
-        .env("RUST_BACKTRACE", "1")
-        .args(args)
-        .output()
-        .expect("the chopwave binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("chopwave-study-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn scenario(name: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../scenarios")
-        .join(name)
-        .display()
-        .to_string()
-}
-
-fn png_size(p: &Path) -> (u32, u32) {
-    let dec = png::Decoder::new(std::io::BufReader::new(std::fs::File::open(p).unwrap()));
-    let r = dec.read_info().unwrap();
-    let i = r.info();
-    (i.width, i.height)
-}
-
-fn read(p: &Path) -> Vec<u8> {
-    std::fs::read(p).unwrap_or_else(|e| panic!("{}: {e}", p.display()))
-}
+use common::{png_size, read, run, run_owned, scenario, scratch, text};
+use std::path::Path;
+use std::process::Command;
 
 #[test]
 fn sweep_writes_rows_and_plots() {
@@ -343,26 +308,7 @@ fn boundary_prints_value_side_and_margin() {
 /// grow-light scenario on the reference engine (tens of milliseconds a
 /// point), long enough to stop midway on any machine.
 fn slow_sweep(out: &Path, points: usize, extra: &[&str]) -> Vec<String> {
-    let mut a = vec![
-        "sweep".to_string(),
-        scenario("grow-light-48v.json"),
-        "--vary".into(),
-        format!("supply.voltage_v=range:{points}"),
-        "--engine".into(),
-        "reference".into(),
-        "--threads".into(),
-        "2".into(),
-        "--no-plots".into(),
-        "-q".into(),
-        "--out".into(),
-        out.display().to_string(),
-    ];
-    a.extend(extra.iter().map(|s| s.to_string()));
-    a
-}
-
-fn run_owned(args: &[String]) -> Output {
-    run(&args.iter().map(String::as_str).collect::<Vec<_>>())
+    common::slow_sweep(out, &format!("supply.voltage_v=range:{points}"), 2, extra)
 }
 
 /// The complete lines of a journal (every one must parse), allowing one

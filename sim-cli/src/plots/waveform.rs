@@ -1,191 +1,51 @@
 //! PNG plots of a run: the steady-state waveforms over the last few
-//! cycles and the start-up transient from power-on.
-//!
-//! Rendered by plotters into an RGB buffer with the DejaVu Sans font
-//! embedded in the binary (via the `dejavu` crate; Bitstream Vera licence)
-//! and encoded with the `png` crate: no system font or graphics library
-//! is used.
+//! cycles and the start-up transient from power-on, as stacked panels of
+//! traces against time with marker lines (average, peak, valley), each
+//! panel with its legend column.
 
-use crate::format::{eng, eng_exponent, pct, prefix};
-use anyhow::{anyhow, Context, Result};
-use plotters::coord::Shift;
-use plotters::element::DashedPathElement;
+use super::canvas::{
+    chart, dashed, de, draw_mesh, legend_entry, padded_range, page, render, stacked, ticks, Area,
+    Axis, Chart, Frame, GridLines, Key, Mesh, FAIL, INDUCTOR, INDUCTOR_LIGHT, LED, LED_AVG,
+    LEGEND_WIDTH, VIN, VLED, VLED_LIGHT, VSW, WIDTH,
+};
+use crate::format::{eng, pct};
+use anyhow::{anyhow, Result};
 use plotters::prelude::*;
-use plotters::style::FontStyle;
 use sim_core::metrics::ConductionMode;
-use sim_core::parts::alternatives::{self, OperatingPoint};
-use sim_core::parts::assess::Assessment;
 use sim_core::record::{settle_time_s, Waveform, SETTLED_FRACTION};
 use sim_core::record::{COL_IL, COL_ILED, COL_TIME, COL_VIN, COL_VLED, COL_VSW};
 use sim_core::{Scenario, SimResult};
 use std::path::Path;
-use std::sync::Once;
 
-/// Image width, px.
-pub const WIDTH: u32 = 1600;
-/// Image height, px.
-pub const HEIGHT: u32 = 1000;
-/// The font family name the plots register and use.
-pub(crate) const FAMILY: &str = "sans-serif";
-/// Width of the legend column at the right of each panel, px.
-pub(crate) const LEGEND_WIDTH: u32 = 330;
 /// Steady-state cycles shown (the last ones recorded).
 pub const CYCLES_SHOWN: usize = 4;
 
-// Our palette.
-pub(crate) const INK: RGBColor = RGBColor(33, 37, 41);
-pub(crate) const GRID: RGBColor = RGBColor(226, 229, 233);
-pub(crate) const GRID_MAJOR: RGBColor = RGBColor(196, 201, 207);
-pub(crate) const INDUCTOR: RGBColor = RGBColor(0, 105, 148);
-pub(crate) const INDUCTOR_LIGHT: RGBColor = RGBColor(86, 170, 205);
-pub(crate) const LED: RGBColor = RGBColor(222, 110, 20);
-pub(crate) const LED_AVG: RGBColor = RGBColor(140, 45, 10);
-pub(crate) const VLED: RGBColor = RGBColor(118, 62, 168);
-const VLED_LIGHT: RGBColor = RGBColor(175, 140, 210);
-pub(crate) const VSW: RGBColor = RGBColor(34, 120, 70);
-pub(crate) const VIN: RGBColor = RGBColor(150, 118, 0);
-
-static FONTS: Once = Once::new();
-
-pub(crate) fn register_fonts() -> Result<()> {
-    let mut ok = true;
-    FONTS.call_once(|| {
-        ok &= plotters::style::register_font(FAMILY, FontStyle::Normal, dejavu::sans::regular())
-            .is_ok();
-        ok &= plotters::style::register_font(FAMILY, FontStyle::Bold, dejavu::sans::bold()).is_ok();
-    });
-    if ok {
-        Ok(())
-    } else {
-        Err(anyhow!("the embedded font could not be loaded"))
-    }
-}
-
-pub(crate) fn font(size: u32) -> TextStyle<'static> {
-    (FAMILY, size).into_font().color(&INK)
-}
-
-pub(crate) fn bold(size: u32) -> TextStyle<'static> {
-    (FAMILY, size)
-        .into_font()
-        .style(FontStyle::Bold)
-        .color(&INK)
-}
-
-pub(crate) fn de<E: std::fmt::Debug>(e: E) -> anyhow::Error {
-    anyhow!("drawing failed: {e:?}")
-}
-
-/// Human names of scenario fields for axis titles, by JSON path (the
-/// unit is added from the field's suffix). A path not listed is named
-/// from its last two parts.
-const FIELD_NAMES: [(&str, &str); 34] = [
-    ("supply.voltage_v", "Supply voltage"),
-    ("supply.source_resistance_ohm", "Source resistance"),
-    ("input_capacitor.capacitance_f", "Input capacitance"),
-    ("input_capacitor.esr_ohm", "Input capacitor ESR"),
-    ("output_capacitor.capacitance_f", "Output capacitance"),
-    ("output_capacitor.esr_ohm", "Output capacitor ESR"),
-    ("switch.on_resistance_ohm", "Switch on-resistance"),
-    ("diode.forward_voltage_v", "Diode forward voltage"),
-    ("diode.series_resistance_ohm", "Diode series resistance"),
-    ("diode.saturation_current_a", "Diode saturation current"),
-    ("diode.emission_coefficient", "Diode emission coefficient"),
-    ("diode.temperature_c", "Diode temperature"),
-    ("inductor.inductance_h", "Inductance"),
-    ("inductor.dcr_ohm", "Inductor winding resistance"),
-    (
-        "inductor.saturation_current_a",
-        "Inductor saturation current",
-    ),
-    ("load.count", "LEDs in series"),
-    ("load.series_resistance_ohm", "LED series resistance"),
-    ("load.saturation_current_a", "LED saturation current"),
-    ("load.emission_coefficient", "LED emission coefficient"),
-    ("load.junction_temperature_c", "LED junction temperature"),
-    ("load.resistance_ohm", "Load resistance"),
-    ("load.knee_voltage_v", "LED knee voltage"),
-    ("controller.peak_current_a", "Peak-current threshold"),
-    ("controller.off_time_s", "Off-time"),
-    ("controller.delay_s", "Turn-off delay"),
-    ("controller.min_on_time_s", "Minimum on-time"),
-    ("controller.upper_current_a", "Upper current threshold"),
-    ("controller.lower_current_a", "Lower current threshold"),
-    ("controller.frequency_hz", "Switching frequency"),
-    ("controller.duty", "Duty cycle"),
-    ("parts.ambient_temperature_c", "Ambient temperature"),
-    ("parts.led_current_target_a", "LED current target"),
-    ("simulation.samples_per_interval", "Samples per interval"),
-    ("simulation.record_cycles", "Recorded cycles"),
-];
-
-/// The human name of a scenario field (`supply.voltage_v` → "Supply
-/// voltage"), without its unit.
-pub(crate) fn field_name(path: &str) -> String {
-    if let Some((_, n)) = FIELD_NAMES.iter().find(|(p, _)| *p == path) {
-        return (*n).to_string();
-    }
-    // Drop the unit suffix of the last part, name it after its section.
-    let mut parts: Vec<&str> = path.split('.').filter(|p| !p.is_empty()).collect();
-    let last = parts.pop().unwrap_or(path);
-    let units = ["v", "a", "ohm", "h", "f", "s", "hz", "c", "pct"];
-    let stem = match last.rsplit_once('_') {
-        Some((a, u)) if units.contains(&u) => a,
-        _ => last,
-    };
-    let section = parts.last().map(|p| p.replace('_', " "));
-    let words = match section {
-        Some(sec) => format!("{sec} {}", stem.replace('_', " ")),
-        None => stem.replace('_', " "),
-    };
-    let mut c = words.chars();
-    match c.next() {
-        Some(f) => f.to_uppercase().chain(c).collect(),
-        None => words,
-    }
-}
-
 /// One signal on a panel.
-struct Trace<'a> {
-    label: String,
-    color: RGBColor,
-    width: u32,
+pub(crate) struct Trace<'a> {
+    pub(crate) label: String,
+    pub(crate) color: RGBColor,
+    pub(crate) width: u32,
     /// Mark every point with a dot (simulated points, not a dense curve).
-    dots: bool,
-    points: &'a [(f64, f64)],
+    pub(crate) dots: bool,
+    pub(crate) points: &'a [(f64, f64)],
 }
 
 /// A horizontal marker line with a label (average, peak, valley).
-struct Marker {
-    label: String,
-    color: RGBColor,
-    y: f64,
+pub(crate) struct Marker {
+    pub(crate) label: String,
+    pub(crate) color: RGBColor,
+    pub(crate) y: f64,
 }
 
 /// One panel of a stacked plot.
-struct Panel<'a> {
-    quantity: &'a str,
-    unit: &'a str,
-    traces: Vec<Trace<'a>>,
-    markers: Vec<Marker>,
+pub(crate) struct Panel<'a> {
+    pub(crate) quantity: &'a str,
+    pub(crate) unit: &'a str,
+    pub(crate) traces: Vec<Trace<'a>>,
+    pub(crate) markers: Vec<Marker>,
 }
 
-/// An axis scaled to an SI prefix: values are divided by `scale`.
-pub(crate) struct Axis {
-    pub(crate) scale: f64,
-    pub(crate) prefix: &'static str,
-}
-
-impl Axis {
-    pub(crate) fn for_magnitude(m: f64) -> Axis {
-        let e = eng_exponent(m);
-        Axis {
-            scale: 10f64.powi(e),
-            prefix: prefix(e),
-        }
-    }
-}
-
+/// The y range of a panel: its traces and markers.
 fn y_range(panel: &Panel) -> (f64, f64) {
     let mut lo = f64::INFINITY;
     let mut hi = f64::NEG_INFINITY;
@@ -199,20 +59,13 @@ fn y_range(panel: &Panel) -> (f64, f64) {
         lo = lo.min(m.y);
         hi = hi.max(m.y);
     }
-    if !lo.is_finite() || !hi.is_finite() {
-        return (0.0, 1.0);
-    }
-    // Always include zero when the data come near it, so a reader sees the
-    // ripple against the whole value for currents and voltages close to 0.
-    if lo > 0.0 && lo < 0.25 * hi {
-        lo = 0.0;
-    }
-    let span = (hi - lo).max(1e-3 * hi.abs().max(lo.abs())).max(1e-12);
-    (lo - 0.06 * span, hi + 0.08 * span)
+    padded_range(lo, hi, 0.06, 0.08)
 }
 
-fn draw_stack(
-    root: &DrawingArea<BitMapBackend, Shift>,
+/// Draws stacked panels of traces against `x_range` (scaled by `x_axis`)
+/// under a title and subtitle.
+pub(crate) fn draw_stack(
+    root: &Area,
     title: &str,
     subtitle: &str,
     x_desc: &str,
@@ -220,20 +73,8 @@ fn draw_stack(
     x_axis: &Axis,
     panels: &[Panel],
 ) -> Result<()> {
-    root.fill(&WHITE).map_err(de)?;
-    let (head, body) = root.split_vertically(96);
-    head.draw(&Text::new(title.to_string(), (30, 16), bold(34)))
-        .map_err(de)?;
-    head.draw(&Text::new(subtitle.to_string(), (30, 60), font(22)))
-        .map_err(de)?;
-    let n = panels.len() as u32;
-    let body_h = HEIGHT - 96;
-    let bottom_extra = 70;
-    let each = (body_h - bottom_extra) / n;
-    let mut sizes: Vec<u32> = (1..n).map(|k| k * each).collect();
-    sizes.sort_unstable();
-    let breaks: Vec<i32> = sizes.iter().map(|s| *s as i32).collect();
-    let areas = body.split_by_breakpoints(Vec::<i32>::new(), breaks);
+    let body = page(root, title, subtitle)?;
+    let areas = stacked(&body, panels.len());
     let xs = (x_range.0 / x_axis.scale, x_range.1 / x_axis.scale);
     for (k, (panel, area)) in panels.iter().zip(areas.iter()).enumerate() {
         let last = k + 1 == panels.len();
@@ -241,37 +82,24 @@ fn draw_stack(
         let (lo, hi) = y_range(panel);
         let y_axis = Axis::for_magnitude(lo.abs().max(hi.abs()));
         let ys = (lo / y_axis.scale, hi / y_axis.scale);
-        let (xd, yd) = (
-            tick_decimals(xs.1 - xs.0, 12),
-            tick_decimals(ys.1 - ys.0, 6),
-        );
-        let mut chart = ChartBuilder::on(&plot_area)
-            .margin_left(20)
-            .margin_right(24)
-            .margin_top(10)
-            .margin_bottom(if last { 10 } else { 6 })
-            .x_label_area_size(if last { 70 } else { 0 })
-            .y_label_area_size(110)
-            .build_cartesian_2d(xs.0..xs.1, ys.0..ys.1)
-            .map_err(de)?;
-        let y_desc = format!("{} ({}{})", panel.quantity, y_axis.prefix, panel.unit);
-        let x_fmt = |v: &f64| tick(*v, xd);
-        let y_fmt = |v: &f64| tick(*v, yd);
-        let mut mesh = chart.configure_mesh();
-        mesh.x_labels(12)
-            .y_labels(6)
-            .light_line_style(GRID)
-            .bold_line_style(GRID_MAJOR)
-            .axis_style(INK)
-            .label_style(font(19))
-            .axis_desc_style(font(21))
-            .y_desc(y_desc)
-            .x_label_formatter(&x_fmt)
-            .y_label_formatter(&y_fmt);
-        if last {
-            mesh.x_desc(x_desc);
-        }
-        mesh.draw().map_err(de)?;
+        let mut chart = chart(&plot_area, &Frame::panel(last), xs, ys)?;
+        draw_mesh(
+            &mut chart,
+            Mesh {
+                x_labels: 12,
+                y_labels: 6,
+                grid: GridLines::Both,
+                label_px: 19,
+                desc_px: 21,
+                x_desc: last.then(|| x_desc.to_string()),
+                y_desc: Some(format!(
+                    "{} ({}{})",
+                    panel.quantity, y_axis.prefix, panel.unit
+                )),
+                x_fmt: &ticks(xs.1 - xs.0, 12),
+                y_fmt: &ticks(ys.1 - ys.0, 6),
+            },
+        )?;
         for t in &panel.traces {
             let style = ShapeStyle::from(&t.color).stroke_width(t.width);
             let sx = x_axis.scale;
@@ -288,20 +116,15 @@ fn draw_stack(
             }
         }
         for m in &panel.markers {
-            let style = ShapeStyle::from(&m.color).stroke_width(2);
             let y = m.y / y_axis.scale;
-            chart
-                .draw_series(DashedLineSeries::new(
-                    vec![(xs.0, y), (xs.1, y)],
-                    10,
-                    7,
-                    style,
-                ))
-                .map_err(de)?;
+            dashed(
+                &mut chart,
+                vec![(xs.0, y), (xs.1, y)],
+                ShapeStyle::from(&m.color).stroke_width(2),
+            )?;
         }
         draw_legend(&legend_area, panel)?;
     }
-    root.present().map_err(de)?;
     Ok(())
 }
 
@@ -311,19 +134,11 @@ fn draw_stack(
 /// mitre point lands far beyond both segments: a spike the data do not
 /// have. Separate segments have no joins, so nothing is drawn beyond the
 /// points themselves (by more than half the stroke width).
-pub(crate) fn draw_polyline<DB: DrawingBackend>(
-    chart: &mut ChartContext<
-        '_,
-        DB,
-        Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
-    >,
-    pts: &[(f64, f64)],
-    style: ShapeStyle,
-) -> Result<()> {
+fn draw_polyline(chart: &mut Chart, pts: &[(f64, f64)], style: ShapeStyle) -> Result<()> {
     if pts.len() == 1 {
         chart
             .draw_series(std::iter::once(Circle::new(pts[0], 1, style.filled())))
-            .map_err(|e| anyhow!("drawing failed: {e:?}"))?;
+            .map_err(de)?;
         return Ok(());
     }
     chart
@@ -331,145 +146,36 @@ pub(crate) fn draw_polyline<DB: DrawingBackend>(
             pts.windows(2)
                 .map(|w| PathElement::new(vec![w[0], w[1]], style)),
         )
-        .map_err(|e| anyhow!("drawing failed: {e:?}"))?;
+        .map_err(de)?;
     // Round joins for wide strokes of short (dense-curve) traces, so the
     // corners show no notches.
     let w = style.stroke_width;
     if w >= 3 && pts.len() <= 2000 {
         chart
             .draw_series(pts.iter().map(|&p| Circle::new(p, w / 2, style.filled())))
-            .map_err(|e| anyhow!("drawing failed: {e:?}"))?;
+            .map_err(de)?;
     }
     Ok(())
 }
 
 /// The legend beside a panel, in its own column so it never covers data:
 /// a solid line sample for each trace, a dashed one for each marker.
-fn draw_legend(area: &DrawingArea<BitMapBackend, Shift>, panel: &Panel) -> Result<()> {
-    let x0 = 8;
-    let mut y = 22;
-    let line = |y: i32, color: RGBColor, dashed: bool| -> Result<()> {
-        if dashed {
-            area.draw(&DashedPathElement::new(
-                vec![(x0, y), (x0 + 34, y)],
-                7,
-                5,
-                color.stroke_width(3),
-            ))
-            .map_err(de)
-        } else {
-            area.draw(&PathElement::new(
-                vec![(x0, y), (x0 + 34, y)],
-                color.stroke_width(4),
-            ))
-            .map_err(de)
-        }
-    };
+fn draw_legend(area: &Area, panel: &Panel) -> Result<()> {
     let entries = panel
         .traces
         .iter()
-        .map(|t| (t.label.as_str(), t.color, false))
+        .map(|t| (t.label.as_str(), t.color, Key::Line))
         .chain(
             panel
                 .markers
                 .iter()
-                .map(|m| (m.label.as_str(), m.color, true)),
+                .map(|m| (m.label.as_str(), m.color, Key::Dashed)),
         );
-    for (label, color, dashed) in entries {
-        line(y, color, dashed)?;
-        let lines = wrap(label, 27);
-        for (k, part) in lines.iter().enumerate() {
-            area.draw(&Text::new(
-                part.clone(),
-                (x0 + 44, y - 10 + 22 * k as i32),
-                font(18),
-            ))
-            .map_err(de)?;
-        }
-        y += 32 + 22 * (lines.len() as i32 - 1);
+    let mut y = 22;
+    for (label, color, key) in entries {
+        y = legend_entry(area, y, color, key, label)?;
     }
     Ok(())
-}
-
-/// Splits a label into lines of at most `width` characters at spaces.
-pub(crate) fn wrap(text: &str, width: usize) -> Vec<String> {
-    let mut lines = Vec::new();
-    let mut cur = String::new();
-    for word in text.split_whitespace() {
-        if !cur.is_empty() && cur.chars().count() + 1 + word.chars().count() > width {
-            lines.push(std::mem::take(&mut cur));
-        }
-        if !cur.is_empty() {
-            cur.push(' ');
-        }
-        cur.push_str(word);
-    }
-    if !cur.is_empty() {
-        lines.push(cur);
-    }
-    lines
-}
-
-/// Decimals that tell apart ticks spread over `span` in about `n` steps.
-pub(crate) fn tick_decimals(span: f64, n: usize) -> usize {
-    let step = span / n as f64;
-    if step.is_nan() || step <= 0.0 || step.is_infinite() {
-        return 2;
-    }
-    // One more than the step needs, in case the ticks fall on halves;
-    // `tick` drops the trailing zeros this leaves on round values.
-    (-step.log10()).ceil().clamp(0.0, 8.0) as usize + 1
-}
-
-/// A tick label with `decimals` decimals, trailing zeros dropped.
-pub(crate) fn tick(v: f64, decimals: usize) -> String {
-    let s = format!("{v:.decimals$}");
-    let s = if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        s
-    };
-    if s == "-0" {
-        "0".into()
-    } else {
-        s.replace('-', "−")
-    }
-}
-
-pub(crate) fn encode_png(path: &Path, buf: &[u8]) -> Result<()> {
-    crate::output::write_atomic(path, |w| {
-        let mut enc = png::Encoder::new(w, WIDTH, HEIGHT);
-        enc.set_color(png::ColorType::Rgb);
-        enc.set_depth(png::BitDepth::Eight);
-        // The default deflate level: the best level took most of a
-        // plotted run's time for files about 1 % smaller.
-        enc.set_compression(png::Compression::Default);
-        let mut writer = enc.write_header()?;
-        writer.write_image_data(buf)?;
-        writer.finish()?;
-        Ok(())
-    })
-    .with_context(|| format!("cannot write {}", path.display()))
-}
-
-pub(crate) fn render(
-    path: &Path,
-    draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
-) -> Result<()> {
-    encode_png(path, &draw_buffer(draw)?)
-}
-
-/// Draws into a fresh RGB buffer of [`WIDTH`] × [`HEIGHT`].
-pub(crate) fn draw_buffer(
-    draw: impl FnOnce(&DrawingArea<BitMapBackend, Shift>) -> Result<()>,
-) -> Result<Vec<u8>> {
-    register_fonts()?;
-    let mut buf = vec![255u8; (WIDTH * HEIGHT * 3) as usize];
-    {
-        let root = BitMapBackend::with_buffer(&mut buf, (WIDTH, HEIGHT)).into_drawing_area();
-        draw(&root)?;
-    }
-    Ok(buf)
 }
 
 fn column_pairs(
@@ -535,151 +241,6 @@ fn operating_point(s: &Scenario, r: &SimResult) -> String {
     )
 }
 
-/// The alternatives plot's traces in drawing order: the switching design
-/// last, so it is drawn on top (with its simulated points marked).
-pub(crate) const ALTERNATIVE_LABELS: [&str; 3] = [
-    "series resistor (closed form)",
-    "linear regulator (closed form)",
-    "switching design (simulated points)",
-];
-
-/// Writes the comparison plot: LED current, efficiency and driver loss
-/// versus supply voltage for the switching design (its simulated points)
-/// and the resistor and linear alternatives (drawn densely from their
-/// closed forms).
-pub fn alternatives_png(a: &Assessment, path: &Path) -> Result<()> {
-    encode_png(path, &alternatives_buffer(a)?)
-}
-
-/// The comparison plot's pixels (see [`alternatives_png`]).
-fn alternatives_buffer(a: &Assessment) -> Result<Vec<u8>> {
-    let cmp = a
-        .comparison
-        .as_ref()
-        .ok_or_else(|| anyhow!("no alternatives were computed"))?;
-    let s = &a.effective;
-    let (v0, v1) = (
-        cmp.supply_v.first().copied().unwrap_or(s.supply.voltage_v),
-        cmp.supply_v.last().copied().unwrap_or(s.supply.voltage_v),
-    );
-    let span = cmp.assumed_span.unwrap_or(alternatives::ASSUMED_SPAN);
-    let (v0, v1) = if v1 > v0 {
-        (v0, v1)
-    } else {
-        ((1.0 - span) * v0, (1.0 + span) * v0)
-    };
-    let dense: Vec<f64> = (0..=80).map(|k| v0 + (v1 - v0) * k as f64 / 80.0).collect();
-    let res: Vec<OperatingPoint> = cmp
-        .resistor_ohm
-        .map(|r| {
-            dense
-                .iter()
-                .map(|&v| alternatives::resistor_point(s, r, v))
-                .collect()
-        })
-        .unwrap_or_default();
-    let lin: Vec<OperatingPoint> = dense
-        .iter()
-        .map(|&v| alternatives::linear_point(s, cmp.target_current_a, cmp.linear_headroom_v, v))
-        .collect();
-    let sw: Vec<OperatingPoint> = cmp
-        .drivers
-        .iter()
-        .find(|d| d.driver == "switching")
-        .map(|d| d.points.iter().flatten().copied().collect())
-        .unwrap_or_default();
-    let col = |pts: &[OperatingPoint], f: fn(&OperatingPoint) -> f64| -> Vec<(f64, f64)> {
-        pts.iter().map(|p| (p.supply_v, f(p))).collect()
-    };
-    let series: [(&[OperatingPoint], &str, RGBColor); 3] = [
-        (&res, ALTERNATIVE_LABELS[0], LED),
-        (&lin, ALTERNATIVE_LABELS[1], VLED),
-        (&sw, ALTERNATIVE_LABELS[2], INDUCTOR),
-    ];
-    let cur: Vec<Vec<(f64, f64)>> = series
-        .iter()
-        .map(|x| col(x.0, |p| p.led_current_a))
-        .collect();
-    let eff: Vec<Vec<(f64, f64)>> = series
-        .iter()
-        .map(|x| col(x.0, |p| 100.0 * p.efficiency))
-        .collect();
-    let loss: Vec<Vec<(f64, f64)>> = series
-        .iter()
-        .map(|x| col(x.0, |p| p.dissipation_w))
-        .collect();
-    fn traces<'a>(
-        series: &[(&[OperatingPoint], &str, RGBColor); 3],
-        data: &'a [Vec<(f64, f64)>],
-    ) -> Vec<Trace<'a>> {
-        series
-            .iter()
-            .zip(data)
-            .filter(|(_, d)| !d.is_empty())
-            .map(|(x, d)| Trace {
-                label: x.1.to_string(),
-                color: x.2,
-                width: 3,
-                dots: x.1 == ALTERNATIVE_LABELS[2],
-                points: d,
-            })
-            .collect()
-    }
-    let panels = [
-        Panel {
-            quantity: "LED current",
-            unit: "A",
-            traces: traces(&series, &cur),
-            markers: vec![Marker {
-                label: format!("target {}", eng(cmp.target_current_a, "A")),
-                color: LED_AVG,
-                y: cmp.target_current_a,
-            }],
-        },
-        Panel {
-            quantity: "Efficiency",
-            unit: "%",
-            traces: traces(&series, &eff),
-            markers: vec![],
-        },
-        Panel {
-            quantity: "Driver loss",
-            unit: "W",
-            traces: traces(&series, &loss),
-            markers: vec![],
-        },
-    ];
-    let range_words = match cmp.assumed_span {
-        Some(f) => format!(
-            "supply {} to {} (no input range given: ±{:.0} % of nominal)",
-            eng(v0, "V"),
-            eng(v1, "V"),
-            100.0 * f
-        ),
-        None => format!("supply {} to {}", eng(v0, "V"), eng(v1, "V")),
-    };
-    let subtitle = format!(
-        "same LED string, {range_words}   ·   resistor sized at {}   ·   linear headroom {}",
-        eng(s.supply.voltage_v, "V"),
-        eng(cmp.linear_headroom_v, "V")
-    );
-    let x_axis = Axis::for_magnitude(v1.abs());
-    draw_buffer(|root| {
-        draw_stack(
-            root,
-            &format!(
-                "{} — switching vs resistor vs linear",
-                a.result.scenario_name
-            ),
-            &subtitle,
-            &format!("Supply voltage ({}V)", x_axis.prefix),
-            (v0, v1),
-            &x_axis,
-            &panels,
-        )
-    })
-}
-
 /// Writes the steady-state plot of the last [`CYCLES_SHOWN`] recorded
 /// cycles: inductor and LED current with average, peak and valley marked;
 /// the LED string voltage; the switch-node voltage.
@@ -708,7 +269,6 @@ pub fn steady_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
     let same = s.output_capacitor.is_none();
     let valley = crate::report::clean_valley(m);
     let span = t_end - t_first;
-    let x_axis = Axis::for_magnitude(span);
     let panels = [
         Panel {
             quantity: "Current",
@@ -765,18 +325,15 @@ pub fn steady_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
         "{} — steady state, last {shown} switching cycles",
         r.scenario_name
     );
-    let x_desc = format!("Time from the start of the window ({}s)", x_axis.prefix);
-    render(path, |root| {
-        draw_stack(
-            root,
-            &title,
-            &operating_point(s, r),
-            &x_desc,
-            (0.0, span),
-            &x_axis,
-            &panels,
-        )
-    })
+    write_over_time(
+        path,
+        &title,
+        s,
+        r,
+        "Time from the start of the window",
+        span,
+        &panels,
+    )
 }
 
 /// Reduces a long trace to at most two points (minimum and maximum, in
@@ -914,7 +471,6 @@ pub fn startup_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
     } = startup_series(r)?;
     let m = &r.metrics;
     let same = s.output_capacitor.is_none();
-    let x_axis = Axis::for_magnitude(span);
     let mut markers = vec![Marker {
         label: format!("steady LED average {}", eng(m.led_current_avg_a, "A")),
         color: LED_AVG,
@@ -924,7 +480,7 @@ pub fn startup_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
         if sat < 1.5 * m.inductor_current_peak_a.max(0.0) {
             markers.push(Marker {
                 label: format!("inductor saturation rating {}", eng(sat, "A")),
-                color: RGBColor(190, 30, 45),
+                color: FAIL,
                 y: sat,
             });
         }
@@ -970,32 +526,46 @@ pub fn startup_png(s: &Scenario, r: &SimResult, path: &Path) -> Result<()> {
             eng(recorded_s, "s")
         ),
     };
-    let x_desc = format!("Time from power-on ({}s)", x_axis.prefix);
+    write_over_time(path, &title, s, r, "Time from power-on", span, &panels)
+}
+
+/// Writes a run's stacked panels over `0..span_s` s, the operating point
+/// as the subtitle, the time axis titled `time_words` and its unit.
+fn write_over_time(
+    path: &Path,
+    title: &str,
+    s: &Scenario,
+    r: &SimResult,
+    time_words: &str,
+    span_s: f64,
+    panels: &[Panel],
+) -> Result<()> {
+    let x_axis = Axis::for_magnitude(span_s);
+    let x_desc = format!("{time_words} ({}s)", x_axis.prefix);
     render(path, |root| {
         draw_stack(
             root,
-            &title,
+            title,
             &operating_point(s, r),
             &x_desc,
-            (0.0, span),
+            (0.0, span_s),
             &x_axis,
-            &panels,
+            panels,
         )
     })
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
-
-    use sim_core::parts::assess::{assess, AssessOptions};
+    use crate::plots::canvas::{draw_buffer, encode_png, HEIGHT};
     use sim_core::simulate::{simulate, EngineKind, RunOptions};
 
     /// A 12 V lamp of our own: three white LEDs (exponential model, about
     /// 3 V each at 0.7 A, illustrative values) behind a constant off-time
     /// buck with an output capacitor. Three LEDs are a stiff load: a few
     /// millivolts on the capacitor move the current by tens of mA.
-    fn lamp(cap_f: f64, range: bool) -> Scenario {
+    pub(crate) fn lamp(cap_f: f64, range: bool) -> Scenario {
         let range = if range {
             r#","input_range_v": {"min_v": 9, "max_v": 16}"#
         } else {
@@ -1206,13 +776,9 @@ mod tests {
                 },
             ],
         }];
-        register_fonts().unwrap();
-        let mut buf = vec![255u8; (WIDTH * HEIGHT * 3) as usize];
-        {
-            let root = BitMapBackend::with_buffer(&mut buf, (WIDTH, HEIGHT)).into_drawing_area();
-            let x = Axis::for_magnitude(6e-3);
-            draw_stack(&root, "t", "s", "x", (0.0, 6e-3), &x, &panels).unwrap();
-        }
+        let x = Axis::for_magnitude(6e-3);
+        let buf =
+            draw_buffer(|root| draw_stack(root, "t", "s", "x", (0.0, 6e-3), &x, &panels)).unwrap();
         let trace = rows_of(&buf, INDUCTOR);
         let top = *rows_of(&buf, LED_AVG).first().unwrap();
         let bottom = *rows_of(&buf, VIN).last().unwrap();
@@ -1235,88 +801,6 @@ mod tests {
         let _ = std::fs::remove_dir_all(&dir);
     }
 
-    /// Without an input range the alternatives are compared over the same
-    /// ±10 % the plot shows: the switching design has a point at each end
-    /// (before: only the nominal one, so no line and "varies 0.0 %"), is
-    /// drawn last (on top) and with its points marked.
-    #[test]
-    fn alternatives_without_a_range_use_the_plotted_span() {
-        let s = lamp(10e-6, false);
-        let mut s = s;
-        s.simulation.record_startup = false;
-        let a = assess(
-            &s,
-            &AssessOptions {
-                run: RunOptions::default(),
-                alternatives: true,
-            },
-        )
-        .unwrap();
-        let cmp = a.comparison.as_ref().unwrap();
-        assert_eq!(cmp.assumed_span, Some(0.1));
-        assert_eq!(cmp.supply_v.len(), 3);
-        assert!((cmp.supply_v[0] - 10.8).abs() < 1e-9 && (cmp.supply_v[2] - 13.2).abs() < 1e-9);
-        let sw = cmp
-            .drivers
-            .iter()
-            .find(|d| d.driver == "switching")
-            .unwrap();
-        assert!(sw.points.iter().all(Option::is_some));
-        let var = sw.current_variation_pct.unwrap();
-        // A peak-current controller's average moves a little with the
-        // supply (the ripple changes): not zero, not the resistor's.
-        let res = cmp.drivers.iter().find(|d| d.driver == "resistor").unwrap();
-        assert!(
-            var > 1e-3 && var < res.current_variation_pct.unwrap(),
-            "{var} %"
-        );
-        // The switching design is drawn on top with its points marked:
-        // in the LED current panel (the top third), where the linear
-        // regulator's line lies on it, its colour shows (three dots of
-        // radius 8 px alone cover about 600 px; drawn first and without
-        // dots, as before, 5 pixels showed).
-        let buf = alternatives_buffer(&a).unwrap();
-        let panel_rows = 96..(96 + (HEIGHT - 96 - 70) / 3);
-        let mut seen = 0;
-        for y in panel_rows {
-            for x in 0..(WIDTH - LEGEND_WIDTH) {
-                let k = ((y * WIDTH + x) * 3) as usize;
-                if buf[k..k + 3] == [INDUCTOR.0, INDUCTOR.1, INDUCTOR.2] {
-                    seen += 1;
-                }
-            }
-        }
-        assert!(
-            seen > 700,
-            "{seen} switching-design pixels in the current panel"
-        );
-        assert_eq!(ALTERNATIVE_LABELS[2], "switching design (simulated points)");
-        let dir = std::env::temp_dir().join(format!("chopwave-alt-{}", std::process::id()));
-        std::fs::create_dir_all(&dir).unwrap();
-        let f = dir.join("alt.png");
-        alternatives_png(&a, &f).unwrap();
-        assert!(
-            png::Decoder::new(std::io::BufReader::new(std::fs::File::open(&f).unwrap()))
-                .read_info()
-                .is_ok()
-        );
-        let _ = std::fs::remove_dir_all(&dir);
-    }
-
-    #[test]
-    fn axis_titles_use_human_names() {
-        assert_eq!(field_name("supply.voltage_v"), "Supply voltage");
-        assert_eq!(field_name("inductor.inductance_h"), "Inductance");
-        assert_eq!(field_name("parts.switch.rise_time_s"), "Switch rise time");
-        assert_eq!(
-            field_name("controller.hysteresis_pct"),
-            "Controller hysteresis"
-        );
-        for (p, _) in FIELD_NAMES {
-            assert!(!field_name(p).contains('.') && !field_name(p).contains('_'));
-        }
-    }
-
     #[test]
     fn envelope_keeps_extremes() {
         let p: Vec<(f64, f64)> = (0..10_000)
@@ -1326,14 +810,5 @@ mod tests {
         assert!(e.len() <= 200);
         assert!(e.iter().any(|&(_, y)| (y - 9.0).abs() < 1e-12));
         assert!(e.windows(2).all(|w| w[0].0 <= w[1].0));
-    }
-
-    #[test]
-    fn ticks_tell_close_values_apart() {
-        let d = tick_decimals(0.003, 6);
-        assert_ne!(tick(34.7975, d), tick(34.798, d));
-        assert_eq!(tick(2.5, tick_decimals(10.0, 6)), "2.5");
-        assert_eq!(tick(-0.0001, 2), "0");
-        assert_eq!(tick(120.0, 0), "120");
     }
 }
