@@ -6,29 +6,30 @@
 //! their slice of the table; `merge` joins slices and writes exactly the
 //! files one run would have.
 
-use crate::format::{eng, pct};
-use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
+mod files;
+mod text;
+
+use crate::format::eng;
 use crate::{load, output, parse_override, read_text_limited, study_plot, EngineArg, Failure};
-use anyhow::{Context, Result};
+use anyhow::Result;
+use files::*;
 use indicatif::{ProgressBar, ProgressStyle};
-use rayon::prelude::*;
 use sim_core::simulate::SELV_LIMIT_V;
-use sim_core::study::boundary::{boundary_curve, find_boundary, Boundary, BoundarySettings};
-use sim_core::study::journal::{header_line, read_journal, row_line};
-use sim_core::study::rows::{Manifest, Row, RowExt, StudyKind, StudyTable};
-use sim_core::study::run::{Finished, Hooks, RunSettings, Shard};
-use sim_core::study::spread::{
-    corners, corners_manifest, spread, spread_manifest, summarize, SpreadSettings, SpreadSummary,
+use sim_core::study::boundary::{
+    boundary_curve, curve_value, find_boundary, mode_map_grid, BoundarySettings, CurveCount,
 };
+use sim_core::study::rows::{Manifest, StudyTable};
+use sim_core::study::run::{Finished, Hooks, RunSettings, Shard};
+use sim_core::study::session::{self};
+use sim_core::study::spread::{corners, corners_manifest, spread, spread_manifest, SpreadSettings};
 use sim_core::study::sweep::{point_range, sweep, sweep_manifest};
-use sim_core::study::vary::{linspace, Grid, Vary};
+use sim_core::study::vary::{Grid, Vary};
 use sim_core::study::StudyError;
 use sim_core::Scenario;
-use std::collections::BTreeMap;
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
-use std::sync::Mutex;
-use std::time::{Duration, Instant};
+use std::time::Instant;
+use text::*;
 
 /// Options every study shares.
 #[derive(Debug, clap::Args)]
@@ -149,9 +150,7 @@ fn study_failure(e: StudyError) -> Failure {
     match e {
         StudyError::Nominal(_) => Failure::Run(e.to_string()),
         StudyError::TimeLimit(_) => Failure::TimeLimit(e.to_string()),
-        StudyError::Boundary { ref reason, .. } if reason.contains("failed") => {
-            Failure::Run(e.to_string())
-        }
+        StudyError::BoundaryRun { .. } => Failure::Run(e.to_string()),
         other => Failure::Input(other.to_string()),
     }
 }
@@ -212,17 +211,12 @@ fn lock_out(dir: &Path) -> Result<output::FolderLock, Failure> {
 /// Run settings from the common options; the `--stop-after` clock starts
 /// at `started`.
 fn settings(c: &Common, started: Instant) -> Result<RunSettings, Failure> {
-    let deadline = match c.stop_after {
-        None => None,
-        Some(t) if t.is_finite() && t > 0.0 && t < 1e9 => {
-            Some(started + Duration::from_secs_f64(t))
-        }
-        Some(t) => {
-            return Err(Failure::Input(format!(
-                "--stop-after {t}: give a number of seconds above 0 (and below 1e9)"
-            )))
-        }
-    };
+    let deadline = session::deadline(started, c.stop_after).map_err(|_| {
+        Failure::Input(format!(
+            "--stop-after {}: give a number of seconds above 0 (and below 1e9)",
+            c.stop_after.unwrap_or(f64::NAN)
+        ))
+    })?;
     Ok(RunSettings {
         engine: c.engine.into(),
         warm_start: !c.cold,
@@ -243,425 +237,6 @@ fn progress(total: usize, quiet: bool, what: &str) -> Option<ProgressBar> {
     );
     b.set_message(what.to_string());
     Some(b)
-}
-
-fn file_base(m: &Manifest) -> String {
-    let mut s = format!("{}-{}", output::file_stem(&m.scenario), m.kind.word());
-    if let Some(sh) = m.shard {
-        s.push_str(&format!("-shard-{}-of-{}", sh.shard.index, sh.shard.count));
-    }
-    s
-}
-
-/// The summary of a spread or corners table as pretty JSON.
-fn summary_json(s: &SpreadSummary) -> String {
-    serde_json::to_string_pretty(s).unwrap_or_default() + "\n"
-}
-
-/// Writes a table's files: CSV and JSON always; for a whole study also
-/// the spread summary; for a whole, complete study the plots.
-fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> {
-    output::ensure_dir(dir)?;
-    let base = file_base(&t.manifest);
-    let mut written = Vec::new();
-    let csv = dir.join(format!("{base}.csv"));
-    output::write_pieces(&csv, t.csv_lines())?;
-    written.push(csv);
-    let json = dir.join(format!("{base}.json"));
-    output::write_pieces(&json, t.json_pieces())?;
-    written.push(json);
-    if t.manifest.shard.is_some() {
-        return Ok(written);
-    }
-    if t.manifest.kind != StudyKind::Sweep {
-        let p = dir.join(format!("{base}-summary.json"));
-        output::write_text(&p, &summary_json(&summarize(t)))?;
-        written.push(p);
-    }
-    // Plots of an incomplete study would show gaps as if they were
-    // results: drawn only once every point has run.
-    if !plots || t.manifest.incomplete.is_some() {
-        return Ok(written);
-    }
-    match (t.manifest.kind, t.manifest.inputs.len()) {
-        (StudyKind::Sweep, 1) => {
-            let a = dir.join(format!("{base}-current.png"));
-            let b = dir.join(format!("{base}-operation.png"));
-            study_plot::sweep_1d(t, &a, &b).context("sweep plots")?;
-            written.extend([a, b]);
-        }
-        (StudyKind::Sweep, _) => {
-            let name = &t.manifest.scenario;
-            // The maps are drawn and encoded in parallel.
-            let maps = [
-                (
-                    "mode-map",
-                    study_plot::MapKind::Mode,
-                    format!("{name} — conduction mode over the grid"),
-                ),
-                (
-                    "led-current-map",
-                    study_plot::MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
-                    format!("{name} — average LED current"),
-                ),
-                (
-                    "ripple-map",
-                    study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
-                    format!("{name} — peak-to-peak LED ripple relative to the average"),
-                ),
-                (
-                    "efficiency-map",
-                    study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
-                    format!("{name} — efficiency (LED power over input power)"),
-                ),
-            ];
-            let files: Vec<PathBuf> = maps
-                .iter()
-                .map(|(what, _, _)| dir.join(format!("{base}-{what}.png")))
-                .collect();
-            maps.par_iter()
-                .zip(files.par_iter())
-                .map(|((what, kind, title), file)| {
-                    study_plot::grid_map(t, *kind, title, None, file)
-                        .with_context(|| what.replace('-', " "))
-                })
-                .collect::<Result<Vec<()>>>()?;
-            written.extend(files);
-        }
-        _ => {
-            let h = dir.join(format!("{base}-histograms.png"));
-            study_plot::spread_histograms(t, &h).context("histograms")?;
-            written.push(h);
-        }
-    }
-    Ok(written)
-}
-
-/// Safety cautions for a whole study, from its highest supply, losses
-/// and LED power.
-fn cautions(t: &StudyTable) -> Vec<String> {
-    let max = |m: &str| {
-        t.rows
-            .iter()
-            .filter_map(|r| r.metric(m))
-            .fold(f64::NEG_INFINITY, f64::max)
-    };
-    let mut c = Vec::new();
-    if t.manifest.max_supply_v > SELV_LIMIT_V {
-        c.push(format!(
-            "this study applies supplies up to {} — above the usual 60 V DC extra-low-voltage \
-             limit: such a driver can injure or kill; touch-safe construction, insulation and \
-             creepage rules apply; follow local codes and licensed practice",
-            eng(t.manifest.max_supply_v, "V")
-        ));
-    }
-    if max("total_loss_w") > HOT_PARTS_LOSS_W {
-        c.push(format!(
-            "losses reach {} at some points: parts can get hot enough to burn; check temperatures \
-             on the bench",
-            eng(max("total_loss_w"), "W")
-        ));
-    }
-    if max("led_power_w") > BRIGHT_LED_POWER_W {
-        c.push(format!(
-            "LED power reaches {}: do not look into the LEDs at close range; test with a diffuser",
-            eng(max("led_power_w"), "W")
-        ));
-    }
-    c.push(
-        "a simulation is no substitute for bench measurement and certification; follow local \
-         codes and licensed practice"
-            .into(),
-    );
-    c
-}
-
-fn print_cautions(t: &StudyTable) {
-    println!("\nCautions");
-    for c in cautions(t) {
-        println!("  * {c}");
-    }
-}
-
-fn mode_word(r: &Row) -> &str {
-    match r.mode() {
-        Some("ccm") => "CCM",
-        Some("dcm") => "DCM",
-        Some(_) => "boundary",
-        None => "-",
-    }
-}
-
-/// Rows printed in full before the rest is left to the CSV.
-const ROWS_SHOWN: usize = 40;
-
-fn print_sweep(t: &StudyTable) {
-    let m = &t.manifest;
-    println!(
-        "sweep of `{}`: {} points over {} ({} start)",
-        m.scenario,
-        t.rows.len(),
-        m.inputs.join(" × "),
-        if m.warm_start { "warm" } else { "cold" }
-    );
-    let mut head = String::new();
-    for i in &m.inputs {
-        head.push_str(&format!("{i:>24} "));
-    }
-    println!(
-        "{head}{:>10} {:>8} {:>10} {:>7} {:>9} {:>8}  verdict",
-        "LED avg", "ripple", "frequency", "duty", "mode", "effic."
-    );
-    for r in t.rows.iter().take(ROWS_SHOWN) {
-        let mut line = String::new();
-        for (k, p) in m.inputs.iter().enumerate() {
-            line.push_str(&format!("{:>24} ", value_of(r.input(k), p, 3)));
-        }
-        if r.ok() {
-            let g = |n: &str| r.metric(n).unwrap_or(f64::NAN);
-            line.push_str(&format!(
-                "{:>10} {:>6.1} % {:>10} {:>7} {:>9} {:>8}",
-                eng(g("led_current_avg_a"), "A"),
-                g("led_current_ripple_pct"),
-                eng(g("switching_frequency_hz"), "Hz"),
-                pct(g("duty")),
-                mode_word(r),
-                pct(g("efficiency"))
-            ));
-            let c = m.check_point(r);
-            line.push_str(&format!("  {}", c.verdict.word()));
-            if !c.warnings.is_empty() {
-                line.push_str(&format!(" ({})", c.codes().replace(';', ", ")));
-            }
-        } else {
-            line.push_str(&format!("FAILED: {}", r.error().unwrap_or("")));
-        }
-        println!("{line}");
-    }
-    if t.rows.len() > ROWS_SHOWN {
-        println!(
-            "... {} more rows in the CSV and JSON",
-            t.rows.len() - ROWS_SHOWN
-        );
-    }
-    let dcm = t.rows.iter().filter(|r| r.mode() == Some("dcm")).count();
-    println!(
-        "\n{} of {} points in DCM, {} failed",
-        dcm,
-        t.rows.len(),
-        t.failed()
-    );
-    print_point_verdicts(t);
-}
-
-/// How many points warn or fail, by warning (audible, duty near 100 %,
-/// saturation, not regulating); the verdicts are in the CSV and JSON.
-fn print_point_verdicts(t: &StudyTable) {
-    let checks: Vec<_> = t.rows.iter().map(|r| t.manifest.check_point(r)).collect();
-    let count = |code: &str| {
-        checks
-            .iter()
-            .filter(|c| c.warnings.iter().any(|w| w.code() == code))
-            .count()
-    };
-    let words = [
-        ("audible", "switch below 20 kHz (audible)"),
-        ("duty_near_full", "run at a duty above 95 %"),
-        ("saturation", "exceed the inductor's saturation rating"),
-        (
-            "not_regulating",
-            "do not regulate (inductor peak short of the threshold)",
-        ),
-    ];
-    for (code, what) in words {
-        let n = count(code);
-        if n > 0 {
-            println!("{n} of {} points {what}", t.rows.len());
-        }
-    }
-}
-
-/// A value of the field at `path` for people: engineering notation with
-/// the field's unit (`68 µH`), plain figures for ratios (`0.45`, never
-/// `450 m`) and degrees Celsius (`85 °C`).
-fn value_of(v: f64, path: &str, sig: usize) -> String {
-    use sim_core::units::{short_number, Unit};
-    match sim_core::study::vary::unit_of(path) {
-        Unit::Ratio => short_number(v, sig.max(3)),
-        Unit::Celsius => format!("{} °C", short_number(v, sig.max(3))),
-        u => crate::format::eng_sig(v, u.display_symbol(), sig),
-    }
-}
-
-/// The journal beside a study's outputs: rows as they finish.
-fn journal_path(m: &Manifest, dir: &Path) -> PathBuf {
-    dir.join(format!("{}-journal.jsonl", file_base(m)))
-}
-
-/// Runs a sweep, spread or corners study with its journal: with
-/// `--resume`, takes over the points the journal holds (if it belongs to
-/// this very study); streams every finished row into it, one whole line
-/// at a time, as the points finish.
-fn run_journaled(
-    m: &Manifest,
-    dir: &Path,
-    resume: bool,
-    bar: Option<&ProgressBar>,
-    quiet: bool,
-    run: impl FnOnce(&Hooks<'_>) -> Result<StudyTable, Failure>,
-) -> Result<StudyTable, Failure> {
-    output::ensure_dir(dir).map_err(io_failure)?;
-    let path = journal_path(m, dir);
-    let mut resumed = BTreeMap::new();
-    if resume {
-        match read_text_limited(&path) {
-            Ok(text) => {
-                let j = read_journal(&text)
-                    .map_err(|e| Failure::Input(format!("{}: {e}", path.display())))?;
-                if let Some(j) = j {
-                    if j.manifest != *m {
-                        return Err(Failure::Input(format!(
-                            "--resume: {} belongs to a different study (scenario, options or \
-                             version differ); run the same command as before, or remove the \
-                             journal to start afresh",
-                            path.display()
-                        )));
-                    }
-                    resumed = j.finished;
-                }
-            }
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
-            Err(e) => {
-                return Err(Failure::Input(format!(
-                    "cannot read {}: {e}",
-                    path.display()
-                )))
-            }
-        }
-        if !quiet {
-            let _ = writeln!(
-                std::io::stderr(),
-                "resuming: {} points taken from {}",
-                resumed.len(),
-                path.display()
-            );
-        }
-    }
-    if !resume && path.exists() {
-        // Only a journal of this very study is replaced; another study's
-        // unfinished points are not thrown away.
-        let other = read_text_limited(&path)
-            .ok()
-            .and_then(|t| read_journal(&t).ok().flatten())
-            .is_some_and(|j| j.manifest != *m);
-        if other {
-            return Err(Failure::Input(format!(
-                "{} holds the unfinished points of a different study (scenario, options or \
-                 version differ); finish that one with its own command and --resume, give this \
-                 one another --out folder, or remove the journal",
-                path.display()
-            )));
-        }
-        if !quiet {
-            let _ = writeln!(
-                std::io::stderr(),
-                "note: replacing {} from an earlier run (--resume would take over its points)",
-                path.display()
-            );
-        }
-    }
-    // A clean journal first (header and the points taken over; a partly
-    // written last line is gone), then rows are appended to it.
-    let head = std::iter::once(header_line(m)).chain(resumed.values().map(row_line));
-    output::write_pieces(&path, head).map_err(io_failure)?;
-    let file = std::fs::OpenOptions::new()
-        .append(true)
-        .open(&path)
-        .map_err(|e| Failure::Run(format!("cannot open {}: {e}", path.display())))?;
-    let file = Mutex::new(file);
-    let trouble: Mutex<Option<std::io::Error>> = Mutex::new(None);
-    if let Some(b) = bar {
-        b.set_position(resumed.len() as u64);
-    }
-    let sink = |f: &Finished| {
-        let line = row_line(f);
-        let written = match file.lock() {
-            Ok(mut w) => w.write_all(line.as_bytes()),
-            Err(_) => Ok(()),
-        };
-        if let Err(e) = written {
-            if let Ok(mut t) = trouble.lock() {
-                t.get_or_insert(e);
-            }
-        }
-        if let Some(b) = bar {
-            b.inc(1);
-        }
-    };
-    let t = run(&Hooks {
-        on_finish: Some(&sink),
-        resume: Some(&resumed),
-    })?;
-    if let Some(e) = trouble.into_inner().ok().flatten() {
-        let _ = writeln!(
-            std::io::stderr(),
-            "chopwave: warning: rows could not be added to {} ({e}); the study went on",
-            path.display()
-        );
-    }
-    Ok(t)
-}
-
-/// Writes the table, then removes the journal of a complete study (the
-/// table holds every row) or keeps it for `--resume` when the time limit
-/// stopped it; the exit status says which.
-fn finish(
-    t: &StudyTable,
-    dir: &Path,
-    plots: bool,
-    quiet: bool,
-    stop_after: Option<f64>,
-    own_journal: bool,
-) -> Result<(), Failure> {
-    let written = write_table(t, dir, plots).map_err(io_failure)?;
-    if !quiet {
-        for p in &written {
-            // A closed standard error must not stop the journal's removal.
-            let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
-        }
-    }
-    let journal = journal_path(&t.manifest, dir);
-    if let Some(inc) = &t.manifest.incomplete {
-        return Err(Failure::TimeLimit(format!(
-            "time limit of {} s reached: {} of {} points ran; the table holds them (marked \
-             incomplete, no plots) and {} keeps them; run the same command with --resume to \
-             finish",
-            stop_after.unwrap_or(f64::NAN),
-            inc.ran,
-            inc.of,
-            journal.display()
-        )));
-    }
-    if own_journal {
-        match std::fs::remove_file(&journal) {
-            Ok(()) => {}
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
-            Err(e) => {
-                return Err(Failure::Run(format!(
-                    "cannot remove {}: {e}",
-                    journal.display()
-                )))
-            }
-        }
-    }
-    if t.any_failed() {
-        return Err(Failure::Run(format!(
-            "{} of {} points failed; their rows carry the error message",
-            t.failed(),
-            t.rows.len()
-        )));
-    }
-    Ok(())
 }
 
 /// A sweep, spread or corners study from its manifest to its files: the
@@ -696,16 +271,6 @@ fn run_study(
     print_incomplete(&t);
     print_cautions(&t);
     outcome
-}
-
-/// One line on stdout for a table that stopped early.
-fn print_incomplete(t: &StudyTable) {
-    if let Some(inc) = &t.manifest.incomplete {
-        println!(
-            "\nINCOMPLETE: {} — {} of {} points ran; figures above cover those only",
-            inc.reason, inc.ran, inc.of
-        );
-    }
 }
 
 fn parse_shard(s: &Option<String>) -> Result<Option<Shard>, Failure> {
@@ -811,122 +376,6 @@ pub fn run_spread(a: &SpreadArgs, quiet: bool) -> Result<(), Failure> {
     )
 }
 
-/// Metrics the spread summary prints (all are in the summary JSON).
-const PRINTED: [(&str, &str, f64); 8] = [
-    ("led_current_avg_a", "A", 1.0),
-    ("led_current_ripple_pct", "%", 1.0),
-    ("switching_frequency_hz", "Hz", 1.0),
-    ("duty", "%", 100.0),
-    ("efficiency", "%", 100.0),
-    ("inductor_current_peak_a", "A", 1.0),
-    ("ccm_margin", "", 1.0),
-    ("total_loss_w", "W", 1.0),
-];
-
-fn show(v: f64, unit: &str, k: f64) -> String {
-    match unit {
-        "%" => format!("{:.2} %", v * k),
-        "" => crate::format::ratio(v, 1.0),
-        u => eng(v, u),
-    }
-}
-
-fn print_spread(t: &StudyTable) {
-    let m = &t.manifest;
-    let sum = summarize(t);
-    let corners = m.kind == StudyKind::Corners;
-    if corners {
-        println!(
-            "corners of `{}`: {} corners of {} toleranced inputs, {} failed",
-            m.scenario,
-            sum.points,
-            m.inputs.len(),
-            sum.failed
-        );
-    } else {
-        println!(
-            "spread of `{}`: {} samples (seed {}), {} failed",
-            m.scenario,
-            sum.points,
-            m.seed.unwrap_or(0),
-            sum.failed
-        );
-    }
-    println!("inputs:");
-    for n in &m.input_notes {
-        println!("  {n}");
-    }
-    if corners {
-        println!(
-            "\n{:<26} {:>11} {:<40} {:>11} corner",
-            "metric", "lowest", "corner", "highest"
-        );
-    } else {
-        println!(
-            "\n{:<26} {:>11} {:>11} {:>11} {:>11} {:>11}",
-            "metric", "min", "1st pct", "median", "99th pct", "max"
-        );
-    }
-    for (name, unit, k) in PRINTED {
-        let Some(x) = sum.metrics.iter().find(|x| x.metric == name) else {
-            continue;
-        };
-        if corners {
-            println!(
-                "{name:<26} {:>11} {:<40} {:>11} {}",
-                show(x.min, unit, k),
-                x.min_at,
-                show(x.max, unit, k),
-                x.max_at
-            );
-        } else {
-            println!(
-                "{name:<26} {:>11} {:>11} {:>11} {:>11} {:>11}",
-                show(x.min, unit, k),
-                show(x.p01, unit, k),
-                show(x.p50, unit, k),
-                show(x.p99, unit, k),
-                show(x.max, unit, k)
-            );
-        }
-    }
-    if sum.limits.is_empty() {
-        println!(
-            "\nno spec limits: add a `spec` object to the scenario or --spec (e.g. \
-             --spec current_within_pct=5)"
-        );
-        return;
-    }
-    println!("\nspec limits:");
-    for l in &sum.limits {
-        let worst = l
-            .worst_at
-            .as_deref()
-            .map_or(String::new(), |w| format!("   worst: {w}"));
-        println!(
-            "  {:<44} {:>6} of {:<6} ({}){worst}",
-            l.limit,
-            l.pass,
-            l.of,
-            pct(l.pass as f64 / l.of.max(1) as f64)
-        );
-    }
-    if let (Some(p), Some(y), Some((lo, hi))) =
-        (sum.pass, sum.yield_fraction, sum.yield_interval_95)
-    {
-        println!(
-            "yield: {p} of {} meet every limit = {}{}",
-            sum.points,
-            pct(y),
-            if corners {
-                String::new()
-            } else {
-                format!(" (95 % interval {} to {})", pct(lo), pct(hi))
-            }
-        );
-    }
-}
-
 /// `chopwave boundary`.
 pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     let started = Instant::now();
@@ -974,17 +423,16 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         return Ok(());
     }
     let across = Vary::parse(&a.vary[1], &s).map_err(study_failure)?;
-    // The mode map's size is checked before any search runs.
-    if a.map_points > sim_core::study::vary::MAX_POINTS_PER_AXIS {
-        return Err(Failure::Input(format!(
-            "--map-points {}: at most {}",
-            a.map_points,
-            sim_core::study::vary::MAX_POINTS_PER_AXIS
-        )));
-    }
+    // The mode map's grid and size are checked before any search runs.
+    let grid = mode_map_grid(&path, lo, hi, a.map_points, &across).map_err(|e| match e {
+        StudyError::MapTooLarge { points, max } => {
+            Failure::Input(format!("--map-points {points}: at most {max}"))
+        }
+        e => study_failure(e),
+    })?;
     study_budget(
         &s,
-        a.map_points.max(2).saturating_mul(across.values.len()),
+        grid.len(),
         &format!(
             "--map-points {} × {} values of {}",
             a.map_points.max(2),
@@ -994,8 +442,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     )?;
     let _lock = lock_out(&a.common.out)?;
     let curve = boundary_curve(&s, &path, lo, hi, &across, &bs);
-    let mut failed = 0;
-    let mut out_of_time = 0;
+    let count = CurveCount::of(&curve);
     let mut pts = Vec::new();
     // Printed once the files are written (a closed standard output
     // cannot cost them).
@@ -1019,24 +466,11 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
                 ));
             }
             Err(e) => {
-                failed += 1;
-                if matches!(e, StudyError::TimeLimit(_)) {
-                    out_of_time += 1;
-                }
                 text.push_str(&format!("  {:>12}: {e}\n", value_of(*v, &across.path, 3)));
             }
         }
     }
     // The mode map behind the curve.
-    let grid = Grid::new(vec![
-        Vary {
-            path: path.clone(),
-            values: linspace(lo, hi, a.map_points.max(2)),
-            resolved: format!("{path}={lo:e}:{hi:e}:{}", a.map_points.max(2)),
-        },
-        across.clone(),
-    ])
-    .map_err(study_failure)?;
     let bar = progress(grid.len(), quiet, "map points");
     let tick = |_: &Finished| {
         if let Some(b) = &bar {
@@ -1059,14 +493,7 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
     let dir = &a.common.out;
     let base = format!("{}-boundary", output::file_stem(&s.name));
     let mut written = Vec::new();
-    let json = serde_json::json!({
-        "path": path,
-        "across": across.path,
-        "points": curve.iter().map(|(v, r)| match r {
-            Ok(b) => serde_json::json!({"across_value": v, "boundary": b}),
-            Err(e) => serde_json::json!({"across_value": v, "error": e.to_string()}),
-        }).collect::<Vec<_>>(),
-    });
+    let json = curve_value(&path, &across.path, &curve);
     (|| -> Result<()> {
         output::ensure_dir(dir)?;
         let p = dir.join(format!("{base}.json"));
@@ -1100,12 +527,12 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
         }
     }
-    if out_of_time > 0 || t.manifest.incomplete.is_some() {
+    if count.out_of_time > 0 || t.manifest.incomplete.is_some() {
         return Err(Failure::TimeLimit(format!(
             "time limit of {} s reached: the boundary was found for {} of {} values{}",
             a.common.stop_after.unwrap_or(f64::NAN),
-            curve.len() - failed,
-            curve.len(),
+            count.values - count.failed,
+            count.values,
             if t.manifest.incomplete.is_some() {
                 "; the mode map behind it is incomplete (no plot drawn)"
             } else {
@@ -1113,37 +540,13 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             }
         )));
     }
-    if failed > 0 {
+    if count.failed > 0 {
         return Err(Failure::Run(format!(
-            "the boundary was not found for {failed} of {} values",
-            curve.len()
+            "the boundary was not found for {} of {} values",
+            count.failed, count.values
         )));
     }
     Ok(())
-}
-
-fn print_boundary(s: &Scenario, b: &Boundary) {
-    let u = |v: f64| value_of(v, &b.path, 5);
-    println!("CCM/DCM boundary of `{}` along {}:", s.name, b.path);
-    println!(
-        "  boundary   {}   (bracket {} to {}, width {:.3} % of the value, {} runs)",
-        u(b.value),
-        u(b.bracket.0),
-        u(b.bracket.1),
-        100.0 * (b.bracket.1 - b.bracket.0) / b.value.abs(),
-        b.runs
-    );
-    println!(
-        "  CCM lies {} the boundary, DCM {} it",
-        if b.ccm_above { "above" } else { "below" },
-        if b.ccm_above { "below" } else { "above" }
-    );
-    println!(
-        "  nominal    {} is on the {} side, {:.2} % of the nominal from the boundary",
-        value_of(b.nominal, &b.path, 3),
-        if b.nominal_ccm { "CCM" } else { "DCM" },
-        b.margin_pct
-    );
 }
 
 /// `chopwave merge`.
@@ -1156,7 +559,12 @@ pub fn run_merge(a: &MergeArgs, quiet: bool) -> Result<(), Failure> {
             .map_err(|e| Failure::Input(format!("{}: {e}", f.display())))?;
         tables.push(t);
     }
-    let t = StudyTable::merge(tables).map_err(|e| Failure::Input(e.to_string()))?;
+    let t = StudyTable::merge(tables).map_err(|e| match e {
+        e @ StudyError::ShardIncomplete { .. } => {
+            Failure::Input(format!("{e}; run it again with --resume"))
+        }
+        e => Failure::Input(e.to_string()),
+    })?;
     let _lock = lock_out(&a.out)?;
     let outcome = finish(&t, &a.out, !a.no_plots, quiet, None, false);
     crate::note_outcome(&outcome);

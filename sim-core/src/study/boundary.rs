@@ -11,7 +11,7 @@
 //! inside 0.1 %). No formula for the boundary is used.
 
 use super::run::RunSettings;
-use super::vary::Vary;
+use super::vary::{Grid, Vary};
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
@@ -115,9 +115,10 @@ impl Searcher<'_> {
         }
         let mut sets = self.fixed.to_vec();
         sets.push((self.path.to_string(), x));
-        let s = scenario_with(&self.base, &sets).map_err(|e| StudyError::Boundary {
+        let s = scenario_with(&self.base, &sets).map_err(|source| StudyError::BoundaryPoint {
             path: self.path.into(),
-            reason: format!("at {}: {e}", show(x, self.path)),
+            at: show(x, self.path),
+            source,
         })?;
         let near = if self.settings.run.warm_start {
             self.known
@@ -140,9 +141,10 @@ impl Searcher<'_> {
             Some(x0) => run(Some(x0)).or_else(|_| run(self.settings.run.initial_state)),
             None => run(self.settings.run.initial_state),
         }
-        .map_err(|e| StudyError::Boundary {
+        .map_err(|source| StudyError::BoundaryRun {
             path: self.path.into(),
-            reason: format!("the run at {} failed: {e}", show(x, self.path)),
+            at: show(x, self.path),
+            source,
         })?;
         let g = signed_margin(&r.metrics);
         self.known.push((x, r.steady.state_at_turn_on));
@@ -306,3 +308,76 @@ pub fn boundary_curve(
 fn show(v: f64, path: &str) -> String {
     crate::units::eng_exact(v, super::vary::unit_of(path))
 }
+
+/// The grid of the mode map behind a traced boundary: `points` values
+/// (at least 2) evenly from `low` to `high` along the searched `path`,
+/// times every value of the variable the boundary is traced `across`.
+pub fn mode_map_grid(
+    path: &str,
+    low: f64,
+    high: f64,
+    points: usize,
+    across: &Vary,
+) -> Result<Grid, StudyError> {
+    let max = super::vary::MAX_POINTS_PER_AXIS;
+    if points > max {
+        return Err(StudyError::MapTooLarge { points, max });
+    }
+    let n = points.max(2);
+    Grid::new(vec![
+        Vary {
+            path: path.into(),
+            values: super::vary::linspace(low, high, n),
+            resolved: format!("{path}={low:e}:{high:e}:{n}"),
+        },
+        across.clone(),
+    ])
+}
+
+/// A traced boundary as JSON: the searched `path`, the variable it was
+/// traced `across`, and per value of that variable the boundary found
+/// (`boundary`) or why not (`error`).
+pub fn curve_value(
+    path: &str,
+    across: &str,
+    curve: &[(f64, Result<Boundary, StudyError>)],
+) -> serde_json::Value {
+    serde_json::json!({
+        "path": path,
+        "across": across,
+        "points": curve.iter().map(|(v, r)| match r {
+            Ok(b) => serde_json::json!({"across_value": v, "boundary": b}),
+            Err(e) => serde_json::json!({"across_value": v, "error": e.to_string()}),
+        }).collect::<Vec<_>>(),
+    })
+}
+
+/// How a traced boundary went.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CurveCount {
+    /// Values of the traced variable.
+    pub values: usize,
+    /// Values where no boundary was found.
+    pub failed: usize,
+    /// Of those, values where the time limit stopped the search.
+    pub out_of_time: usize,
+}
+
+impl CurveCount {
+    /// Counts a traced boundary's outcomes.
+    pub fn of(curve: &[(f64, Result<Boundary, StudyError>)]) -> CurveCount {
+        let failed = curve.iter().filter(|(_, r)| r.is_err()).count();
+        let out_of_time = curve
+            .iter()
+            .filter(|(_, r)| matches!(r, Err(StudyError::TimeLimit(_))))
+            .count();
+        CurveCount {
+            values: curve.len(),
+            failed,
+            out_of_time,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests;

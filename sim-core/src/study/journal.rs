@@ -14,13 +14,12 @@
 //!
 //! This module only makes and reads the text; writing it is the caller's.
 
-use super::rows::{Manifest, Row};
+use super::rows::{Columns, Manifest, Row};
 use super::run::Finished;
 use super::StudyError;
 use crate::circuit::N_STATES;
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
-use std::sync::Arc;
 
 /// Layout version of journals.
 pub const JOURNAL_FORMAT: &str = "chopwave-journal-1";
@@ -77,7 +76,7 @@ pub fn read_journal(text: &str) -> Result<Option<Journal>, StudyError> {
     let manifest: Manifest =
         serde_json::from_value(head["manifest"].clone()).map_err(|e| bad(1, e.to_string()))?;
     manifest.check_counts().map_err(|e| bad(1, e.to_string()))?;
-    let columns = Arc::new(manifest.metric_columns.clone());
+    let columns: Columns = manifest.metric_columns.as_slice().into();
     let range = super::sweep::point_range(&manifest);
     let mut finished = BTreeMap::new();
     for (k, line) in lines.enumerate() {
@@ -145,7 +144,7 @@ mod tests {
     }
 
     fn line(m: &Manifest, k: usize, state: Option<[f64; N_STATES]>) -> String {
-        let columns = Arc::new(m.metric_columns.clone());
+        let columns: Columns = m.metric_columns.as_slice().into();
         let v = json!({"index": k, "inputs": [10.0], "label": null, "status": "failed",
             "error": "no", "cycles_to_settle": null, "warm_start": null, "metrics": {}});
         row_line(&Finished {

@@ -13,9 +13,15 @@
 //!   merge of shard outputs.
 //! - [`journal`] — finished rows as lines of text while a study runs, so
 //!   an interrupted study keeps them and can be resumed.
+//! - [`session`] — the rules around the journal: which journal belongs
+//!   to a study, which points a resumed study takes over, the time limit,
+//!   how a study ends and whether its journal is kept.
+//! - [`budget`] — what a request will cost (memory, output, points)
+//!   before it runs, and the budget it is held to.
 //! - [`sweep`] — sweep tables from a grid.
 //! - [`boundary`] — where the design crosses between CCM and DCM, found by
-//!   bracketing on the engine's own result.
+//!   bracketing on the engine's own result, traced across a second
+//!   variable over the grid of its mode map.
 //! - [`spread`] — part tolerances and spec limits (the scenario's
 //!   `tolerances` and `spec` objects), Monte Carlo sampling, corners,
 //!   percentiles and yield.
@@ -26,21 +32,25 @@
 //! its index, and rows are ordered by index.
 
 pub mod boundary;
+pub mod budget;
 pub mod journal;
 pub mod rows;
 pub mod run;
+pub mod session;
 pub mod spread;
 pub mod sweep;
 pub mod vary;
 
-use crate::error::ScenarioError;
+use crate::error::{ScenarioError, SimError};
 use crate::scenario::{apply_override, Scenario};
 
-/// Why a study could not be set up or finished.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+/// Why a study could not be set up or finished. A failure that comes
+/// from a run or from the scenario keeps that error as its source.
+#[derive(Debug, Clone, thiserror::Error)]
 #[non_exhaustive]
 pub enum StudyError {
-    /// A `--vary` specification is malformed or names no numeric field.
+    /// A sweep specification (`PATH=START:STOP:COUNT` and its other
+    /// forms) is malformed or names no numeric field.
     #[error("`{spec}`: {reason}")]
     Vary {
         /// The specification as given.
@@ -66,7 +76,7 @@ pub enum StudyError {
     },
     /// The nominal design (needed first) did not run.
     #[error("the nominal design failed: {0}")]
-    Nominal(String),
+    Nominal(#[source] SimError),
     /// The boundary search could not bracket or finish.
     #[error("boundary along {path}: {reason}")]
     Boundary {
@@ -74,6 +84,53 @@ pub enum StudyError {
         path: String,
         /// Why it stopped.
         reason: String,
+    },
+    /// A run of the boundary search failed.
+    #[error("boundary along {path}: the run at {at} failed: {source}")]
+    BoundaryRun {
+        /// The variable searched.
+        path: String,
+        /// The trial value, in engineering notation with its unit.
+        at: String,
+        /// Why the run failed.
+        #[source]
+        source: SimError,
+    },
+    /// A trial value of the boundary search makes the scenario invalid.
+    #[error("boundary along {path}: at {at}: {source}")]
+    BoundaryPoint {
+        /// The variable searched.
+        path: String,
+        /// The trial value, in engineering notation with its unit.
+        at: String,
+        /// What the scenario check found.
+        #[source]
+        source: ScenarioError,
+    },
+    /// A mode map with more points along the searched variable than a
+    /// sweep axis may have.
+    #[error("{points} points along the searched variable: at most {max}")]
+    MapTooLarge {
+        /// The points asked for.
+        points: usize,
+        /// [`vary::MAX_POINTS_PER_AXIS`].
+        max: usize,
+    },
+    /// A shard given to merge stopped before it finished (resuming it
+    /// from its journal finishes it).
+    #[error(
+        "merge: shard {index}/{count} stopped before it finished ({}: {} of {} points ran)",
+        incomplete.reason,
+        incomplete.ran,
+        incomplete.of
+    )]
+    ShardIncomplete {
+        /// The shard's number (1-based).
+        index: usize,
+        /// Shards of the study.
+        count: usize,
+        /// Why it stopped and how many points ran.
+        incomplete: rows::Incomplete,
     },
     /// Shard outputs could not be merged.
     #[error("merge: {0}")]

@@ -25,7 +25,6 @@ use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::ops::Range;
 use std::sync::atomic::{AtomicUsize, Ordering};
-use std::sync::Arc;
 use std::time::Instant;
 
 /// How points are run.
@@ -197,7 +196,7 @@ pub struct RunRows {
 pub fn run_points<F>(
     range: Range<usize>,
     settings: &RunSettings,
-    columns: &Arc<Vec<String>>,
+    columns: &super::rows::Columns,
     make: F,
     hooks: &Hooks<'_>,
 ) -> RunRows

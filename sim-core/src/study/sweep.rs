@@ -2,7 +2,8 @@
 //! parallel, one row per point.
 
 use super::rows::{
-    digest, metric_columns, Incomplete, Manifest, ShardInfo, StudyKind, StudyTable, STUDY_FORMAT,
+    digest, metric_columns, Columns, Incomplete, Manifest, ShardInfo, StudyKind, StudyTable,
+    STUDY_FORMAT,
 };
 use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
 use super::vary::Grid;
@@ -10,7 +11,6 @@ use super::{scenario_json, scenario_with};
 use crate::scenario::{ControllerSpec, Scenario};
 use crate::simulate::EngineKind;
 use std::ops::Range;
-use std::sync::Arc;
 
 /// The manifest fields every study shares.
 pub(crate) fn base_manifest(
@@ -125,7 +125,7 @@ pub(crate) fn run_table<F>(
 where
     F: Fn(usize) -> PointInput + Sync,
 {
-    let columns = Arc::new(manifest.metric_columns.clone());
+    let columns: Columns = manifest.metric_columns.as_slice().into();
     let range = point_range(&manifest);
     let of = range.len();
     let run = run_points(range, settings, &columns, make, hooks);
