@@ -73,6 +73,9 @@ fn main() {
         let j = per_call_us(|| {
             std::hint::black_box(scenario_with(&base, &sets)).ok();
         });
-        println!("{name:<12} {v:>12.2} {j:>16.2}");
+        let t = per_call_us(|| {
+            std::hint::black_box(s.with_values(&sets)).ok();
+        });
+        println!("{name:<12} {v:>12.2} {j:>16.2} {t:>17.2}");
     }
 }

@@ -15,14 +15,17 @@ mod checker;
 mod de;
 mod diagnose;
 mod elements;
+mod junctions;
 mod load;
 mod parts;
 mod paths;
 mod settings;
 mod template;
+mod tolerances;
 mod validate;
 mod validate_parts;
 
+#[allow(unused_imports)] // reshape shim: spread.rs read it here
 pub(crate) use de::de_quantity;
 pub use diagnose::unit_of;
 pub use elements::{
@@ -34,10 +37,11 @@ pub use parts::{
     InductancePoint, InductorData, IntendedMode, LedThermal, PartData, SwitchData, Thermal,
 };
 pub use paths::{apply_override, MAX_OVERRIDE_DEPTH};
-pub use settings::SimSettings;
+pub use settings::{JacobianSource, SimSettings, SteadyMethod};
 pub use template::{
     engineering_json, engineering_text, template, template_text, template_with_parts,
 };
+pub use tolerances::{Distribution, LedVoltageTolerance, PartTolerance, SpecLimits, Tolerances};
 
 use crate::devices::ExpDevice;
 use serde::{Deserialize, Serialize};
@@ -80,13 +84,12 @@ pub struct Scenario {
     /// limits (all optional; see [`PartData`]).
     #[serde(default, skip_serializing_if = "PartData::is_empty")]
     pub parts: PartData,
-    /// Part tolerances for spread studies (optional; see
-    /// [`crate::study::spread`]).
+    /// Part tolerances for spread studies (optional; see [`Tolerances`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub tolerances: Option<crate::study::spread::Tolerances>,
+    pub tolerances: Option<Tolerances>,
     /// Acceptance limits for spread studies (optional).
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub spec: Option<crate::study::spread::SpecLimits>,
+    pub spec: Option<SpecLimits>,
 }
 
 impl Scenario {
@@ -137,3 +140,6 @@ impl Scenario {
 
 #[cfg(test)]
 mod tests;
+
+#[cfg(test)]
+mod tests_reshape;

@@ -40,10 +40,10 @@ pub struct SimSettings {
     pub max_interval_s: f64,
     /// How periodic steady state is found: `shooting` (Newton on the
     /// cycle map, falling back to cycling) or `cycling`.
-    pub steady_state_method: crate::shooting::SteadyMethod,
+    pub steady_state_method: SteadyMethod,
     /// Where shooting's Jacobian comes from: `analytic` or
     /// `finite-difference`.
-    pub shooting_jacobian: crate::shooting::JacobianSource,
+    pub shooting_jacobian: JacobianSource,
 }
 
 /// Default `simulation.curve_slope_tolerance`: 0.5 %, which keeps an
@@ -71,8 +71,30 @@ impl Default for SimSettings {
             curve_slope_tolerance: default_curve_slope_tolerance(),
             samples_per_interval: 24,
             max_interval_s: 10e-3,
-            steady_state_method: crate::shooting::SteadyMethod::Shooting,
-            shooting_jacobian: crate::shooting::JacobianSource::Analytic,
+            steady_state_method: SteadyMethod::Shooting,
+            shooting_jacobian: JacobianSource::Analytic,
         }
     }
+}
+
+/// How periodic steady state is found.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum SteadyMethod {
+    /// Newton on the cycle map, falling back to cycling if it fails.
+    #[default]
+    Shooting,
+    /// Running cycle after cycle until the change per cycle has settled.
+    Cycling,
+}
+
+/// Where the shooting Jacobian comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum JacobianSource {
+    /// Transition matrices and event-time shifts of the exact engine.
+    #[default]
+    Analytic,
+    /// Forward differences: one extra cycle per active state.
+    FiniteDifference,
 }

@@ -182,7 +182,7 @@ pub fn template_with_parts() -> Scenario {
             inductance_h: 34e-6,
         },
     ];
-    use crate::study::spread::{
+    use super::tolerances::{
         Distribution, LedVoltageTolerance, PartTolerance, SpecLimits, Tolerances,
     };
     let tol = |path: &str, pct: f64, distribution: Distribution| PartTolerance {
