@@ -416,7 +416,9 @@ impl Scenario {
         let g = |i: f64| self.load_voltage_v(i) + r_series_ohm * i - vs;
         let (mut lo, mut hi) = (0.0_f64, 1e6_f64);
         let (mut g_lo, mut g_hi) = (g(lo), g(hi));
-        if !(g_lo < 0.0) {
+        // Not driven even at zero current (or a curve that cannot be
+        // evaluated there).
+        if g_lo >= 0.0 || g_lo.is_nan() {
             return 0.0;
         }
         if g_hi < 0.0 || !g_hi.is_finite() {
@@ -442,8 +444,10 @@ impl Scenario {
             } else {
                 mid
             };
+            // Neighbouring floats are caught by the loop's test; any other
+            // bracket has its midpoint strictly inside.
             let x = if x > lo && x < hi { x } else { mid };
-            if !(x > lo && x < hi) {
+            if x <= lo || x >= hi {
                 break;
             }
             let gx = g(x);
