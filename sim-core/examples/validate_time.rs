@@ -58,12 +58,28 @@ fn main() {
         }
     }
     println!(
-        "{:<12} {:>12} {:>16}",
-        "scenario", "validate µs", "JSON point µs"
+        "{:<12} {:>12} {:>15} {:>16} {:>17}",
+        "scenario", "validate µs", "bisection µs", "JSON point µs", "typed point µs"
     );
     for (name, s) in &all {
         let v = per_call_us(|| {
             std::hint::black_box(std::hint::black_box(s).validate()).ok();
+        });
+        // The 200-step bisection validation used to find the held-on
+        // current with (now one evaluation and, only for a failing
+        // design, a short bracketed solve), timed for comparison.
+        let r = s.supply.source_resistance_ohm + s.switch.on_resistance_ohm + s.inductor.dcr_ohm;
+        let b = per_call_us(|| {
+            let (mut lo, mut hi) = (0.0_f64, 1e6_f64);
+            for _ in 0..200 {
+                let mid = 0.5 * (lo + hi);
+                if s.load_voltage_v(mid) + r * mid < s.supply.voltage_v {
+                    lo = mid;
+                } else {
+                    hi = mid;
+                }
+            }
+            std::hint::black_box(lo);
         });
         let base = scenario_json(s);
         let sets = vec![(
@@ -76,6 +92,6 @@ fn main() {
         let t = per_call_us(|| {
             std::hint::black_box(s.with_values(&sets)).ok();
         });
-        println!("{name:<12} {v:>12.2} {j:>16.2} {t:>17.2}");
+        println!("{name:<12} {v:>12.2} {b:>15.2} {j:>16.2} {t:>17.2}");
     }
 }
