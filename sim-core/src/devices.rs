@@ -8,7 +8,6 @@
 //! event like any other. The exact curve ([`ExpDevice`]) is kept for the
 //! reference engine and to measure the fit error.
 
-use crate::scenario::{Diode, Load};
 use crate::units::{thermal_voltage_v, BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C, ZERO_CELSIUS_K};
 
 /// Default band gap of an LED junction's temperature law, eV: gallium
@@ -130,92 +129,30 @@ pub fn bandgap_from_tempco_ev(
     (vj - tempco_v_per_k * t0) / f - xti * vt
 }
 
-/// The temperature data of an exponential LED load.
-pub fn load_junction_inputs(load: &Load) -> Option<JunctionInputs> {
-    match *load {
-        Load::LedExponential {
-            reference_temperature_c,
-            bandgap_ev,
-            is_temp_exponent,
-            forward_voltage_tempco_v_per_k,
-            tempco_current_a,
-            ..
-        } => Some(JunctionInputs {
-            reference_temperature_c,
-            bandgap_ev,
-            is_temp_exponent,
-            tempco_v_per_k: forward_voltage_tempco_v_per_k,
-            tempco_current_a,
-        }),
-        _ => None,
-    }
-}
-
-/// The temperature data of a Shockley diode.
-pub fn diode_junction_inputs(diode: &Diode) -> Option<JunctionInputs> {
-    match *diode {
-        Diode::Shockley {
-            reference_temperature_c,
-            bandgap_ev,
-            is_temp_exponent,
-            forward_voltage_tempco_v_per_k,
-            tempco_current_a,
-            ..
-        } => Some(JunctionInputs {
-            reference_temperature_c,
-            bandgap_ev,
-            is_temp_exponent,
-            tempco_v_per_k: forward_voltage_tempco_v_per_k,
-            tempco_current_a,
-        }),
-        Diode::FixedDrop { .. } => None,
-    }
-}
-
-/// The temperature law of an exponential LED load.
-pub fn load_junction_law(load: &Load) -> Option<JunctionLaw> {
-    let inputs = load_junction_inputs(load)?;
-    match *load {
-        Load::LedExponential {
-            saturation_current_a,
-            emission_coefficient,
-            ..
-        } => Some(JunctionLaw::resolve(
-            &inputs,
-            saturation_current_a,
-            emission_coefficient,
-            LED_BANDGAP_EV,
-            LED_IS_TEMP_EXPONENT,
-        )),
-        _ => None,
-    }
-}
-
-/// The temperature law of a Shockley diode.
-pub fn diode_junction_law(diode: &Diode) -> Option<JunctionLaw> {
-    let inputs = diode_junction_inputs(diode)?;
-    match *diode {
-        Diode::Shockley {
-            saturation_current_a,
-            emission_coefficient,
-            ..
-        } => Some(JunctionLaw::resolve(
-            &inputs,
-            saturation_current_a,
-            emission_coefficient,
-            DIODE_BANDGAP_EV,
-            DIODE_IS_TEMP_EXPONENT,
-        )),
-        Diode::FixedDrop { .. } => None,
-    }
-}
-
 /// Most straight segments a piecewise-linear curve may have.
 pub const MAX_SEGMENTS: usize = 64;
 
 /// Share of a fitted range's top below which a range reaching towards
 /// zero current is covered by the tail segment (see [`PwlCurve::fit`]).
 pub const TAIL_SHARE: f64 = 0.01;
+
+/// A string of identical junctions as plain numbers (what an exponential
+/// LED load or a Shockley diode states), from which [`ExpDevice::at_temperature`]
+/// builds the curve.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct JunctionString {
+    /// Number of junctions in series.
+    pub count: u32,
+    /// Saturation current Is of one junction at the law's reference
+    /// temperature, A.
+    pub saturation_current_a: f64,
+    /// Emission coefficient n (dimensionless).
+    pub emission_coefficient: f64,
+    /// Series resistance of one junction, ohms.
+    pub series_resistance_ohm: f64,
+    /// Junction temperature, °C.
+    pub temperature_c: f64,
+}
 
 /// A string of `count` identical exponential junctions in series:
 /// v(i) = count·(n·Vt·ln(1 + i/Is) + Rs·i).
@@ -232,60 +169,19 @@ pub struct ExpDevice {
 }
 
 impl ExpDevice {
-    /// The exponential model of an LED load, if the load is one, at its
-    /// junction temperature: n·Vt at that temperature and the saturation
-    /// current moved there from its reference temperature by the
-    /// load's [`JunctionLaw`].
-    pub fn from_load(load: &Load) -> Option<ExpDevice> {
-        match *load {
-            Load::LedExponential {
-                count,
-                saturation_current_a,
-                emission_coefficient,
-                series_resistance_ohm,
-                junction_temperature_c,
-                ..
-            } => {
-                let law = load_junction_law(load)?;
-                Some(ExpDevice {
-                    count: f64::from(count),
-                    saturation_current_a: law.saturation_current_a(
-                        saturation_current_a,
-                        emission_coefficient,
-                        junction_temperature_c,
-                    ),
-                    n_vt_v: emission_coefficient * thermal_voltage_v(junction_temperature_c),
-                    series_resistance_ohm,
-                })
-            }
-            _ => None,
-        }
-    }
-
-    /// The Shockley model of a diode, if the diode is one, at its
-    /// temperature (saturation current by the diode's [`JunctionLaw`]).
-    pub fn from_diode(diode: &Diode) -> Option<ExpDevice> {
-        match *diode {
-            Diode::Shockley {
-                saturation_current_a,
-                emission_coefficient,
-                series_resistance_ohm,
-                temperature_c,
-                ..
-            } => {
-                let law = diode_junction_law(diode)?;
-                Some(ExpDevice {
-                    count: 1.0,
-                    saturation_current_a: law.saturation_current_a(
-                        saturation_current_a,
-                        emission_coefficient,
-                        temperature_c,
-                    ),
-                    n_vt_v: emission_coefficient * thermal_voltage_v(temperature_c),
-                    series_resistance_ohm,
-                })
-            }
-            Diode::FixedDrop { .. } => None,
+    /// The string at `junction.temperature_c`: n·Vt at that temperature
+    /// and the saturation current moved there from the law's reference
+    /// temperature by `law`.
+    pub fn at_temperature(junction: &JunctionString, law: &JunctionLaw) -> ExpDevice {
+        ExpDevice {
+            count: f64::from(junction.count),
+            saturation_current_a: law.saturation_current_a(
+                junction.saturation_current_a,
+                junction.emission_coefficient,
+                junction.temperature_c,
+            ),
+            n_vt_v: junction.emission_coefficient * thermal_voltage_v(junction.temperature_c),
+            series_resistance_ohm: junction.series_resistance_ohm,
         }
     }
 

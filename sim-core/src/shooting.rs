@@ -25,7 +25,6 @@ use crate::error::SimError;
 use crate::scenario::{ControllerSpec, Scenario};
 use crate::steady::scaled_change;
 use nalgebra::Matrix3;
-use serde::{Deserialize, Serialize};
 
 /// Scaled residual `max |P(x) − x| / scale` at which the orbit is found.
 pub const RESIDUAL_TARGET: f64 = 1e-12;
@@ -46,27 +45,7 @@ const MAX_RESTARTS: u32 = 3;
 /// Ordinary cycles run after a stalled Newton round.
 const RESTART_CYCLES: u64 = 8;
 
-/// How periodic steady state is found.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum SteadyMethod {
-    /// Newton on the cycle map, falling back to cycling if it fails.
-    #[default]
-    Shooting,
-    /// Running cycle after cycle until the change per cycle has settled.
-    Cycling,
-}
-
-/// Where the shooting Jacobian comes from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum JacobianSource {
-    /// Transition matrices and event-time shifts of the exact engine.
-    #[default]
-    Analytic,
-    /// Forward differences: one extra cycle per active state.
-    FiniteDifference,
-}
+pub use crate::scenario::{JacobianSource, SteadyMethod}; // reshape shim
 
 /// What a successful shooting solve found.
 #[derive(Debug, Clone, Copy, PartialEq)]
