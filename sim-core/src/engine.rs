@@ -10,17 +10,17 @@
 //! **Invariant:** [`ExactEngine::run_cycle`] without a recorder allocates
 //! nothing: all matrices are fixed-size and live on the stack.
 
-use crate::circuit::{
+use crate::model::circuit::{
     Aug, AugMatrix, Circuit, Linear, Region, Row, Signal, N_STATES, X_IL, X_ONE, X_VCIN, X_VCO,
 };
-use crate::controller::{self, Cause, Command, Controller};
+use crate::model::controller::{self, Cause, Command, Controller};
 use crate::devices::PwlCurve;
 use crate::error::SimError;
 use crate::metrics::Totals;
 use crate::propagate::{first_event, gramian, EventFn, Flow, ScanStart, WorkCounts, MAX_EVENTS};
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
-use crate::simulate::ChatterGuard;
+use crate::model::seam::{ChatterGuard, CycleEngine, RunStats};
 use crate::spectral::Spectral;
 use nalgebra::{Matrix3, RowVector3, SVector, Vector3};
 
@@ -1246,6 +1246,43 @@ fn propagate_sensitivity(
     };
     sens.j += f * shift;
     sens.tau += shift;
+}
+
+impl CycleEngine for ExactEngine {
+    fn run_cycle(
+        &mut self,
+        totals: Option<&mut Totals>,
+        rec: Option<&mut Recorder>,
+    ) -> Result<(), SimError> {
+        ExactEngine::run_cycle(self, totals, rec)
+    }
+    fn state(&self) -> [f64; N_STATES] {
+        [self.x[0], self.x[1], self.x[2]]
+    }
+    fn set_state(&mut self, x: [f64; N_STATES]) {
+        ExactEngine::set_state(self, x);
+    }
+    fn time_s(&self) -> f64 {
+        self.t
+    }
+    fn stored_energy_j(&self) -> f64 {
+        ExactEngine::stored_energy_j(self)
+    }
+    fn clamped_energy_j(&self) -> f64 {
+        self.clamped_energy_j
+    }
+    fn freeze_fits(&mut self) {
+        self.freeze_fits = true;
+    }
+    fn stats(&self) -> RunStats {
+        RunStats {
+            cycles: self.cycles,
+            intervals: self.intervals,
+            exponentials: self.work.exponentials,
+            gramians: self.work.gramians,
+            integrator_steps: 0,
+        }
+    }
 }
 
 #[cfg(test)]

@@ -30,12 +30,15 @@
 #![deny(missing_docs)]
 
 pub mod budget;
-pub mod circuit;
-pub mod controller;
+// reshape shim
+pub use model::circuit;
+// reshape shim
+pub use model::controller;
 pub mod devices;
 pub mod engine;
 pub mod error;
 pub mod metrics;
+pub mod model;
 pub mod parts;
 pub mod propagate;
 pub mod record;

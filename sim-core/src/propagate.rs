@@ -16,7 +16,7 @@
 //! its present slope, checked for double crossings with a cubic Hermite
 //! bound, and refined by safeguarded Newton iteration on the closed form.
 
-use crate::circuit::{Aug, AugMatrix, Row, N_AUG};
+use crate::model::circuit::{Aug, AugMatrix, Row, N_AUG};
 use crate::spectral::Spectral;
 use nalgebra::SMatrix;
 

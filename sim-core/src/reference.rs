@@ -29,15 +29,14 @@
 //! This is not the hot path: each interval allocates the integrator's
 //! output vectors.
 
-use crate::circuit::N_STATES;
-use crate::controller::{self, Cause, Command, Controller};
+use crate::model::circuit::N_STATES;
+use crate::model::controller::{self, Cause, Command, Controller};
 use crate::devices::{ExpDevice, InductanceCurve};
 use crate::error::SimError;
 use crate::metrics::Totals;
 use crate::record::{Recorder, Sample};
 use crate::scenario::{Diode, Load, Scenario};
-use crate::simulate::ChatterGuard;
-use crate::simulate::{state_scales, CycleEngine, RunStats};
+use crate::model::seam::{state_scales, ChatterGuard, CycleEngine, RunStats};
 use nalgebra::SVector;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::dop_shared::IntegrationError;
@@ -54,15 +53,8 @@ pub const RTOL: f64 = 1e-10;
 /// through zero.
 pub const ATOL: f64 = 1e-12;
 
-/// Current floor, relative to the current scale. In the off state the
-/// inductor current is taken to have reached zero (DCM idle) when it falls
-/// to this: with a Shockley diode and an exponential LED string and no
-/// output capacitor both voltages vanish with the current, so it would
-/// only approach zero asymptotically. The energy dropped, ½·L·(1e-9·I)²,
-/// is negligible beside any loss. Without an output capacitor the
-/// exponential string is also taken to block below this current (see
-/// `Model::led_idle_v`).
-pub const DIODE_FLOOR_REL: f64 = 1e-9;
+// reshape shim
+pub use crate::model::DIODE_FLOOR_REL;
 
 /// Interior extremes are refined to within this time, s.
 pub const EXTREME_TIME_TOL_S: f64 = 1e-17;
@@ -243,7 +235,7 @@ impl Model {
                 .collect();
             InductanceCurve::new(&pts)
         });
-        let (sense_string_ohm, sense_switch_ohm) = crate::circuit::sense_resistances(s);
+        let (sense_string_ohm, sense_switch_ohm) = crate::model::circuit::sense_resistances(s);
         Model {
             supply_v: s.supply.voltage_v,
             source_ohm: s.supply.source_resistance_ohm,

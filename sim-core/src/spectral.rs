@@ -9,7 +9,7 @@
 //! current ramps linearly) gives `None`, and the caller uses the Taylor
 //! exponential of [`crate::propagate`] instead.
 
-use crate::circuit::{Aug, AugMatrix, N_AUG, X_ONE};
+use crate::model::circuit::{Aug, AugMatrix, N_AUG, X_ONE};
 use nalgebra::{Complex, SMatrix, SVector};
 
 type CMatrix = SMatrix<Complex<f64>, N_AUG, N_AUG>;

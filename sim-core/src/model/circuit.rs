@@ -157,7 +157,7 @@ pub struct Circuit {
     /// output capacitor, V: the knee of a straight-line load; for an
     /// exponential string the exact curve's voltage at the current floor
     /// below which it is taken to block (the reference engine's
-    /// [`crate::reference::DIODE_FLOOR_REL`] of the current scale), not
+    /// [`crate::model::DIODE_FLOOR_REL`] of the current scale), not
     /// the fit's knee, which moves with the fit.
     pub led_idle_v: f64,
 }
@@ -264,7 +264,7 @@ impl Circuit {
             diode_exact,
             led_idle_v: match led_exact {
                 Some(d) => d.voltage_v(
-                    crate::reference::DIODE_FLOOR_REL * crate::simulate::state_scales(s)[0],
+                    crate::model::DIODE_FLOOR_REL * crate::model::seam::state_scales(s)[0],
                 ),
                 None => led.knee_v(),
             },
