@@ -29,14 +29,14 @@
 //! This is not the hot path: each interval allocates the integrator's
 //! output vectors.
 
-use crate::model::circuit::N_STATES;
-use crate::model::controller::{self, Cause, Command, Controller};
 use crate::devices::{ExpDevice, InductanceCurve};
 use crate::error::SimError;
 use crate::metrics::Totals;
+use crate::model::circuit::N_STATES;
+use crate::model::controller::{self, Cause, Command, Controller};
+use crate::model::seam::{state_scales, ChatterGuard, CycleEngine, RunStats};
 use crate::record::{Recorder, Sample};
 use crate::scenario::{Diode, Load, Scenario};
-use crate::model::seam::{state_scales, ChatterGuard, CycleEngine, RunStats};
 use nalgebra::SVector;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::dop_shared::IntegrationError;

@@ -94,4 +94,3 @@ pub fn state_scales(s: &Scenario) -> [f64; N_STATES] {
     });
     [i.max(1e-6), s.supply.voltage_v, s.supply.voltage_v]
 }
-
