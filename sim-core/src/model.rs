@@ -1,5 +1,6 @@
 //! The model of the driver both engines run: the circuit with its element
-//! values built once from the scenario ([`circuit`]), the switch
+//! values read from the scenario once ([`elements`]) and built into the
+//! exact engine's piecewise-linear circuit ([`circuit`]), the switch
 //! controllers ([`controller`]) and the seam between the run driver and
 //! the engines ([`seam`]: the cycle-engine trait, work counters, the
 //! chatter guard, state scales).
@@ -10,6 +11,7 @@
 
 pub mod circuit;
 pub mod controller;
+pub mod elements;
 pub mod seam;
 
 /// Current floor, relative to the current scale. In the off state the

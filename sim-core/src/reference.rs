@@ -29,14 +29,13 @@
 //! This is not the hot path: each interval allocates the integrator's
 //! output vectors.
 
-use crate::devices::{ExpDevice, InductanceCurve};
 use crate::error::SimError;
 use crate::metrics::Totals;
 use crate::model::circuit::N_STATES;
 use crate::model::controller::{self, Cause, Command, Controller};
 use crate::model::seam::{state_scales, ChatterGuard, CycleEngine, RunStats};
 use crate::record::{Recorder, Sample};
-use crate::scenario::{Diode, Load, Scenario};
+use crate::scenario::Scenario;
 use nalgebra::SVector;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::dop_shared::IntegrationError;
@@ -127,6 +126,12 @@ impl ReferenceEngine {
         };
         e.mode.conducting = e.conducting_for(cmd.switch_on);
         e
+    }
+
+    /// The element values this engine integrates (read from the scenario
+    /// once, by [`crate::model::elements::Elements::new`]).
+    pub fn elements(&self) -> &crate::model::elements::Elements {
+        &self.ctx.model
     }
 
     /// Whether the inductor conducts in the present state for a switch

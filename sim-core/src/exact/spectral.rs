@@ -7,7 +7,7 @@
 //! does not have (zero rows and columns) are kept out of the decomposition.
 //! A matrix that is defective or nearly so (e.g. a lossless inductor, whose
 //! current ramps linearly) gives `None`, and the caller uses the Taylor
-//! exponential of [`crate::propagate`] instead.
+//! exponential of [`crate::exact::propagate`] instead.
 
 use crate::model::circuit::{Aug, AugMatrix, N_AUG, X_ONE};
 use nalgebra::{Complex, SMatrix, SVector};

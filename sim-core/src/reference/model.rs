@@ -4,15 +4,11 @@
 //! voltage for a state.
 
 use super::*;
+use crate::model::elements::{DeviceCurve, Elements};
 
-/// A voltage–current curve as the reference engine evaluates it.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(super) enum Curve {
-    /// The exact exponential curve.
-    Exp(ExpDevice),
-    /// v = knee + r·i above the knee, no current below it.
-    Line { knee_v: f64, r_ohm: f64 },
-}
+/// A voltage–current curve as the reference engine evaluates it (the
+/// model's own, shared with the exact engine's circuit).
+pub(super) type Curve = DeviceCurve;
 
 impl Curve {
     pub(super) fn voltage(&self, i: f64) -> f64 {
@@ -23,27 +19,8 @@ impl Curve {
     }
 }
 
-/// Element values, SI.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(super) struct Model {
-    pub(super) supply_v: f64,
-    pub(super) source_ohm: f64,
-    pub(super) input_cap: Option<(f64, f64)>,
-    pub(super) switch_ohm: f64,
-    pub(super) inductance_h: f64,
-    /// Soft saturation: the continuous L(i) of the part's points.
-    pub(super) saturation: Option<InductanceCurve>,
-    pub(super) dcr_ohm: f64,
-    /// Sense resistance in series with the LED string (inductor current), ohms.
-    pub(super) sense_string_ohm: f64,
-    /// Sense resistance in series with the switch, ohms.
-    pub(super) sense_switch_ohm: f64,
-    pub(super) output_cap: Option<(f64, f64)>,
-    pub(super) led: Curve,
-    pub(super) diode: Curve,
-    /// The current floor, A ([`DIODE_FLOOR_REL`] of the current scale).
-    pub(super) floor_a: f64,
-}
+/// Element values, SI: the model's, read from the scenario once.
+pub(super) type Model = Elements;
 
 /// Switch state and whether the inductor conducts.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -86,93 +63,11 @@ pub(super) struct Sig {
 }
 
 impl Model {
+    /// The scenario's element values with the current floor `floor_a`, A.
     pub(super) fn from_scenario(s: &Scenario, floor_a: f64) -> Model {
-        let led = match (ExpDevice::from_load(&s.load), s.load) {
-            (Some(d), _) => Curve::Exp(d),
-            (
-                None,
-                Load::LedKnee {
-                    count,
-                    knee_voltage_v,
-                    dynamic_resistance_ohm,
-                },
-            ) => Curve::Line {
-                knee_v: f64::from(count) * knee_voltage_v,
-                r_ohm: f64::from(count) * dynamic_resistance_ohm,
-            },
-            (None, Load::Resistor { resistance_ohm }) => Curve::Line {
-                knee_v: 0.0,
-                r_ohm: resistance_ohm,
-            },
-            // `from_load` gives a curve for every exponential load.
-            (None, Load::LedExponential { .. }) => Curve::Line {
-                knee_v: 0.0,
-                r_ohm: 0.0,
-            },
-        };
-        let diode = match (ExpDevice::from_diode(&s.diode), s.diode) {
-            (Some(d), _) => Curve::Exp(d),
-            (
-                None,
-                Diode::FixedDrop {
-                    forward_voltage_v,
-                    series_resistance_ohm,
-                },
-            ) => Curve::Line {
-                knee_v: forward_voltage_v,
-                r_ohm: series_resistance_ohm,
-            },
-            // `from_diode` gives a curve for every Shockley diode.
-            (None, Diode::Shockley { .. }) => Curve::Line {
-                knee_v: 0.0,
-                r_ohm: 0.0,
-            },
-        };
-        // A capacitor with no ESR straight on an ideal source does nothing
-        // (same rule as the exact engine).
-        let input_cap = s.input_capacitor.and_then(|c| {
-            if s.supply.source_resistance_ohm == 0.0 && c.esr_ohm == 0.0 {
-                None
-            } else {
-                Some((c.capacitance_f, c.esr_ohm))
-            }
-        });
-        let saturation = (!s.parts.inductor.saturation_curve.is_empty()).then(|| {
-            let pts: Vec<(f64, f64)> = s
-                .parts
-                .inductor
-                .saturation_curve
-                .iter()
-                .map(|p| (p.current_a, p.inductance_h))
-                .collect();
-            InductanceCurve::new(&pts)
-        });
-        let (sense_string_ohm, sense_switch_ohm) = crate::model::circuit::sense_resistances(s);
         Model {
-            supply_v: s.supply.voltage_v,
-            source_ohm: s.supply.source_resistance_ohm,
-            input_cap,
-            switch_ohm: s.switch.on_resistance_ohm,
-            inductance_h: saturation.map_or(s.inductor.inductance_h, |c| c.inductance_h(0.0)),
-            saturation,
-            dcr_ohm: s.inductor.dcr_ohm,
-            sense_string_ohm,
-            sense_switch_ohm,
-            output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
-            led,
-            diode,
             floor_a,
-        }
-    }
-
-    /// Voltage of the LED string carrying no current, with no output
-    /// capacitor: the knee of a linear string; for the exponential string
-    /// its voltage at the current floor (the string is taken to block below
-    /// the floor, as the exact engine's chord fit blocks below its knee).
-    pub(super) fn led_idle_v(&self) -> f64 {
-        match self.led {
-            Curve::Exp(d) => d.voltage_v(self.floor_a),
-            Curve::Line { knee_v, .. } => knee_v,
+            ..Elements::new(s)
         }
     }
 

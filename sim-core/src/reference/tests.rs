@@ -1,6 +1,8 @@
 //! Unit tests of the reference engine's model and event location.
 
 use super::*;
+use crate::devices::ExpDevice;
+use crate::scenario::Load;
 use crate::scenario::{template, Capacitor};
 use approx::assert_relative_eq;
 
