@@ -38,6 +38,58 @@ use cache::*;
 use events::*;
 use sensitivity::*;
 
+/// Why [`ExactEngine::step`] stopped.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StopReason {
+    /// The controller acted on the inductor-current threshold it watched.
+    ControllerThreshold,
+    /// The controller's timer ran out (an off-time, delay, blanking time
+    /// or period).
+    ControllerTimer,
+    /// A device reached a boundary of its piecewise-linear model.
+    Device(DeviceBoundary),
+    /// The caller's end time came before any event.
+    EndTime,
+}
+
+/// Which device boundary ended a step.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DeviceBoundary {
+    /// The diode's current fell to zero (the inductor stops: DCM idle).
+    DiodeCurrentZero,
+    /// The diode's current crossed from one chord of its fitted curve to
+    /// the next.
+    DiodeSegment,
+    /// The inductor current fell to zero with the switch on (no output
+    /// capacitor): the string blocks.
+    InductorBlocked,
+    /// The inductor starts to conduct again.
+    InductorUnblocked,
+    /// The LED current crossed from one chord of its fitted curve to the
+    /// next.
+    LedSegment,
+    /// The LED string stopped conducting (its current reached zero).
+    LedOff,
+    /// The LED string started to conduct (its voltage reached the knee).
+    LedOn,
+    /// The inductor current crossed from one inductance segment of a
+    /// saturating part to the next.
+    InductanceSegment,
+}
+
+/// What one [`ExactEngine::step`] did.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Step {
+    /// Why it stopped.
+    pub reason: StopReason,
+    /// Simulated time at the stop, s.
+    pub time_s: f64,
+    /// The switch state after the stop.
+    pub switch_on: bool,
+    /// The switch turned on at this stop: a switching cycle ended.
+    pub turned_on: bool,
+}
+
 /// The exact engine's state for one run.
 pub struct ExactEngine {
     /// The circuit, with the fitted curves currently in use.
@@ -232,13 +284,80 @@ impl ExactEngine {
             r.cycle_start(self.t);
         }
         loop {
-            let turned_on = self.interval(totals.as_deref_mut(), rec.as_deref_mut())?;
-            if turned_on {
+            let step = self.interval(totals.as_deref_mut(), rec.as_deref_mut(), f64::INFINITY)?;
+            if step.turned_on {
                 self.cycles += 1;
                 self.refit();
                 return Ok(());
             }
         }
+    }
+
+    /// Advances to the next event, or to `until_s` (s, simulated time)
+    /// if that comes first, and says why it stopped: the stepping call a
+    /// library user drives, one event at a time, beside the whole-cycle
+    /// [`Self::run_cycle`] the run driver uses.
+    ///
+    /// Stepping with `until_s = f64::INFINITY` until a step reports
+    /// [`Step::turned_on`] runs exactly the intervals [`Self::run_cycle`]
+    /// runs, to the bit (it is the same code, with re-fits of the curves
+    /// at each turn-on). A finite `until_s` stops between events with
+    /// [`StopReason::EndTime`]: the state is then advanced to `until_s`,
+    /// nothing fires, and the next step continues the same interval (its
+    /// rest is advanced in one more piece, which agrees with an uncut
+    /// interval to rounding). When `until_s` is not after the present time
+    /// (or is NaN) nothing moves and the step reports `EndTime` at once.
+    /// Allocation-free.
+    ///
+    /// Errors as [`Self::run_cycle`] (an interval longer than the
+    /// scenario's limit, a non-finite state, chattering).
+    ///
+    /// ```
+    /// use sim_core::exact::{ExactEngine, StopReason};
+    /// use sim_core::scenario::template;
+    ///
+    /// let s = template();
+    /// let mut stepped = ExactEngine::new(&s);
+    /// let mut whole = ExactEngine::new(&s);
+    /// // Five switching cycles, event by event.
+    /// let (mut cycles, mut events) = (0, 0);
+    /// while cycles < 5 {
+    ///     let step = stepped.step(f64::INFINITY).unwrap();
+    ///     assert_ne!(step.reason, StopReason::EndTime);
+    ///     events += 1;
+    ///     if step.turned_on {
+    ///         cycles += 1;
+    ///     }
+    /// }
+    /// for _ in 0..5 {
+    ///     whole.run_cycle(None, None).unwrap();
+    /// }
+    /// assert!(events >= 10); // at least a turn-off and a turn-on per cycle
+    /// assert_eq!(stepped.state_array(), whole.state_array());
+    ///
+    /// // Stop at a given time between events.
+    /// let t_stop = stepped.t + 1e-7;
+    /// let step = stepped.step(t_stop).unwrap();
+    /// if step.reason == StopReason::EndTime {
+    ///     assert_eq!(step.time_s, t_stop);
+    /// }
+    /// ```
+    pub fn step(&mut self, until_s: f64) -> Result<Step, SimError> {
+        // A NaN end time stops at once too.
+        if until_s <= self.t || until_s.is_nan() {
+            return Ok(Step {
+                reason: StopReason::EndTime,
+                time_s: self.t,
+                switch_on: self.cmd.switch_on,
+                turned_on: false,
+            });
+        }
+        let step = self.interval(None, None, until_s)?;
+        if step.turned_on {
+            self.cycles += 1;
+            self.refit();
+        }
+        Ok(step)
     }
 
     /// Stored energy now, J.

@@ -22,6 +22,26 @@ pub(super) enum Action {
     SatUp,
 }
 
+impl Action {
+    /// Why an interval ended by this action stopped (`threshold`: a
+    /// controller action fired by its watched threshold, not its timer).
+    pub(super) fn reason(self, threshold: bool) -> StopReason {
+        use DeviceBoundary as D;
+        match self {
+            Action::Controller if threshold => StopReason::ControllerThreshold,
+            Action::Controller => StopReason::ControllerTimer,
+            Action::DiodeOff => StopReason::Device(D::DiodeCurrentZero),
+            Action::DiodeDown | Action::DiodeUp => StopReason::Device(D::DiodeSegment),
+            Action::Block => StopReason::Device(D::InductorBlocked),
+            Action::Unblock => StopReason::Device(D::InductorUnblocked),
+            Action::LedDown | Action::LedUp => StopReason::Device(D::LedSegment),
+            Action::LedOff => StopReason::Device(D::LedOff),
+            Action::LedOn => StopReason::Device(D::LedOn),
+            Action::SatDown | Action::SatUp => StopReason::Device(D::InductanceSegment),
+        }
+    }
+}
+
 /// A region's own events (everything but the controller's threshold),
 /// with slot 0 left for the threshold, and the inductor-current event the
 /// threshold is made from. Built once per cached region.

@@ -6,12 +6,14 @@
 use super::*;
 
 impl ExactEngine {
-    /// Simulates up to the next event; returns whether the switch turned on.
+    /// Simulates up to the next event, or to `until_s` when that comes
+    /// first; says why it stopped and whether the switch turned on.
     pub(super) fn interval(
         &mut self,
         totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
-    ) -> Result<bool, SimError> {
+        until_s: f64,
+    ) -> Result<Step, SimError> {
         let slot = self.model_slot(self.region);
         // Borrow the cached model without copying it: the cache is moved
         // out for the interval (an empty Vec allocates nothing) and back.
@@ -21,11 +23,11 @@ impl ExactEngine {
                 lin,
                 spectral,
                 events,
-            }) => self.interval_with(lin, spectral.as_ref(), events, totals, rec),
+            }) => self.interval_with(lin, spectral.as_ref(), events, totals, rec, until_s),
             None => {
                 let lin = self.circuit.linearize(self.region);
                 let mut events = region_events(&self.circuit, self.region, &lin);
-                self.interval_with(&lin, None, &mut events, totals, rec)
+                self.interval_with(&lin, None, &mut events, totals, rec, until_s)
             }
         };
         self.cache = cache;
@@ -40,7 +42,8 @@ impl ExactEngine {
         set: &mut EventSet,
         mut totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
-    ) -> Result<bool, SimError> {
+        until_s: f64,
+    ) -> Result<Step, SimError> {
         let region = self.region;
         let to_deadline = self.cmd.deadline_s - self.t;
         // A timer-ended interval that starts where its timer was set lasts
@@ -133,6 +136,11 @@ impl ExactEngine {
         } else {
             (self.max_interval_s - (self.t - self.switch_changed_t)).max(0.0)
         };
+        // A caller's end time cuts the scan short (never when it is
+        // infinite, as for whole cycles: the limit is then unchanged).
+        let to_end = until_s - self.t;
+        let cut = to_end < t_limit;
+        let t_limit = if cut { to_end } else { t_limit };
         let start = ScanStart {
             due: true,
             threshold: threshold_slot,
@@ -151,7 +159,7 @@ impl ExactEngine {
             self.max_step_s,
             &mut self.work,
         );
-        if scan.event.is_none() && !self.cmd.deadline_s.is_finite() {
+        if scan.event.is_none() && !cut && !self.cmd.deadline_s.is_finite() {
             return Err(SimError::IntervalTooLong {
                 switch: if self.cmd.switch_on { "on" } else { "off" },
                 what: self.controller.waiting_for(),
@@ -180,7 +188,7 @@ impl ExactEngine {
         if let Some(sens) = self.sens.as_mut() {
             let ended = match fired {
                 Some(j) => End::State(&evs[j].row),
-                None if dt > 0.0 => End::Deadline,
+                None if dt > 0.0 && !cut => End::Deadline,
                 None => End::Immediate,
             };
             propagate_sensitivity(sens, &flow, z1, dt, ended, &mut self.work);
@@ -244,6 +252,17 @@ impl ExactEngine {
         }
 
         self.timer_just_set = false;
+        if cut && fired.is_none() {
+            // Stopped at the caller's end time, between events: nothing
+            // fires, the region and the controller stay as they are.
+            self.t = until_s;
+            return Ok(Step {
+                reason: StopReason::EndTime,
+                time_s: self.t,
+                switch_on: self.cmd.switch_on,
+                turned_on: false,
+            });
+        }
         let act = fired.map(|j| acts[j + first]).unwrap_or(Action::Controller);
         let mut turned_on = false;
         // The next region is built in a local and stored once, with its
@@ -351,7 +370,12 @@ impl ExactEngine {
             }
             None => self.set_region(next),
         }
-        Ok(turned_on)
+        Ok(Step {
+            reason: act.reason(fired.is_some()),
+            time_s: self.t,
+            switch_on: self.cmd.switch_on,
+            turned_on,
+        })
     }
 
     /// Moves `region` across a switch edge to `on`.

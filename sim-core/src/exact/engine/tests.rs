@@ -134,3 +134,187 @@ fn the_watch_partner_sits_last_on_the_watched_current() {
     }
     assert!(checked > 0, "no region had a partner event");
 }
+
+/// Scenarios for the stepping tests: the starter design (constant
+/// off-time with a delay), the one with every part (output capacitor,
+/// saturating inductor), a hysteretic one and a deep-DCM one.
+fn stepping_scenarios() -> Vec<Scenario> {
+    let mut hyst = template();
+    hyst.controller = crate::scenario::ControllerSpec::Hysteretic {
+        lower_current_a: 0.5,
+        upper_current_a: 0.8,
+        turn_off_delay_s: 0.0,
+        turn_on_delay_s: 0.0,
+    };
+    let mut dcm = template();
+    if let crate::scenario::ControllerSpec::ConstantOffTime { off_time_s, .. } = &mut dcm.controller
+    {
+        *off_time_s = 20e-6;
+    }
+    vec![
+        template(),
+        crate::scenario::template_with_parts(),
+        hyst,
+        dcm,
+    ]
+}
+
+/// Steps with no end time until `cycles` turn-ons; returns the reasons
+/// seen in the last cycle.
+fn step_cycles(e: &mut ExactEngine, cycles: usize) -> Vec<StopReason> {
+    let mut last = Vec::new();
+    for _ in 0..cycles {
+        last.clear();
+        loop {
+            let step = e.step(f64::INFINITY).unwrap();
+            last.push(step.reason);
+            assert!(step.time_s.to_bits() == e.t.to_bits());
+            if step.turned_on {
+                assert!(step.switch_on);
+                break;
+            }
+        }
+    }
+    last
+}
+
+#[test]
+fn stepping_event_by_event_is_the_whole_cycle_to_the_bit() {
+    for s in stepping_scenarios() {
+        let mut stepped = ExactEngine::new(&s);
+        let mut whole = ExactEngine::new(&s);
+        for _ in 0..200 {
+            whole.run_cycle(None, None).unwrap();
+        }
+        step_cycles(&mut stepped, 200);
+        let bits = |e: &ExactEngine| e.state_array().map(f64::to_bits);
+        assert_eq!(bits(&stepped), bits(&whole), "{}", s.name);
+        assert_eq!(stepped.t.to_bits(), whole.t.to_bits(), "{}", s.name);
+        assert_eq!(
+            (stepped.cycles, stepped.intervals, stepped.refits),
+            (whole.cycles, whole.intervals, whole.refits),
+            "{}",
+            s.name
+        );
+    }
+}
+
+#[test]
+fn stepping_with_end_times_stops_there_and_rejoins_the_orbit() {
+    for s in stepping_scenarios() {
+        let mut cut = ExactEngine::new(&s);
+        let mut whole = ExactEngine::new(&s);
+        for _ in 0..300 {
+            whole.run_cycle(None, None).unwrap();
+        }
+        // End times every 0.37 µs, off any event: most intervals are cut
+        // once or more.
+        let (mut turn_ons, mut ends, mut until) = (0, 0, 0.37e-6);
+        while turn_ons < 300 {
+            let step = cut.step(until).unwrap();
+            match step.reason {
+                StopReason::EndTime => {
+                    ends += 1;
+                    assert_eq!(step.time_s.to_bits(), until.to_bits());
+                    until += 0.37e-6;
+                }
+                _ => assert!(step.time_s <= until),
+            }
+            if step.turned_on {
+                turn_ons += 1;
+            }
+        }
+        assert!(ends > 300, "{}: only {ends} end-time stops", s.name);
+        // A stop at or before the present time moves nothing.
+        let (x, t) = (cut.state_array(), cut.t);
+        let step = cut.step(t).unwrap();
+        assert_eq!(step.reason, StopReason::EndTime);
+        assert_eq!(cut.state_array().map(f64::to_bits), x.map(f64::to_bits));
+        assert!(cut.step(f64::NAN).unwrap().reason == StopReason::EndTime);
+        // Cut intervals are advanced in pieces (e^{M a}·e^{M b} for
+        // e^{M(a+b)}, equal to rounding), so the states agree to rounding
+        // carried through a contracting orbit, not to the bit. The time
+        // differs by where the events fall, each located to
+        // EVENT_TIME_TOL_S (1e-14 s) on slightly different states: within
+        // a hundred of those.
+        let (a, b) = (cut.state_array(), whole.state_array());
+        let scale = crate::model::seam::state_scales(&s);
+        for k in 0..3 {
+            assert!(
+                (a[k] - b[k]).abs() <= 1e-9 * scale[k],
+                "{}: state {k}: {} vs {}",
+                s.name,
+                a[k],
+                b[k]
+            );
+        }
+        assert!(
+            (cut.t - whole.t).abs() <= 100.0 * crate::exact::propagate::EVENT_TIME_TOL_S,
+            "{}: t {} vs {} ({:e})",
+            s.name,
+            cut.t,
+            whole.t,
+            cut.t - whole.t
+        );
+    }
+}
+
+#[test]
+fn steps_say_why_they_stopped() {
+    let s = stepping_scenarios();
+    // Constant off-time with a turn-off delay: the peak threshold (switch
+    // still on, delay timer set), the delay's end (off), the off-time's
+    // end (on), in that order each cycle.
+    // Between them the exponential string's current crosses the
+    // boundaries of its fitted chords, as often up as down in a periodic
+    // orbit.
+    let mut e = ExactEngine::new(&s[0]);
+    let reasons = step_cycles(&mut e, 50);
+    let controller: Vec<_> = reasons
+        .iter()
+        .copied()
+        .filter(|r| !matches!(r, StopReason::Device(_)))
+        .collect();
+    assert_eq!(
+        controller,
+        vec![
+            StopReason::ControllerTimer, // the minimum on-time ends
+            StopReason::ControllerThreshold,
+            StopReason::ControllerTimer,
+            StopReason::ControllerTimer
+        ],
+        "{reasons:?}"
+    );
+    let led = StopReason::Device(DeviceBoundary::LedSegment);
+    let chords = reasons.iter().filter(|r| **r == led).count();
+    assert!(chords > 0 && chords % 2 == 0, "{reasons:?}");
+    // Hysteretic with no delay: both edges are thresholds.
+    let mut e = ExactEngine::new(&s[2]);
+    let reasons = step_cycles(&mut e, 50);
+    let controller: Vec<_> = reasons
+        .iter()
+        .filter(|r| !matches!(r, StopReason::Device(_)))
+        .collect();
+    assert_eq!(
+        controller,
+        vec![
+            &StopReason::ControllerThreshold,
+            &StopReason::ControllerThreshold
+        ],
+        "{reasons:?}"
+    );
+    // A 20 µs off-time is far longer than L·I_pk/V_LED (68 µH · 0.8 A /
+    // ~20 V ≈ 3 µs): the diode current reaches zero inside the off time
+    // (discontinuous conduction; Erickson & Maksimovic, Fundamentals of
+    // Power Electronics, 3rd ed., ch. 5), once a cycle, before the timer
+    // turns the switch back on.
+    let mut e = ExactEngine::new(&s[3]);
+    let reasons = step_cycles(&mut e, 50);
+    let zero = StopReason::Device(DeviceBoundary::DiodeCurrentZero);
+    assert_eq!(
+        reasons.iter().filter(|r| **r == zero).count(),
+        1,
+        "{reasons:?}"
+    );
+    assert_eq!(reasons.last(), Some(&StopReason::ControllerTimer));
+}
