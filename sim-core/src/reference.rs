@@ -5,7 +5,7 @@
 //! supply behind a source resistance, optional input capacitor with ESR,
 //! switch resistance, freewheel diode, inductor with DCR, optional output
 //! capacitor with ESR, LED string) but keeps the exponential LED and
-//! Shockley diode curves exact ([`ExpDevice`]) instead of fitting straight
+//! Shockley diode curves exact ([`crate::devices::ExpDevice`]) instead of fitting straight
 //! chords, and it shares no propagation code with the exact engine: each
 //! interval between events is integrated with the Dormand–Prince 5(4)
 //! method of `ode_solvers` ([`Dopri5`]).
