@@ -30,20 +30,27 @@
 #![deny(missing_docs)]
 
 pub mod budget;
-pub mod circuit;
-pub mod controller;
+// reshape shim
+pub use model::circuit;
+// reshape shim
+pub use model::controller;
 pub mod devices;
-pub mod engine;
+// reshape shim
+pub use exact::engine;
 pub mod error;
+pub mod exact;
 pub mod metrics;
+pub mod model;
 pub mod parts;
-pub mod propagate;
+// reshape shim
+pub use exact::propagate;
 pub mod record;
 pub mod reference;
 pub mod scenario;
 pub mod shooting;
 pub mod simulate;
-pub mod spectral;
+// reshape shim
+pub use exact::spectral;
 pub mod steady;
 pub mod study;
 pub mod units;

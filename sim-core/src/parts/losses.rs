@@ -48,8 +48,8 @@
 //!   coefficients k, α, β are all it needs;
 //! - quiescent: V·I_q at the same feed voltage as the gate drive.
 
-use crate::devices::InductanceCurve;
 use crate::metrics::{LossEnergies, Totals};
+use crate::model::elements::Elements;
 use crate::record::{Waveform, COL_IL, COL_TIME};
 use crate::scenario::{ControllerFeed, Core, Scenario};
 
@@ -149,29 +149,18 @@ pub fn controller_feed_v(s: &Scenario) -> f64 {
     }
 }
 
-/// The flux density of the recorded measured cycles, (t, B) per sample.
+/// The flux density of the recorded measured cycles, (t, B) per sample:
+/// the flux linkage of the model's inductor (the same element values and
+/// saturation curve both engines use) over N·A_e.
 fn flux_density_points(s: &Scenario, core: &Core, w: &Waveform) -> Vec<(f64, f64)> {
     let na = f64::from(core.turns.max(1)) * core.area_m2;
-    let curve = &s.parts.inductor.saturation_curve;
+    let elements = Elements::new(s);
     let t = w.column(COL_TIME);
     let il = w.column(COL_IL);
-    if curve.is_empty() {
-        let l = s.inductor.inductance_h;
-        t.iter()
-            .zip(il.iter())
-            .map(|(&t, &i)| (t, l * i / na))
-            .collect()
-    } else {
-        let pts: Vec<(f64, f64)> = curve
-            .iter()
-            .map(|p| (p.current_a, p.inductance_h))
-            .collect();
-        let c = InductanceCurve::new(&pts);
-        t.iter()
-            .zip(il.iter())
-            .map(|(&t, &i)| (t, c.flux_wb(i) / na))
-            .collect()
-    }
+    t.iter()
+        .zip(il.iter())
+        .map(|(&t, &i)| (t, elements.flux_wb(i) / na))
+        .collect()
 }
 
 /// The part losses of the measured cycles in `t`, J; `w` is the waveform

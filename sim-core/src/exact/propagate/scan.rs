@@ -1,186 +1,9 @@
-//! Exact propagation of a linear region: matrix exponentials, the energy
-//! Gramian and event location.
-//!
-//! Inside one region the augmented state obeys `z' = M z`, so
-//! `z(t) = e^{Mt} z(0)` exactly (nalgebra's scaling-and-squaring Padé
-//! exponential). Every power in the circuit is a quadratic form in `z`, so
-//! all energies over an interval follow from the Gramian
-//! `G(h) = ∫₀ʰ z zᵀ dt`, computed by Van Loan's block exponential
-//! (C. F. Van Loan, "Computing integrals involving the matrix exponential",
-//! IEEE Trans. Automatic Control 23(3), 1978) on a short sub-interval and
-//! then doubled: `G(2h) = G(h) + Φ(h) G(h) Φ(h)ᵀ`.
-//!
-//! Events are zeros of affine functions `w·z(t)`; they are bracketed by a
-//! forward scan whose steps are bounded by the circuit's fastest
-//! oscillation and by the time each function would need to reach zero at
-//! its present slope, checked for double crossings with a cubic Hermite
-//! bound, and refined by safeguarded Newton iteration on the closed form.
+//! Event location on the closed-form trajectory of one region: the first
+//! upward zero crossing of any of a few affine event functions, found by a
+//! forward scan with predicted steps, a Hermite double-crossing guard and
+//! bracketed Newton refinement.
 
-use crate::circuit::{Aug, AugMatrix, Row, N_AUG};
-use crate::spectral::Spectral;
-use nalgebra::SMatrix;
-
-/// Time resolution of event location, s.
-pub const EVENT_TIME_TOL_S: f64 = 1e-14;
-
-/// Counts of the work done, for statistics and benchmarks.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, serde::Serialize)]
-pub struct WorkCounts {
-    /// Matrix exponentials of the 4x4 state matrix.
-    pub exponentials: u64,
-    /// Gramian evaluations (8x8 block exponentials).
-    pub gramians: u64,
-    /// Timer-length intervals done as one precomputed affine update.
-    pub timer_updates: u64,
-}
-
-/// `e^{M t}`.
-#[inline]
-pub fn transition(m: &AugMatrix, t: f64, work: &mut WorkCounts) -> AugMatrix {
-    work.exponentials += 1;
-    (m * t).exp()
-}
-
-/// How a region's trajectory is evaluated: the state matrix and, when it
-/// diagonalizes well, its eigen-decomposition (used first).
-#[derive(Debug, Clone, Copy)]
-pub struct Flow<'a> {
-    /// The augmented state matrix.
-    pub m: &'a AugMatrix,
-    /// Its eigen-decomposition, if well conditioned.
-    pub spectral: Option<&'a Spectral>,
-    /// A precomputed `(t, e^{M t})` for the interval's full length when a
-    /// timer ends it: advancing by exactly that `t` is one matrix-vector
-    /// product.
-    pub timer: Option<(f64, &'a AugMatrix)>,
-}
-
-impl Flow<'_> {
-    /// `e^{M t} z`.
-    #[inline]
-    pub fn advance(&self, t: f64, z: &Aug, work: &mut WorkCounts) -> Aug {
-        if let Some((t_full, phi)) = self.timer {
-            // Exactly the full length (the scan's last step lands on it).
-            if t.to_bits() == t_full.to_bits() {
-                work.timer_updates += 1;
-                return phi * z;
-            }
-        }
-        match self.spectral {
-            Some(s) => {
-                work.exponentials += 1;
-                s.advance(t, z)
-            }
-            None => advance(self.m, t, z, work),
-        }
-    }
-
-    /// `e^{M t}` column by column, each the flow of a unit vector: the
-    /// same arithmetic as [`Flow::advance`], so a state advanced by the
-    /// matrix agrees with one advanced directly.
-    pub fn transition_matrix(&self, t: f64, work: &mut WorkCounts) -> AugMatrix {
-        let mut phi = AugMatrix::zeros();
-        for c in 0..N_AUG {
-            let mut e = Aug::zeros();
-            e[c] = 1.0;
-            phi.set_column(c, &self.advance(t, &e, work));
-        }
-        phi
-    }
-}
-
-/// `e^{M t} z` without forming the matrix when `‖M t‖` is moderate.
-///
-/// For `‖M t‖₁ ≤ 4` the Taylor series is summed on the vector (each term a
-/// 4x4 matrix-vector product) until the terms fall below round-off; beyond
-/// that the matrix exponential is taken by scaling and squaring a
-/// degree-12 Taylor polynomial (truncation error below 1e-17 at
-/// `‖X‖₁ ≤ 1/4`) and applied.
-#[inline]
-pub fn advance(m: &AugMatrix, t: f64, z: &Aug, work: &mut WorkCounts) -> Aug {
-    work.exponentials += 1;
-    let theta = m.abs().row_sum().max() * t.abs();
-    if theta <= 4.0 {
-        let mut sum = *z;
-        let mut term = *z;
-        let zn = z.abs().max().max(f64::MIN_POSITIVE);
-        for k in 1..60 {
-            term = m * term * (t / k as f64);
-            sum += term;
-            if term.abs().max() <= 1e-17 * zn && k as f64 > theta {
-                break;
-            }
-        }
-        sum
-    } else {
-        expm_taylor(m, t) * z
-    }
-}
-
-/// `e^{M t}` by scaling and squaring a degree-12 Taylor polynomial.
-pub fn expm_taylor(m: &AugMatrix, t: f64) -> AugMatrix {
-    let theta = m.abs().row_sum().max() * t.abs();
-    let mut s = 0;
-    let mut scale = 1.0;
-    while theta * scale > 0.25 && s < 1000 {
-        scale *= 0.5;
-        s += 1;
-    }
-    let x = m * (t * scale);
-    // Horner: I + X(I + X/2(I + X/3(...))).
-    let id = AugMatrix::identity();
-    let mut p = id;
-    for k in (1..=12).rev() {
-        p = id + x * p * (1.0 / k as f64);
-    }
-    for _ in 0..s {
-        p = p * p;
-    }
-    p
-}
-
-/// The Gramian `∫₀ʰ z zᵀ dt` of `z' = M z` from `z0`, and `e^{Mh}`.
-pub fn gramian(m: &AugMatrix, z0: &Aug, h: f64, work: &mut WorkCounts) -> (AugMatrix, AugMatrix) {
-    work.gramians += 1;
-    if h <= 0.0 {
-        return (AugMatrix::zeros(), AugMatrix::identity());
-    }
-    // Sub-interval short enough that e^{-Mᵀ h} stays tame.
-    let norm = m.abs().row_sum().max() * h;
-    let mut halvings = 0;
-    let mut hs = h;
-    let mut nrm = norm;
-    while nrm > 0.5 && halvings < 60 {
-        hs *= 0.5;
-        nrm *= 0.5;
-        halvings += 1;
-    }
-    let p = z0 * z0.transpose();
-    let scale = p.abs().max().max(f64::MIN_POSITIVE);
-    let mut c = SMatrix::<f64, 8, 8>::zeros();
-    c.fixed_view_mut::<N_AUG, N_AUG>(0, 0).copy_from(&(m * hs));
-    c.fixed_view_mut::<N_AUG, N_AUG>(0, N_AUG)
-        .copy_from(&(p * (hs / scale)));
-    c.fixed_view_mut::<N_AUG, N_AUG>(N_AUG, N_AUG)
-        .copy_from(&(-m.transpose() * hs));
-    let e = c.exp();
-    let mut phi: AugMatrix = e.fixed_view::<N_AUG, N_AUG>(0, 0).into_owned();
-    let x: AugMatrix = e.fixed_view::<N_AUG, N_AUG>(0, N_AUG).into_owned();
-    let mut g = x * phi.transpose() * scale;
-    for _ in 0..halvings {
-        g += phi * g * phi.transpose();
-        phi = phi * phi;
-    }
-    // Symmetrize round-off.
-    let g = (g + g.transpose()) * 0.5;
-    (g, phi)
-}
-
-/// `r · z`, written out (the generic product's loop does not unroll).
-#[inline]
-pub fn dot4(r: &Row, z: &Aug) -> f64 {
-    r[0] * z[0] + r[1] * z[1] + r[2] * z[2] + r[3] * z[3]
-}
+use super::*;
 
 /// An affine function of the state whose upward zero crossing is an event.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -234,21 +57,21 @@ impl EventFn {
 /// A remembered firing time is tried when it is within this fraction of
 /// the start's second-order prediction (which is seen to err by up to about
 /// 1 %, the remembered time by round-off once the orbit is periodic).
-const REMEMBERED_AGREEMENT: f64 = 0.05;
+pub(super) const REMEMBERED_AGREEMENT: f64 = 0.05;
 
 /// How far past a remembered firing time the first step aims, relative.
-const REMEMBERED_LATE: f64 = 5e-13;
+pub(super) const REMEMBERED_LATE: f64 = 5e-13;
 
 /// A step aimed at a remembered firing time lands on its event when at
 /// most this fraction of the step past it.
-const REMEMBERED_ACCEPT: f64 = 1e-12;
+pub(super) const REMEMBERED_ACCEPT: f64 = 1e-12;
 
 /// Prediction-led steps in one scan before it falls back to even steps.
-const PREDICTED_STEPS: u32 = 200;
+pub(super) const PREDICTED_STEPS: u32 = 200;
 
 /// A function within this many round-off units of zero has reached it (an
 /// asymptotic approach or a grazing touch counts as the event).
-const TOUCH_ULPS: f64 = 1e4;
+pub(super) const TOUCH_ULPS: f64 = 1e4;
 
 /// Most events watched at once.
 pub const MAX_EVENTS: usize = 8;
@@ -273,7 +96,7 @@ pub struct ScanResult {
 /// `τ ∈ (0, bound]`: it is non-negative at `bound`, or it peaks inside at
 /// a non-negative value (`c < 0`, vertex `−d/c < bound`, `d² ≥ 2ch`).
 #[inline]
-fn may_reach_zero_within(h: f64, d: f64, c: f64, bound: f64) -> bool {
+pub(super) fn may_reach_zero_within(h: f64, d: f64, c: f64, bound: f64) -> bool {
     h + bound * (d + 0.5 * c * bound) >= 0.0
         || (c < 0.0 && d > 0.0 && d < -c * bound && d * d >= 2.0 * c * h)
 }
@@ -281,7 +104,7 @@ fn may_reach_zero_within(h: f64, d: f64, c: f64, bound: f64) -> bool {
 /// Smallest positive root of `h + d·τ + c·τ²/2` for `h < 0`, if any: the
 /// second-order prediction of when the function reaches zero.
 #[inline]
-fn predict_zero(h: f64, d: f64, c: f64) -> Option<f64> {
+pub(super) fn predict_zero(h: f64, d: f64, c: f64) -> Option<f64> {
     let a = 0.5 * c;
     if a.abs() * h.abs() <= 1e-12 * d * d {
         // Effectively linear.
@@ -322,7 +145,7 @@ pub struct ScanStart<'a> {
 /// Whether event `ev`, at value `h` and slope `d`, is due at the start
 /// (see [`ScanStart::due`]).
 #[inline]
-fn due_at_start(ev: &EventFn, z: &Aug, h: f64, d: f64, threshold: bool) -> bool {
+pub(super) fn due_at_start(ev: &EventFn, z: &Aug, h: f64, d: f64, threshold: bool) -> bool {
     if threshold {
         return h >= 0.0;
     }
@@ -535,7 +358,7 @@ pub fn first_event(
 
 /// Whether the cubic Hermite interpolant of a negative-at-both-ends
 /// function rises to zero inside the step.
-fn hermite_may_cross(h0: f64, d0: f64, h1: f64, d1: f64, step: f64) -> bool {
+pub(super) fn hermite_may_cross(h0: f64, d0: f64, h1: f64, d1: f64, step: f64) -> bool {
     if d0 <= 0.0 && d1 >= 0.0 {
         // Falling then rising: a minimum inside, no crossing from below.
         return false;
@@ -572,7 +395,7 @@ fn hermite_may_cross(h0: f64, d0: f64, h1: f64, d1: f64, step: f64) -> bool {
 /// Locates the crossing of `ev` in `(0, step]` given `h(0) < 0 < h(step)`
 /// (state `z_step` at the end) by Newton steps kept inside the bracket;
 /// returns the time and the state there, where |h| is at round-off.
-fn refine(
+pub(super) fn refine(
     flow: &Flow,
     z0: &Aug,
     ev: &EventFn,
@@ -635,284 +458,4 @@ fn refine(
         };
     }
     (hi, z_hi)
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use approx::assert_relative_eq;
-
-    /// The convex-hull shortcut never hides a crossing: over a grid of
-    /// cubic Hermite pieces negative at both ends, whenever dense sampling
-    /// of the piece finds it at or above zero, `hermite_may_cross` says a
-    /// crossing may hide inside.
-    #[test]
-    fn hermite_test_never_misses_a_sampled_crossing() {
-        let vals = [-3.0, -1.0, -0.3, -1e-3, 0.0, 1e-3, 0.3, 1.0, 3.0, 10.0];
-        let ends = [-1.0, -0.3, -1e-2, -1e-6];
-        let mut crossings = 0;
-        for &h0 in &ends {
-            for &h1 in &ends {
-                for &d0 in &vals {
-                    for &d1 in &vals {
-                        let step = 0.7;
-                        let (m0, m1) = (d0 * step, d1 * step);
-                        let peak = (0..=400)
-                            .map(|k| {
-                                let s = f64::from(k) / 400.0;
-                                let (s2, s3) = (s * s, s * s * s);
-                                (2.0 * s3 - 3.0 * s2 + 1.0) * h0
-                                    + (s3 - 2.0 * s2 + s) * m0
-                                    + (-2.0 * s3 + 3.0 * s2) * h1
-                                    + (s3 - s2) * m1
-                            })
-                            .fold(f64::NEG_INFINITY, f64::max);
-                        if peak >= 0.0 {
-                            crossings += 1;
-                            assert!(
-                                hermite_may_cross(h0, d0, h1, d1, step),
-                                "h0 {h0} d0 {d0} h1 {h1} d1 {d1}: peak {peak}"
-                            );
-                        }
-                    }
-                }
-            }
-        }
-        assert!(
-            crossings > 20,
-            "only {crossings} crossing pieces in the grid"
-        );
-    }
-
-    /// The one-division root picks the same root as taking both roots and
-    /// the smallest positive one.
-    #[test]
-    fn predicted_zero_is_the_smallest_positive_root() {
-        let both = |h: f64, d: f64, c: f64| -> Option<f64> {
-            let a = 0.5 * c;
-            if a.abs() * h.abs() <= 1e-12 * d * d {
-                return (d > 0.0).then(|| -h / d);
-            }
-            let disc = d * d - 4.0 * a * h;
-            if disc < 0.0 {
-                return None;
-            }
-            let q = -0.5 * (d + d.signum() * disc.sqrt());
-            let (r1, r2) = (q / a, if q != 0.0 { h / q } else { f64::NAN });
-            let best = [r1, r2]
-                .into_iter()
-                .filter(|r| *r > 0.0)
-                .fold(f64::INFINITY, f64::min);
-            best.is_finite().then_some(best)
-        };
-        let vals = [-3.0, -1.0, -1e-3, -1e-9, 0.0, 1e-9, 1e-3, 1.0, 3.0];
-        for &h in &[-1.0, -1e-3, -1e-9, -7.5] {
-            for &d in &vals {
-                for &c in &vals {
-                    assert_eq!(predict_zero(h, d, c), both(h, d, c), "h {h} d {d} c {c}");
-                }
-            }
-        }
-    }
-
-    /// The cheap pre-check never hides a prediction inside the step: over
-    /// a grid of quadratics, whenever `predict_zero` gives a root at or
-    /// below the bound, `may_reach_zero_within` says so.
-    #[test]
-    fn zero_precheck_never_misses_a_predicted_root() {
-        let vals = [-3.0, -1.0, -1e-3, -1e-9, 0.0, 1e-9, 1e-3, 1.0, 3.0];
-        let mut checked = 0;
-        for &h in &[-1.0, -1e-3, -1e-9] {
-            for &d in &vals {
-                for &c in &vals {
-                    for &bound in &[1e-6, 1e-3, 0.5, 1.0, 2.0, 10.0] {
-                        if let Some(tau) = predict_zero(h, d, c) {
-                            if tau <= bound {
-                                checked += 1;
-                                assert!(
-                                    may_reach_zero_within(h, d, c, bound * (1.0 + 1e-6)),
-                                    "h {h} d {d} c {c} bound {bound}: root {tau}"
-                                );
-                            }
-                        }
-                    }
-                }
-            }
-        }
-        assert!(checked > 50, "{checked} cases");
-    }
-
-    #[test]
-    fn own_exponential_matches_pade() {
-        // nalgebra's Padé exponential (Higham 2005) as the reference.
-        let mut m = AugMatrix::zeros();
-        let vals = [
-            [-3.1e3, -1.47e4, 0.0, 1.76e5],
-            [4.5e5, -9.0e5, 0.0, 0.0],
-            [-1.0e5, 0.0, -2.0e7, 2.4e8],
-        ];
-        for i in 0..3 {
-            for j in 0..4 {
-                m[(i, j)] = vals[i][j];
-            }
-        }
-        let z = Aug::new(0.7, 9.1, 11.9, 1.0);
-        let mut w = WorkCounts::default();
-        for &t in &[1e-9, 1e-7, 3e-6, 2e-5] {
-            let want = (m * t).exp() * z;
-            let got = advance(&m, t, &z, &mut w);
-            for i in 0..4 {
-                assert_relative_eq!(got[i], want[i], max_relative = 1e-12, epsilon = 1e-12);
-            }
-        }
-    }
-
-    #[test]
-    fn gramian_of_a_ramp() {
-        // x' = 1 (i_L ramps at 1 A/s), z = [t, 0, 0, 1]:
-        // ∫ t² = h³/3, ∫ t = h²/2, ∫ 1 = h.
-        let mut m = AugMatrix::zeros();
-        m[(0, 3)] = 1.0;
-        let z0 = Aug::new(0.0, 0.0, 0.0, 1.0);
-        let mut w = WorkCounts::default();
-        let h = 3.0;
-        let (g, phi) = gramian(&m, &z0, h, &mut w);
-        assert_relative_eq!(g[(0, 0)], h * h * h / 3.0, max_relative = 1e-13);
-        assert_relative_eq!(g[(0, 3)], h * h / 2.0, max_relative = 1e-13);
-        assert_relative_eq!(g[(3, 3)], h, max_relative = 1e-13);
-        assert_relative_eq!(phi[(0, 3)], h, max_relative = 1e-13);
-    }
-
-    #[test]
-    fn gramian_of_a_stiff_decay() {
-        // x' = -a x, x0 = 1: ∫ x² = (1 - e^{-2ah}) / 2a, with a·h = 2000.
-        let a = 1e8;
-        let h = 2e-5;
-        let mut m = AugMatrix::zeros();
-        m[(0, 0)] = -a;
-        let z0 = Aug::new(1.0, 0.0, 0.0, 1.0);
-        let mut w = WorkCounts::default();
-        let (g, _) = gramian(&m, &z0, h, &mut w);
-        assert_relative_eq!(
-            g[(0, 0)],
-            (1.0 - (-2.0 * a * h).exp()) / (2.0 * a),
-            max_relative = 1e-12
-        );
-        assert_relative_eq!(g[(0, 3)], (1.0 - (-a * h).exp()) / a, max_relative = 1e-12);
-    }
-
-    #[test]
-    fn finds_first_crossing_of_an_oscillation() {
-        // x'' = -w² x (as i' = v, v' = -w² i), i(0) = 0, v(0) = 1:
-        // i = sin(w t)/w reaches 0.5/w first at w t = π/6.
-        let w_rad = 2.0e5;
-        let mut m = AugMatrix::zeros();
-        m[(0, 1)] = 1.0;
-        m[(1, 0)] = -w_rad * w_rad;
-        let z0 = Aug::new(0.0, 1.0, 0.0, 1.0);
-        let mut row = Row::zeros();
-        row[0] = 1.0;
-        row[3] = -0.5 / w_rad;
-        let ev = EventFn::new(row, &m);
-        let mut work = WorkCounts::default();
-        let flow = Flow {
-            timer: None,
-            m: &m,
-            spectral: None,
-        };
-        let r = first_event(
-            &flow,
-            &z0,
-            &[ev],
-            ScanStart::default(),
-            1.0,
-            0.25 / w_rad,
-            &mut work,
-        );
-        assert_eq!(r.event, Some(0));
-        assert!(
-            (r.t - std::f64::consts::FRAC_PI_6 / w_rad).abs() < 1e-13,
-            "{}",
-            r.t
-        );
-    }
-
-    #[test]
-    fn a_return_through_zero_from_a_hair_above_is_found() {
-        // i' = v, v' = k: i = i0 + v0·t + k·t²/2 leaves i0 falling and
-        // comes back up through it at t = −2·v0/k. The event i − i0 starts
-        // a round-off hair above zero (as just after the opposite event
-        // on the same boundary fired) and must fire on the return, even
-        // when one step spans the whole dip.
-        let (i0, v0, k) = (0.5622, -2.0e3, 1.0e10);
-        let mut m = AugMatrix::zeros();
-        m[(0, 1)] = 1.0;
-        m[(1, 3)] = k;
-        let z0 = Aug::new(i0, v0, 0.0, 1.0);
-        let mut row = Row::zeros();
-        row[0] = 1.0;
-        row[3] = -i0 * (1.0 - 4.0 * f64::EPSILON);
-        assert!(row[0] * i0 + row[3] > 0.0);
-        let ev = EventFn::new(row, &m);
-        let mut work = WorkCounts::default();
-        let flow = Flow {
-            timer: None,
-            m: &m,
-            spectral: None,
-        };
-        let start = ScanStart {
-            due: true,
-            threshold: None,
-            last_fired: &[],
-        };
-        let t_back = -2.0 * v0 / k;
-        let r = first_event(&flow, &z0, &[ev], start, 1.0, 1.0, &mut work);
-        assert_eq!(r.event, Some(0), "the return at {t_back:e} s was missed");
-        // Accepted a hair past the root (within a few 1e-9 of the step).
-        assert!((r.t - t_back).abs() < 1e-8 * t_back, "{} vs {t_back}", r.t);
-    }
-
-    #[test]
-    fn grazing_function_does_not_fire() {
-        // i = sin(w t)/w peaks at 1/w; a threshold at 1.0001/w is never reached.
-        let w_rad = 1.0e5;
-        let mut m = AugMatrix::zeros();
-        m[(0, 1)] = 1.0;
-        m[(1, 0)] = -w_rad * w_rad;
-        let z0 = Aug::new(0.0, 1.0, 0.0, 1.0);
-        let mut row = Row::zeros();
-        row[0] = 1.0;
-        row[3] = -1.0001 / w_rad;
-        let ev = EventFn::new(row, &m);
-        let mut work = WorkCounts::default();
-        let flow = Flow {
-            timer: None,
-            m: &m,
-            spectral: None,
-        };
-        let r = first_event(
-            &flow,
-            &z0,
-            &[ev],
-            ScanStart::default(),
-            5e-5,
-            0.25 / w_rad,
-            &mut work,
-        );
-        assert_eq!(r.event, None);
-        // ...but one just below the peak is found.
-        let mut row2 = row;
-        row2[3] = -0.9999 / w_rad;
-        let ev2 = EventFn::new(row2, &m);
-        let r2 = first_event(
-            &flow,
-            &z0,
-            &[ev2],
-            ScanStart::default(),
-            5e-5,
-            0.25 / w_rad,
-            &mut work,
-        );
-        assert_eq!(r2.event, Some(0));
-    }
 }

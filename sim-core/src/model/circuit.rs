@@ -15,8 +15,9 @@
 //! ([`Linear::signals`]). [`Circuit::linearize`] builds both by evaluating
 //! the (affine) circuit equations at `z = e_j`.
 
+use super::elements::{DeviceCurve, Elements};
 use crate::devices::{ExpDevice, InductanceCurve, PwlCurve};
-use crate::scenario::{Diode, Load, Scenario};
+use crate::scenario::{Load, Scenario};
 use nalgebra::{SMatrix, SVector};
 
 /// Number of circuit states (inductor current, output and input capacitor voltages).
@@ -157,20 +158,13 @@ pub struct Circuit {
     /// output capacitor, V: the knee of a straight-line load; for an
     /// exponential string the exact curve's voltage at the current floor
     /// below which it is taken to block (the reference engine's
-    /// [`crate::reference::DIODE_FLOOR_REL`] of the current scale), not
+    /// [`crate::model::DIODE_FLOOR_REL`] of the current scale), not
     /// the fit's knee, which moves with the fit.
     pub led_idle_v: f64,
 }
 
-/// The sense resistance `(in series with the LED string, in series with
-/// the switch)` of a scenario, ohms (0 where there is none).
-pub fn sense_resistances(s: &Scenario) -> (f64, f64) {
-    match s.sense_position() {
-        Some((crate::scenario::SensePosition::LedString, r)) => (r, 0.0),
-        Some((crate::scenario::SensePosition::Switch, r)) => (0.0, r),
-        None => (0.0, 0.0),
-    }
-}
+// reshape shim
+pub use super::elements::sense_resistances;
 
 struct Eval {
     dx: [f64; N_STATES],
@@ -196,78 +190,32 @@ impl Circuit {
         });
         let segs = s.simulation.curve_segments as usize;
         let tol = s.simulation.curve_tolerance_v;
-        let led_exact = ExpDevice::from_load(&s.load);
-        let led = match s.load {
-            Load::LedExponential { .. } => PwlCurve::fit(
-                led_exact.as_ref().expect("exponential load"),
-                0.0,
-                target,
-                segs,
-                tol,
-            ),
-            Load::LedKnee {
-                count,
-                knee_voltage_v,
-                dynamic_resistance_ohm,
-            } => PwlCurve::line(
-                f64::from(count) * knee_voltage_v,
-                f64::from(count) * dynamic_resistance_ohm,
-            ),
-            Load::Resistor { resistance_ohm } => PwlCurve::line(0.0, resistance_ohm),
+        let e = Elements::new(s);
+        let led_exact = e.led.exp();
+        let led = match e.led {
+            DeviceCurve::Exp(d) => PwlCurve::fit(&d, 0.0, target, segs, tol),
+            DeviceCurve::Line { knee_v, r_ohm } => PwlCurve::line(knee_v, r_ohm),
         };
-        let diode_exact = ExpDevice::from_diode(&s.diode);
-        let diode = match s.diode {
-            Diode::FixedDrop {
-                forward_voltage_v,
-                series_resistance_ohm,
-            } => PwlCurve::line(forward_voltage_v, series_resistance_ohm),
-            Diode::Shockley { .. } => PwlCurve::fit(
-                diode_exact.as_ref().expect("shockley diode"),
-                0.0,
-                target,
-                segs,
-                tol,
-            ),
+        let diode_exact = e.diode.exp();
+        let diode = match e.diode {
+            DeviceCurve::Exp(d) => PwlCurve::fit(&d, 0.0, target, segs, tol),
+            DeviceCurve::Line { knee_v, r_ohm } => PwlCurve::line(knee_v, r_ohm),
         };
-        let input_cap = s.input_capacitor.and_then(|c| {
-            // A capacitor with no ESR straight on an ideal source does nothing.
-            if s.supply.source_resistance_ohm == 0.0 && c.esr_ohm == 0.0 {
-                None
-            } else {
-                Some((c.capacitance_f, c.esr_ohm))
-            }
-        });
-        let saturation = (!s.parts.inductor.saturation_curve.is_empty()).then(|| {
-            let pts: Vec<(f64, f64)> = s
-                .parts
-                .inductor
-                .saturation_curve
-                .iter()
-                .map(|p| (p.current_a, p.inductance_h))
-                .collect();
-            InductanceCurve::new(&pts)
-        });
-        let (sense_string_ohm, sense_switch_ohm) = sense_resistances(s);
         Circuit {
-            supply_v: s.supply.voltage_v,
-            source_ohm: s.supply.source_resistance_ohm,
-            input_cap,
-            switch_ohm: s.switch.on_resistance_ohm,
-            inductance_h: saturation.map_or(s.inductor.inductance_h, |c| c.inductance_h(0.0)),
-            saturation,
-            dcr_ohm: s.inductor.dcr_ohm,
-            sense_string_ohm,
-            sense_switch_ohm,
-            output_cap: s.output_capacitor.map(|c| (c.capacitance_f, c.esr_ohm)),
+            supply_v: e.supply_v,
+            source_ohm: e.source_ohm,
+            input_cap: e.input_cap,
+            switch_ohm: e.switch_ohm,
+            inductance_h: e.inductance_h,
+            saturation: e.saturation,
+            dcr_ohm: e.dcr_ohm,
+            sense_string_ohm: e.sense_string_ohm,
+            sense_switch_ohm: e.sense_switch_ohm,
+            output_cap: e.output_cap,
             diode,
             led,
             diode_exact,
-            led_idle_v: match led_exact {
-                Some(d) => d.voltage_v(
-                    crate::reference::DIODE_FLOOR_REL * crate::simulate::state_scales(s)[0],
-                ),
-                None => led.knee_v(),
-            },
+            led_idle_v: e.led_idle_v(),
             led_exact,
         }
     }

@@ -7,9 +7,9 @@
 //! does not have (zero rows and columns) are kept out of the decomposition.
 //! A matrix that is defective or nearly so (e.g. a lossless inductor, whose
 //! current ramps linearly) gives `None`, and the caller uses the Taylor
-//! exponential of [`crate::propagate`] instead.
+//! exponential of [`crate::exact::propagate`] instead.
 
-use crate::circuit::{Aug, AugMatrix, N_AUG, X_ONE};
+use crate::model::circuit::{Aug, AugMatrix, N_AUG, X_ONE};
 use nalgebra::{Complex, SMatrix, SVector};
 
 type CMatrix = SMatrix<Complex<f64>, N_AUG, N_AUG>;
