@@ -40,11 +40,12 @@ pub mod parts;
 pub mod propagate;
 pub mod record;
 pub mod reference;
+pub mod run;
 pub mod scenario;
-pub mod shooting;
+pub use run::shooting; // reshape shim
 pub mod simulate;
 pub mod spectral;
-pub mod steady;
+pub use run::steady; // reshape shim
 pub mod study;
 pub mod units;
 
