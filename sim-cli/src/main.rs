@@ -19,9 +19,10 @@ use anyhow::{Context, Result};
 use clap::{Parser, Subcommand, ValueEnum};
 use indicatif::{ProgressBar, ProgressStyle};
 use report::Report;
-use sim_core::parts::assess::{assess_with_progress, AssessOptions, Assessment};
 use sim_core::parts::checks::{worst, Status};
-use sim_core::simulate::Progress;
+use sim_core::run::assess::Assessment;
+use sim_core::run::Progress;
+use sim_core::run::{run_design, Purpose};
 use sim_core::{EngineKind, RunOptions, Scenario, ScenarioError, SimError, SimResult};
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
@@ -699,15 +700,11 @@ fn simulate_scenario(s: &Scenario, engine: EngineKind, quiet: bool) -> Result<As
             ));
         }
     };
-    let opts = AssessOptions {
-        run: RunOptions {
-            engine,
-            ..RunOptions::default()
-        },
-        // The alternatives are for LED strings.
-        alternatives: !matches!(s.load, sim_core::scenario::Load::Resistor { .. }),
+    let opts = RunOptions {
+        engine,
+        ..RunOptions::default()
     };
-    let result = assess_with_progress(s, &opts, &mut on_progress);
+    let result = run_design(s, &opts, Purpose::Report, &mut on_progress);
     if let Some(b) = bar {
         b.finish_and_clear();
     }

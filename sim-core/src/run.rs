@@ -1,6 +1,8 @@
 //! The run: one scenario brought to periodic steady state and measured,
 //! and the full assessment around it.
 //!
+//! - [`entry`]: [`run_design`], the one entry point `chopwave run` and
+//!   every study point call (the full assessment), and [`run_point`].
 //! - [`drive`]: [`simulate`] — shooting (exact engine) or cycling to
 //!   steady state, then the measured cycles, the curve-fit report and the
 //!   part losses.
@@ -16,6 +18,7 @@
 
 pub mod assess;
 pub mod drive;
+pub mod entry;
 pub mod result;
 pub mod shooting;
 pub mod startup;
@@ -24,4 +27,5 @@ pub mod warnings;
 
 pub use assess::{assess, assess_with_progress, AssessOptions, Assessment};
 pub use drive::{simulate, simulate_with_progress};
+pub use entry::{run_design, run_point, Purpose};
 pub use result::{EngineKind, FitReport, Progress, RunOptions, SimResult, SteadyInfo};

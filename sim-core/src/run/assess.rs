@@ -230,6 +230,19 @@ fn assess_at(
     opts: &AssessOptions,
     progress: &mut dyn FnMut(Progress),
 ) -> Result<Assessment, SimError> {
+    assess_once(s, opts, true, progress)
+}
+
+/// The assessment at the scenario's own supply; `startup_peak`: run a
+/// start-up of its own for the saturation check when none is recorded
+/// (a study point, whose row has no start-up peak, skips it: the
+/// steady-state figures are the same either way).
+pub(crate) fn assess_once(
+    s: &Scenario,
+    opts: &AssessOptions,
+    startup_peak: bool,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Assessment, SimError> {
     let p = &s.parts;
     let iterate = bias::bias_dependent(&p.input_capacitor) && s.input_capacitor.is_some()
         || bias::bias_dependent(&p.output_capacitor) && s.output_capacitor.is_some()
@@ -293,10 +306,10 @@ fn assess_at(
     // the recorded start-up, else from a start-up run made for it alone.
     let startup_peak = match (&result.startup, s.inductor.saturation_current_a) {
         (Some(w), _) => peak_inductor_current_a(w),
-        (None, Some(_)) => peak_inductor_current_a(&super::startup::startup_transient(
-            &eff, run.engine, &result, progress,
-        )?),
-        (None, None) => None,
+        (None, Some(_)) if startup_peak => peak_inductor_current_a(
+            &super::startup::startup_transient(&eff, run.engine, &result, progress)?,
+        ),
+        (None, _) => None,
     };
     let m = result.metrics;
     let (vin_avg, vout_avg) = capacitor_averages(&eff, &m);

@@ -21,9 +21,9 @@ use super::run::{Hooks, PointInput, RunSettings, Shard};
 use super::sweep::{base_manifest, run_table};
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::error::FieldProblem;
+use crate::run::{run_point, RunOptions};
 use crate::scenario::de_quantity;
 use crate::scenario::{Load, Scenario};
-use crate::simulate::{simulate, RunOptions};
 use crate::units::{eng_exact, eng_sig, short_number, thermal_voltage_v, Unit};
 use rand_chacha::rand_core::{RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -630,7 +630,7 @@ fn nominal(
     limits: &SpecLimits,
     run: &RunSettings,
 ) -> Result<(SpecLimits, RunSettings), StudyError> {
-    let r = simulate(
+    let r = run_point(
         s,
         &RunOptions {
             engine: run.engine,
