@@ -18,8 +18,8 @@ mod study_plot;
 use anyhow::{Context, Result};
 use clap::{Parser, Subcommand, ValueEnum};
 use indicatif::{ProgressBar, ProgressStyle};
-use report::Report;
-use sim_core::parts::checks::{worst, Status};
+use report::{Render, Report};
+use sim_core::parts::checks::Status;
 use sim_core::run::assess::Assessment;
 use sim_core::run::Progress;
 use sim_core::run::{run_design, Purpose};
@@ -763,13 +763,8 @@ fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
             let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
         }
     }
-    if args.strict && worst(&a.checks) == Status::Fail {
-        let failed: Vec<&str> = a
-            .checks
-            .iter()
-            .filter(|c| c.status == Status::Fail)
-            .map(|c| c.check.as_str())
-            .collect();
+    if args.strict && report.design_verdict == Status::Fail {
+        let failed = report.failed_checks();
         return Err(Failure::Checks(format!(
             "{} design check{} failed (--strict): {}",
             failed.len(),

@@ -7,12 +7,11 @@
 //! files one run would have.
 
 use crate::format::{eng, pct};
-use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
 use crate::{load, output, parse_override, read_text_limited, study_plot, EngineArg, Failure};
 use anyhow::{Context, Result};
 use indicatif::{ProgressBar, ProgressStyle};
 use rayon::prelude::*;
-use sim_core::simulate::SELV_LIMIT_V;
+use sim_core::report::{Caution, Scope};
 use sim_core::study::boundary::{boundary_curve, find_boundary, Boundary, BoundarySettings};
 use sim_core::study::journal::{header_line, read_journal, row_line};
 use sim_core::study::rows::{Manifest, Row, RowExt, StudyKind, StudyTable};
@@ -338,42 +337,20 @@ fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> 
 }
 
 /// Safety cautions for a whole study, from its highest supply, losses
-/// and LED power.
-fn cautions(t: &StudyTable) -> Vec<String> {
+/// and LED power (the library's [`Caution`]s, in a study's words).
+fn cautions(t: &StudyTable) -> Vec<Caution> {
     let max = |m: &str| {
         t.rows
             .iter()
             .filter_map(|r| r.metric(m))
             .fold(f64::NEG_INFINITY, f64::max)
     };
-    let mut c = Vec::new();
-    if t.manifest.max_supply_v > SELV_LIMIT_V {
-        c.push(format!(
-            "this study applies supplies up to {} — above the usual 60 V DC extra-low-voltage \
-             limit: such a driver can injure or kill; touch-safe construction, insulation and \
-             creepage rules apply; follow local codes and licensed practice",
-            eng(t.manifest.max_supply_v, "V")
-        ));
-    }
-    if max("total_loss_w") > HOT_PARTS_LOSS_W {
-        c.push(format!(
-            "losses reach {} at some points: parts can get hot enough to burn; check temperatures \
-             on the bench",
-            eng(max("total_loss_w"), "W")
-        ));
-    }
-    if max("led_power_w") > BRIGHT_LED_POWER_W {
-        c.push(format!(
-            "LED power reaches {}: do not look into the LEDs at close range; test with a diffuser",
-            eng(max("led_power_w"), "W")
-        ));
-    }
-    c.push(
-        "a simulation is no substitute for bench measurement and certification; follow local \
-         codes and licensed practice"
-            .into(),
-    );
-    c
+    Caution::for_figures(
+        Scope::Study,
+        t.manifest.max_supply_v,
+        Some(max("total_loss_w")),
+        Some(max("led_power_w")),
+    )
 }
 
 fn print_cautions(t: &StudyTable) {
@@ -958,18 +935,9 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             let top = if path == "supply.voltage_v" { hi } else { 0.0 };
             let max_v = sim_core::study::max_supply_v(&s, [top]);
             println!("\nCautions");
-            if max_v > SELV_LIMIT_V {
-                println!(
-                    "  * this search applies supplies up to {} — above the usual 60 V DC \
-                     extra-low-voltage limit: such a driver can injure or kill; follow local \
-                     codes and licensed practice",
-                    eng(max_v, "V")
-                );
+            for c in Caution::for_figures(Scope::Search, max_v, None, None) {
+                println!("  * {c}");
             }
-            println!(
-                "  * a simulation is no substitute for bench measurement and certification; \
-                 follow local codes and licensed practice"
-            );
         }
         return Ok(());
     }

@@ -40,6 +40,7 @@ pub mod parts;
 pub mod propagate;
 pub mod record;
 pub mod reference;
+pub mod report;
 pub mod run;
 pub mod scenario;
 pub use run::shooting; // reshape shim
