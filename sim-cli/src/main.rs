@@ -8,26 +8,22 @@
 //! 3 a design check failed under `run --strict`.
 
 mod bundled;
+mod fit_cmd;
 mod format;
 mod output;
 mod plots;
 mod report;
+mod run_cmd;
 mod study_cmd;
 use plots::{self as plot, self as study_plot}; // reshape shim: the old module paths
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 use clap::{Parser, Subcommand, ValueEnum};
-use indicatif::{ProgressBar, ProgressStyle};
-use report::Report;
-use sim_core::parts::assess::{assess_with_progress, AssessOptions, Assessment};
-use sim_core::parts::checks::{worst, Status};
-use sim_core::simulate::Progress;
-use sim_core::{EngineKind, RunOptions, Scenario, ScenarioError, SimError, SimResult};
-use std::io::{IsTerminal, Write};
+use sim_core::{EngineKind, Scenario, ScenarioError};
+use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::sync::atomic::{AtomicBool, Ordering};
-use std::time::{Duration, Instant};
 
 /// Simulate switch-mode buck LED drivers cycle by cycle: waveforms, ripple,
 /// conduction mode, losses and part stresses before you order parts.
@@ -59,7 +55,7 @@ struct Cli {
 #[derive(Debug, Subcommand)]
 enum Command {
     /// Simulate a scenario to steady state and print a summary.
-    Run(RunArgs),
+    Run(run_cmd::RunArgs),
     /// Validate a scenario file and print every problem found.
     Check {
         /// The scenario file (JSON).
@@ -93,79 +89,7 @@ enum Command {
     Merge(study_cmd::MergeArgs),
     /// Fit the per-LED exponential model (Is, n, Rs) to datasheet points
     /// and print the scenario fragment to paste.
-    FitLed(FitLedArgs),
-}
-
-#[derive(Debug, clap::Args)]
-struct FitLedArgs {
-    /// A point on one LED's forward curve, `CURRENT,VOLTAGE` (A, V;
-    /// engineering notation allowed, e.g. `350m,2.95`); three or more.
-    #[arg(long = "point", value_name = "I,V", value_parser = parse_point, required = true)]
-    points: Vec<(f64, f64)>,
-    /// Junction temperature the points were taken at, °C.
-    #[arg(
-        long = "temp",
-        value_name = "T",
-        default_value_t = 25.0,
-        allow_hyphen_values = true
-    )]
-    temp_c: f64,
-    /// Forward-voltage temperature coefficient per LED, mV/K (e.g. -2).
-    #[arg(
-        long = "tempco-mv",
-        value_name = "MV_PER_K",
-        allow_hyphen_values = true
-    )]
-    tempco_mv_per_k: Option<f64>,
-    /// Current at which the temperature coefficient is stated, A (default:
-    /// the largest current among the points it comes from).
-    #[arg(long = "tempco-current", value_name = "A")]
-    tempco_current_a: Option<f64>,
-    /// A point at the second temperature `--hot-temp`, to fit the
-    /// temperature coefficient from (repeatable).
-    #[arg(long = "hot-point", value_name = "I,V", value_parser = parse_point)]
-    hot_points: Vec<(f64, f64)>,
-    /// Junction temperature of the `--hot-point` points, °C.
-    #[arg(long = "hot-temp", value_name = "T")]
-    hot_temp_c: Option<f64>,
-    /// LEDs in the string, for the fragment.
-    #[arg(long, default_value_t = 1)]
-    count: u32,
-    /// Print the fit as JSON.
-    #[arg(long)]
-    json: bool,
-}
-
-#[derive(Debug, clap::Args)]
-struct RunArgs {
-    /// The scenario file (JSON).
-    file: PathBuf,
-    /// Print the summary as one JSON object (SI units) instead of text.
-    #[arg(long)]
-    json: bool,
-    /// Write steady-state and start-up PNG plots into this folder.
-    #[arg(long, value_name = "DIR")]
-    plot: Option<PathBuf>,
-    /// Write the recorded steady-state samples to this CSV file.
-    #[arg(long, value_name = "FILE")]
-    csv: Option<PathBuf>,
-    /// Engine: `exact` (piecewise-linear, closed form) or `reference`
-    /// (full exponential curves, numerical integration; slower).
-    #[arg(long, value_enum, default_value_t = EngineArg::Exact)]
-    engine: EngineArg,
-    /// Override a field for this run, e.g. `--set supply.voltage_v=18`
-    /// (repeatable; values may use engineering notation such as `4.7u`).
-    #[arg(long = "set", value_name = "PATH=VALUE", value_parser = parse_override)]
-    overrides: Vec<(String, String)>,
-    /// Exit with code 3 when any design check fails (the summary is still
-    /// printed and the files written).
-    #[arg(long)]
-    strict: bool,
-    /// Skip the start-up transient from power-on (no start-up plot or
-    /// start-up peak): for slowly settling designs, whose steady state
-    /// shooting finds in a few cycles while the start-up takes thousands.
-    #[arg(long)]
-    no_startup: bool,
+    FitLed(fit_cmd::FitLedArgs),
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -183,16 +107,6 @@ impl From<EngineArg> for EngineKind {
             EngineArg::Reference => EngineKind::Reference,
         }
     }
-}
-
-fn parse_point(s: &str) -> Result<(f64, f64), String> {
-    let bad = || format!("`{s}` is not CURRENT,VOLTAGE (for example 350m,2.95)");
-    let (i, v) = s.split_once(',').ok_or_else(bad)?;
-    let i = sim_core::units::parse_quantity(i.trim(), sim_core::units::Unit::Ampere)
-        .map_err(|e| format!("current in `{s}`: {e}"))?;
-    let v = sim_core::units::parse_quantity(v.trim(), sim_core::units::Unit::Volt)
-        .map_err(|e| format!("voltage in `{s}`: {e}"))?;
-    Ok((i, v))
 }
 
 /// A byte count: a number with an optional `K`, `M`, `G` or `T`
@@ -411,9 +325,9 @@ fn main() -> ExitCode {
 fn dispatch(cli: Cli) -> Result<(), Failure> {
     let quiet = cli.quiet;
     match cli.command {
-        Command::Run(args) => run(&args, quiet),
+        Command::Run(args) => run_cmd::run(&args, quiet),
         Command::Check { file, overrides } => check(&file, &overrides),
-        Command::Demo { out, engine } => demo(&out, engine.into(), quiet),
+        Command::Demo { out, engine } => run_cmd::demo(&out, engine.into(), quiet),
         Command::Sweep(a) => study_cmd::run_sweep(&a, quiet),
         Command::Boundary(a) => study_cmd::run_boundary(&a, quiet),
         Command::Spread(a) => study_cmd::run_spread(&a, quiet),
@@ -422,164 +336,7 @@ fn dispatch(cli: Cli) -> Result<(), Failure> {
             println!("{}", sim_core::scenario::template_text());
             Ok(())
         }
-        Command::FitLed(args) => fit_led(&args),
-    }
-}
-
-fn fit_led(a: &FitLedArgs) -> Result<(), Failure> {
-    use sim_core::parts::fit::fit_led as fit;
-    if !(-60.0..=250.0).contains(&a.temp_c) {
-        return Err(Failure::Input(format!(
-            "--temp {}: outside -60 to 250 °C",
-            a.temp_c
-        )));
-    }
-    if !(1..=1000).contains(&a.count) {
-        return Err(Failure::Input(format!(
-            "--count {}: give 1 to 1000 LEDs (as load.count allows)",
-            a.count
-        )));
-    }
-    let f = fit(
-        &a.points,
-        a.temp_c,
-        a.tempco_mv_per_k.map(|t| t * 1e-3),
-        &a.hot_points,
-        a.hot_temp_c,
-    )
-    .map_err(|e| Failure::Input(format!("fit-led: {e}")))?;
-    let mut load = serde_json::json!({
-        "kind": "led_exponential",
-        "count": a.count,
-        "saturation_current_a": f.saturation_current_a,
-        "emission_coefficient": f.emission_coefficient,
-        "series_resistance_ohm": f.series_resistance_ohm,
-        "junction_temperature_c": f.temperature_c,
-        "reference_temperature_c": f.temperature_c,
-    });
-    // The coefficient goes into the load, stated at a current, from which
-    // the model derives its junction law (band gap).
-    let tempco_current = a.tempco_current_a.unwrap_or_else(|| {
-        let pts = if a.tempco_mv_per_k.is_none() && !a.hot_points.is_empty() {
-            &a.hot_points
-        } else {
-            &a.points
-        };
-        pts.iter().map(|p| p.0).fold(0.0, f64::max)
-    });
-    if let Some(tc) = f.tempco_v_per_k {
-        if !(tempco_current.is_finite() && tempco_current > 0.0) {
-            return Err(Failure::Input(format!(
-                "--tempco-current {tempco_current}: must be a positive current"
-            )));
-        }
-        load["forward_voltage_tempco_v_per_k"] = tc.into();
-        load["tempco_current_a"] = tempco_current.into();
-    }
-    fragment_loads(&load, None)?;
-    if a.json {
-        let out = serde_json::json!({ "fit": f, "load": load });
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&out).map_err(|e| Failure::Run(e.to_string()))?
-        );
-        return Ok(());
-    }
-    println!(
-        "Per-LED model v = n·Vt·ln(1 + i/Is) + Rs·i at {:.1} °C (least squares):",
-        f.temperature_c
-    );
-    // Engineering notation down to femto; an LED's Is (1e-18 A and
-    // below) lies beyond the prefixes and keeps scientific notation.
-    let is = f.saturation_current_a;
-    if is.abs() >= 1e-15 {
-        println!("  Is = {}", format::eng_sig(is, "A", 7));
-    } else {
-        println!("  Is = {is:.6e} A");
-    }
-    println!("  n  = {:.6}", f.emission_coefficient);
-    println!(
-        "  Rs = {}",
-        format::eng_sig(f.series_resistance_ohm, "Ω", 6)
-    );
-    println!(
-        "\n  {:>12}{:>12}{:>12}{:>14}",
-        "current", "datasheet", "model", "residual"
-    );
-    for (&(i, v), r) in a.points.iter().zip(&f.residuals_v) {
-        println!(
-            "  {:>12}{:>12}{:>12}{:>14}",
-            format::eng(i, "A"),
-            format!("{v:.4} V"),
-            format!("{:.4} V", v + r),
-            format!("{:+.2} mV", 1e3 * r)
-        );
-    }
-    if let Some(tc) = f.tempco_v_per_k {
-        let how = if a.tempco_mv_per_k.is_some() {
-            "given"
-        } else {
-            "fitted"
-        };
-        println!(
-            "\n  forward-voltage tempco {:+.3} mV/K per LED at {} ({how})",
-            1e3 * tc,
-            format::eng(tempco_current, "A")
-        );
-        if let Some(th) = a.hot_temp_c {
-            for (&(i, v), r) in a.hot_points.iter().zip(&f.hot_residuals_v) {
-                println!(
-                    "  at {th:.1} °C: {} {v:.4} V, model {:.4} V ({:+.2} mV)",
-                    format::eng(i, "A"),
-                    v + r,
-                    1e3 * r
-                );
-            }
-        }
-    }
-    let mut fragment = serde_json::json!({ "load": load });
-    if f.tempco_v_per_k.is_some() {
-        fragment["parts"] = serde_json::json!({
-            "led": {
-                "resistance_c_per_w": "(your LED's junction-to-ambient °C/W)",
-                "max_junction_temperature_c": "(from the datasheet)",
-            }
-        });
-    }
-    println!("\nScenario fragment to paste (fill in the thermal data where shown):");
-    println!(
-        "{}",
-        serde_json::to_string_pretty(&fragment).map_err(|e| Failure::Run(e.to_string()))?
-    );
-    Ok(())
-}
-
-/// Checks that a fitted `load` (and tempco) read back through the
-/// scenario loader, placed in the starter scenario: a fragment is never
-/// printed that a scenario file would refuse.
-fn fragment_loads(load: &serde_json::Value, tempco: Option<f64>) -> Result<(), Failure> {
-    let mut v = serde_json::to_value(sim_core::scenario::template_with_parts())
-        .map_err(|e| Failure::Run(e.to_string()))?;
-    v["load"] = load.clone();
-    if let Some(tc) = tempco {
-        v["parts"]["led"]["forward_voltage_tempco_v_per_k"] = tc.into();
-    }
-    let problems: Vec<String> = match Scenario::from_json_value(&v) {
-        Ok(_) => Vec::new(),
-        Err(e) => e
-            .problems()
-            .into_iter()
-            .filter(|p| p.path.starts_with("load") || p.path.starts_with("parts.led"))
-            .map(|p| p.to_string())
-            .collect(),
-    };
-    if problems.is_empty() {
-        Ok(())
-    } else {
-        Err(Failure::Input(format!(
-            "fit-led: the fitted model would not load in a scenario: {}",
-            problems.join("; ")
-        )))
+        Command::FitLed(args) => fit_cmd::fit_led(&args),
     }
 }
 
@@ -671,244 +428,4 @@ fn summary_line(s: &Scenario) -> String {
         eng(s.supply.voltage_v, "V"),
         eng(s.inductor.inductance_h, "H")
     )
-}
-
-/// Runs the real-part simulation (bias and temperature iteration, checks,
-/// alternatives) with a progress display on a terminal.
-fn simulate_scenario(s: &Scenario, engine: EngineKind, quiet: bool) -> Result<Assessment, Failure> {
-    let show = !quiet && std::io::stderr().is_terminal();
-    let start = Instant::now();
-    let mut bar: Option<ProgressBar> = None;
-    let mut on_progress = |p: Progress| {
-        if !show {
-            return;
-        }
-        if bar.is_none() && start.elapsed() > Duration::from_millis(300) {
-            let b = ProgressBar::new_spinner();
-            b.set_style(
-                ProgressStyle::with_template("{spinner} {elapsed} {msg}")
-                    .unwrap_or_else(|_| ProgressStyle::default_spinner()),
-            );
-            b.enable_steady_tick(Duration::from_millis(120));
-            bar = Some(b);
-        }
-        if let Some(b) = &bar {
-            b.set_message(format!(
-                "{}: cycle {} of at most {}, change per cycle {:.1e} (steady below {:.0e})",
-                s.name, p.cycles, p.max_cycles, p.last_change, s.simulation.steady_state_tolerance
-            ));
-        }
-    };
-    let opts = AssessOptions {
-        run: RunOptions {
-            engine,
-            ..RunOptions::default()
-        },
-        // The alternatives are for LED strings.
-        alternatives: !matches!(s.load, sim_core::scenario::Load::Resistor { .. }),
-    };
-    let result = assess_with_progress(s, &opts, &mut on_progress);
-    if let Some(b) = bar {
-        b.finish_and_clear();
-    }
-    result.map_err(|e| Failure::Run(describe_sim_error(&s.name, &e)))
-}
-
-fn describe_sim_error(name: &str, e: &SimError) -> String {
-    let hint = match e {
-        SimError::NoSteadyState { .. } => {
-            "\n  hint: raise simulation.max_cycles, loosen simulation.steady_state_tolerance, or \
-             check for an unstable or subharmonic design"
-        }
-        SimError::TimeLimit { .. } => "\n  hint: raise simulation.max_time_s",
-        SimError::IntervalTooLong { .. } => {
-            "\n  hint: check the supply, the LED string voltage and the controller thresholds"
-        }
-        _ => "",
-    };
-    format!("simulation of `{name}` failed: {e}{hint}")
-}
-
-fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
-    let mut s = load(&args.file, &args.overrides)?;
-    // An output that cannot be written is reported before simulating.
-    if let Some(path) = &args.csv {
-        output::check_writable(output::parent_dir(path)).map_err(io_failure)?;
-    }
-    if let Some(dir) = &args.plot {
-        output::check_writable(dir).map_err(io_failure)?;
-    }
-    // Record the start-up unless told not to: the plots need it, and the
-    // summary reports its inductor peak.
-    s.simulation.record_startup = !args.no_startup;
-    within_budget(&sim_core::budget::run_estimate(&s, args.csv.is_some()))?;
-    let a = simulate_scenario(&s, args.engine.into(), quiet)?;
-    let r = &a.result;
-    let report = Report::new(&s, &a);
-    let mut written = Vec::new();
-    if let Some(path) = &args.csv {
-        output::write_csv(path, &r.waveform).map_err(io_failure)?;
-        written.push(path.clone());
-    }
-    if let Some(dir) = &args.plot {
-        written.extend(write_plots(&s, &a, dir, &output::file_stem(&s.name)).map_err(io_failure)?);
-    }
-    // A closed standard output does not stop the run: the files are
-    // written, and --strict still decides the exit code.
-    let text = if args.json {
-        report.to_json() + "\n"
-    } else {
-        report.to_text()
-    };
-    say(&text);
-    if !quiet {
-        for p in &written {
-            let _ = writeln!(std::io::stderr(), "wrote {}", p.display());
-        }
-    }
-    if args.strict && worst(&a.checks) == Status::Fail {
-        let failed: Vec<&str> = a
-            .checks
-            .iter()
-            .filter(|c| c.status == Status::Fail)
-            .map(|c| c.check.as_str())
-            .collect();
-        return Err(Failure::Checks(format!(
-            "{} design check{} failed (--strict): {}",
-            failed.len(),
-            if failed.len() == 1 { "" } else { "s" },
-            failed.join("; ")
-        )));
-    }
-    Ok(())
-}
-
-fn write_plots(s: &Scenario, a: &Assessment, dir: &Path, stem: &str) -> Result<Vec<PathBuf>> {
-    let r: &SimResult = &a.result;
-    output::ensure_dir(dir)?;
-    let steady = dir.join(format!("{stem}-steady.png"));
-    let startup = r
-        .startup
-        .is_some()
-        .then(|| dir.join(format!("{stem}-startup.png")));
-    let cmp = a
-        .comparison
-        .is_some()
-        .then(|| dir.join(format!("{stem}-alternatives.png")));
-    // The plots are drawn and encoded in parallel.
-    let ((st, su), al) = rayon::join(
-        || {
-            rayon::join(
-                || plot::steady_png(s, r, &steady).context("steady-state plot"),
-                || match &startup {
-                    Some(p) => plot::startup_png(s, r, p).context("start-up plot"),
-                    None => Ok(()),
-                },
-            )
-        },
-        || match &cmp {
-            Some(p) => plot::alternatives_png(a, p).context("alternatives plot"),
-            None => Ok(()),
-        },
-    );
-    st?;
-    su?;
-    al?;
-    Ok(std::iter::once(steady).chain(startup).chain(cmp).collect())
-}
-
-fn mode_name(m: sim_core::metrics::ConductionMode) -> &'static str {
-    match m {
-        sim_core::metrics::ConductionMode::Ccm => "CCM",
-        sim_core::metrics::ConductionMode::Dcm => "DCM",
-        sim_core::metrics::ConductionMode::Boundary => "boundary",
-    }
-}
-
-fn demo(out: &Path, engine: EngineKind, quiet: bool) -> Result<(), Failure> {
-    output::ensure_dir(out).map_err(io_failure)?;
-    let mut failures = Vec::new();
-    let mut written: Vec<PathBuf> = Vec::new();
-    let mut index =
-        String::from("chopwave demo: bundled example scenarios (illustrative values)\n\n");
-    for b in bundled::SCENARIOS {
-        let mut s = match Scenario::from_json_str(b.json) {
-            Ok(s) => s,
-            Err(e) => {
-                failures.push(describe_scenario_error(b.file, &e));
-                continue;
-            }
-        };
-        s.simulation.record_startup = true;
-        let started = Instant::now();
-        let a = match simulate_scenario(&s, engine, quiet) {
-            Ok(a) => a,
-            Err(f) => {
-                failures.push(f.message().to_string());
-                continue;
-            }
-        };
-        let elapsed = started.elapsed();
-        let stem = b.stem();
-        let report = Report::new(&s, &a);
-        let r = &a.result;
-        let files = (|| -> Result<Vec<PathBuf>> {
-            let mut f = Vec::new();
-            let scenario_copy = out.join(format!("{stem}.scenario.json"));
-            output::write_text(&scenario_copy, b.json)?;
-            f.push(scenario_copy);
-            let txt = out.join(format!("{stem}.txt"));
-            output::write_text(&txt, &report.to_text())?;
-            f.push(txt);
-            let json = out.join(format!("{stem}.json"));
-            output::write_text(&json, &(report.to_json() + "\n"))?;
-            f.push(json);
-            f.extend(write_plots(&s, &a, out, &stem)?);
-            Ok(f)
-        })();
-        match files {
-            Ok(f) => {
-                let m = &r.metrics;
-                let line = format!(
-                    "{:<28} {:>9} LED, {:>5.1} % ripple, {:>9}, {:<8} efficiency {:>6}  ({:.2} s)",
-                    s.name,
-                    format::eng(m.led_current_avg_a, "A"),
-                    m.led_current_ripple_pct,
-                    format::eng(m.switching_frequency_hz, "Hz"),
-                    mode_name(m.conduction_mode),
-                    format::pct(m.efficiency),
-                    elapsed.as_secs_f64()
-                );
-                say(&format!("{line}\n"));
-                index.push_str(&line);
-                index.push('\n');
-                for p in &f {
-                    index.push_str(&format!("    {}\n", p.display()));
-                }
-                written.extend(f);
-            }
-            Err(e) => failures.push(format!("{}: {e:#}", b.file)),
-        }
-    }
-    let index_path = out.join("index.txt");
-    output::write_text(&index_path, &index).map_err(io_failure)?;
-    written.push(index_path);
-    say(&format!(
-        "\nwrote {} files into {}:\n",
-        written.len(),
-        out.display()
-    ));
-    for p in &written {
-        say(&format!("  {}\n", p.display()));
-    }
-    if failures.is_empty() {
-        Ok(())
-    } else {
-        Err(Failure::Run(format!(
-            "{} of {} demo scenarios failed:\n  {}",
-            failures.len(),
-            bundled::SCENARIOS.len(),
-            failures.join("\n  ")
-        )))
-    }
 }

@@ -1,191 +1,33 @@
-//! The run summary: one [`Report`] rendered either as text for a person
-//! or as a JSON object for scripts (the field names are documented in
-//! README.md and stable).
+//! The run summary rendered: the library's [`Report`] (built by
+//! `sim_core::report`, which owns its meaning — schema, warnings,
+//! cautions, verdict) laid out as text for a person or serialised as a
+//! JSON object for scripts (the field names are documented in README.md
+//! and stable).
 
 use crate::format::{eng, eng_scaled, pct, ratio, sci};
-use serde::Serialize;
 use sim_core::metrics::{ConductionMode, LossEnergies, Metrics};
-use sim_core::parts::alternatives::Comparison;
-use sim_core::parts::assess::{Assessment, IterationInfo};
-use sim_core::parts::checks::{worst, CapacitorState, Check, Status};
-use sim_core::parts::thermal::PartTemperature;
-use sim_core::record::COL_IL;
+use sim_core::parts::checks::Status;
+pub use sim_core::report::Report;
+#[allow(unused_imports)]
+pub use sim_core::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W}; // reshape shim
 use sim_core::shooting::{JacobianSource, SteadyMethod};
-use sim_core::simulate::{FitReport, RunStats, SteadyInfo, SELV_LIMIT_V};
-use sim_core::{EngineKind, Scenario, SimResult};
+use sim_core::EngineKind;
 use std::fmt::Write as _;
 
-/// LED power above which the summary adds an eye-safety caution, W
-/// (common practice: a few hundred milliwatts of white LED light at close
-/// range is already uncomfortably bright; no published limit is applied).
-pub const BRIGHT_LED_POWER_W: f64 = 0.5;
-
-/// Total loss above which the summary adds a hot-parts caution, W
-/// (common practice: a watt in small SMD parts heats them well above
-/// ambient without copper area or airflow).
-pub const HOT_PARTS_LOSS_W: f64 = 1.0;
-
-/// Version of the JSON layout; bumped when a field changes meaning.
-pub const JSON_SCHEMA: &str = "chopwave-run-2";
-
-/// Everything `chopwave run` reports about one steady-state run.
-#[derive(Debug, Clone, Serialize)]
-pub struct Report {
-    /// Layout version, [`JSON_SCHEMA`].
-    pub schema: &'static str,
-    /// The scenario's name.
-    pub scenario: String,
-    /// The scenario's description.
-    pub description: String,
-    /// Engine used.
-    pub engine: EngineKind,
-    /// Supply open-circuit voltage of this run, V.
-    pub supply_voltage_v: f64,
-    /// The current the controller aims at, if it has one, A.
-    pub target_current_a: Option<f64>,
-    /// Steady-state figures (flattened into the top level).
-    #[serde(flatten)]
-    pub metrics: Metrics,
-    /// Each loss as a percentage of the input power, %.
-    pub losses_pct: LossEnergies,
-    /// Switch peak current (the inductor peak: in a buck the switch carries
-    /// the inductor current while on), A.
-    pub switch_current_peak_a: f64,
-    /// Diode peak current (the inductor current at turn-off), A.
-    pub diode_current_peak_a: f64,
-    /// How steady state was reached.
-    pub steady_state: SteadyInfo,
-    /// Straight-segment curve fit errors.
-    pub fit: FitReport,
-    /// Work done.
-    pub stats: RunStats,
-    /// Highest inductor current from power-on to steady state (None when
-    /// the start-up was not recorded), A.
-    pub startup_inductor_current_peak_a: Option<f64>,
-    /// Samples in the recorded steady-state waveform (rows of `--csv`).
-    pub recorded_samples: usize,
-    /// Switching cycles in the recorded steady-state waveform.
-    pub recorded_cycles: usize,
-    /// Things the engineer should look at in this design.
-    pub warnings: Vec<String>,
-    /// Safety cautions for building and testing this design.
-    pub cautions: Vec<String>,
-    /// The design-check table.
-    pub design_checks: Vec<Check>,
-    /// The worst status in the table (`--strict` exits 3 on `fail`).
-    pub design_verdict: Status,
-    /// What each capacitor saw (effective capacitance under DC bias).
-    pub capacitors: Vec<CapacitorState>,
-    /// Estimated part temperatures.
-    pub temperatures: Vec<PartTemperature>,
-    /// The capacitor-bias / LED-temperature iteration.
-    pub iteration: IterationInfo,
-    /// The resistor and linear alternatives beside the switching design.
-    pub alternatives: Option<Comparison>,
-    /// Whether any part data for the post-processed losses was given
-    /// (text layout only).
-    #[serde(skip)]
-    has_part_losses: bool,
-    /// The controller in words (text layout only).
-    #[serde(skip)]
-    controller: String,
-    /// Whether the design has an input capacitor (text layout only).
-    #[serde(skip)]
-    has_input_capacitor: bool,
-    /// Whether a supply range is declared: each check row then names the
-    /// supply of its worst case (text layout only).
-    #[serde(skip)]
-    range_given: bool,
-    /// Whether the design has an output capacitor (text layout only).
-    #[serde(skip)]
-    has_output_capacitor: bool,
+/// How a front end shows a [`Report`].
+pub trait Render {
+    /// The report as pretty-printed JSON.
+    fn to_json(&self) -> String;
+    /// The report as text for a terminal, about 60 lines.
+    fn to_text(&self) -> String;
 }
 
-impl Report {
-    /// Builds the report of a real-part run of `scenario`.
-    pub fn new(scenario: &Scenario, a: &Assessment) -> Report {
-        let r: &SimResult = &a.result;
-        let m = r.metrics;
-        let input = m.input_power_w;
-        let k = if input > 0.0 { 100.0 / input } else { 0.0 };
-        let losses_pct = m.losses_w.scaled(k);
-        let startup_peak = r.startup.as_ref().filter(|w| !w.is_empty()).map(|w| {
-            w.column(COL_IL)
-                .iter()
-                .copied()
-                .fold(f64::NEG_INFINITY, f64::max)
-        });
-        let mut warnings = r.warnings.clone();
-        if let (Some(peak), Some(isat)) = (startup_peak, scenario.inductor.saturation_current_a) {
-            if peak > isat && m.inductor_current_peak_a <= isat {
-                warnings.push(format!(
-                    "at start-up the inductor current reaches {}, above its rated saturation \
-                     current {} (steady-state peak {}): a saturating inductor lets the current \
-                     rise faster still; consider a soft start or a part rated for the start-up peak",
-                    eng(peak, "A"),
-                    eng(isat, "A"),
-                    eng(m.inductor_current_peak_a, "A")
-                ));
-            }
-        }
-        Report {
-            schema: JSON_SCHEMA,
-            scenario: r.scenario_name.clone(),
-            description: scenario.description.clone(),
-            engine: r.engine,
-            supply_voltage_v: scenario.supply.voltage_v,
-            target_current_a: scenario.target_current_a(),
-            metrics: m,
-            losses_pct,
-            switch_current_peak_a: m.inductor_current_peak_a,
-            diode_current_peak_a: m.inductor_current_peak_a,
-            steady_state: r.steady.clone(),
-            fit: r.fit,
-            stats: r.stats,
-            startup_inductor_current_peak_a: startup_peak,
-            recorded_samples: r.waveform.len(),
-            recorded_cycles: r.waveform.cycle_starts_s.len(),
-            warnings,
-            cautions: cautions(scenario, &m),
-            controller: controller_words(&scenario.controller),
-            has_input_capacitor: scenario.input_capacitor.is_some(),
-            range_given: scenario.supply.input_range_v.is_some(),
-            has_output_capacitor: scenario.output_capacitor.is_some(),
-            design_verdict: worst(&a.checks),
-            design_checks: a.checks.clone(),
-            capacitors: a.capacitors.clone(),
-            temperatures: a.temperatures.clone(),
-            iteration: IterationInfo {
-                runs: a.iterations,
-                converged: a.converged,
-                led_junction_c: a
-                    .temperatures
-                    .iter()
-                    .find(|t| t.part == "led")
-                    .map(|t| t.temperature_c),
-            },
-            alternatives: a.comparison.clone(),
-            has_part_losses: {
-                let p = &scenario.parts;
-                p.switch.rise_time_s > 0.0
-                    || p.switch.fall_time_s > 0.0
-                    || p.switch.gate_charge_c > 0.0
-                    || p.switch.output_capacitance_f > 0.0
-                    || p.diode.reverse_recovery_charge_c > 0.0
-                    || p.diode.junction_capacitance_f > 0.0
-                    || p.inductor.core.is_some()
-                    || p.controller.quiescent_current_a > 0.0
-            },
-        }
-    }
-
-    /// The report as pretty-printed JSON.
-    pub fn to_json(&self) -> String {
+impl Render for Report {
+    fn to_json(&self) -> String {
         serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"))
     }
 
-    /// The report as text for a terminal, about 60 lines.
-    pub fn to_text(&self) -> String {
+    fn to_text(&self) -> String {
         let m = &self.metrics;
         let mut o = String::new();
         let engine = match self.engine {
@@ -197,7 +39,7 @@ impl Report {
             o,
             "supply {}, {}, LED string {} average",
             eng(self.supply_voltage_v, "V"),
-            self.controller,
+            controller_words(&self.controller),
             eng(m.led_voltage_avg_v, "V")
         );
         let row = |o: &mut String, label: &str, value: String| {
@@ -653,46 +495,6 @@ fn loss_rows(w: &LossEnergies, p: &LossEnergies) -> Vec<(&'static str, f64, f64)
     .into_iter()
     .filter(|r| r.1 != 0.0)
     .collect()
-}
-
-/// Safety cautions for a design: always the general one, plus voltage,
-/// heat and brightness cautions where they apply.
-pub fn cautions(s: &Scenario, m: &Metrics) -> Vec<String> {
-    let mut c = Vec::new();
-    let v_max = s
-        .supply
-        .input_range_v
-        .map_or(s.supply.voltage_v, |r| r.max_v.max(s.supply.voltage_v));
-    if v_max > SELV_LIMIT_V {
-        c.push(format!(
-            "HIGH VOLTAGE: the supply reaches {}, above the usual {} DC safety-extra-low-voltage \
-             limit (from memory). Contact can injure or kill: work de-energised, insulate, use \
-             an isolated supply, and have the design built and checked by qualified people under \
-             local electrical codes.",
-            eng(v_max, "V"),
-            eng(SELV_LIMIT_V, "V")
-        ));
-    }
-    if m.total_loss_w > HOT_PARTS_LOSS_W {
-        c.push(format!(
-            "HOT PARTS: {} is lost as heat in the driver; the switch, diode and inductor can \
-             get hot enough to burn. Check their temperatures on the bench.",
-            eng(m.total_loss_w, "W")
-        ));
-    }
-    if m.led_power_w > BRIGHT_LED_POWER_W {
-        c.push(format!(
-            "BRIGHT LIGHT: {} into the LEDs. Do not look into them at close range; use a \
-             diffuser or filter when testing.",
-            eng(m.led_power_w, "W")
-        ));
-    }
-    c.push(
-        "A simulation is no substitute for bench measurement and certification. Follow local \
-         codes and licensed practice."
-            .into(),
-    );
-    c
 }
 
 /// The controller and its settings in a few words.

@@ -9,12 +9,11 @@
 mod files;
 mod text;
 
-use crate::format::eng;
 use crate::{load, output, parse_override, read_text_limited, study_plot, EngineArg, Failure};
 use anyhow::Result;
 use files::*;
 use indicatif::{ProgressBar, ProgressStyle};
-use sim_core::simulate::SELV_LIMIT_V;
+use sim_core::report::{Caution, Scope};
 use sim_core::study::boundary::{
     boundary_curve, curve_value, find_boundary, mode_map_grid, BoundarySettings, CurveCount,
 };
@@ -407,18 +406,9 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
             let top = if path == "supply.voltage_v" { hi } else { 0.0 };
             let max_v = sim_core::study::max_supply_v(&s, [top]);
             println!("\nCautions");
-            if max_v > SELV_LIMIT_V {
-                println!(
-                    "  * this search applies supplies up to {} — above the usual 60 V DC \
-                     extra-low-voltage limit: such a driver can injure or kill; follow local \
-                     codes and licensed practice",
-                    eng(max_v, "V")
-                );
+            for c in Caution::for_figures(Scope::Search, max_v, None, None) {
+                println!("  * {c}");
             }
-            println!(
-                "  * a simulation is no substitute for bench measurement and certification; \
-                 follow local codes and licensed practice"
-            );
         }
         return Ok(());
     }

@@ -46,12 +46,14 @@ pub mod parts;
 pub use exact::propagate;
 pub mod record;
 pub mod reference;
+pub mod report;
+pub mod run;
 pub mod scenario;
-pub mod shooting;
+pub use run::shooting; // reshape shim
 pub mod simulate;
 // reshape shim
 pub use exact::spectral;
-pub mod steady;
+pub use run::steady; // reshape shim
 pub mod study;
 pub mod units;
 

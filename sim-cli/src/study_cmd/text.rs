@@ -3,50 +3,27 @@
 //! cautions.
 
 use crate::format::{eng, pct};
-use crate::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
-use sim_core::simulate::SELV_LIMIT_V;
+use sim_core::report::{Caution, Scope};
 use sim_core::study::boundary::Boundary;
 use sim_core::study::rows::{Metric, Row, RowExt, StudyKind, StudyTable};
 use sim_core::study::spread::summarize;
 use sim_core::Scenario;
 
 /// Safety cautions for a whole study, from its highest supply, losses
-/// and LED power.
-pub(super) fn cautions(t: &StudyTable) -> Vec<String> {
+/// and LED power (the library's [`Caution`]s, in a study's words).
+pub(super) fn cautions(t: &StudyTable) -> Vec<Caution> {
     let max = |m: Metric| {
         t.rows
             .iter()
             .filter_map(|r| r.value(m))
             .fold(f64::NEG_INFINITY, f64::max)
     };
-    let mut c = Vec::new();
-    if t.manifest.max_supply_v > SELV_LIMIT_V {
-        c.push(format!(
-            "this study applies supplies up to {} — above the usual 60 V DC extra-low-voltage \
-             limit: such a driver can injure or kill; touch-safe construction, insulation and \
-             creepage rules apply; follow local codes and licensed practice",
-            eng(t.manifest.max_supply_v, "V")
-        ));
-    }
-    if max(Metric::TotalLossW) > HOT_PARTS_LOSS_W {
-        c.push(format!(
-            "losses reach {} at some points: parts can get hot enough to burn; check temperatures \
-             on the bench",
-            eng(max(Metric::TotalLossW), "W")
-        ));
-    }
-    if max(Metric::LedPowerW) > BRIGHT_LED_POWER_W {
-        c.push(format!(
-            "LED power reaches {}: do not look into the LEDs at close range; test with a diffuser",
-            eng(max(Metric::LedPowerW), "W")
-        ));
-    }
-    c.push(
-        "a simulation is no substitute for bench measurement and certification; follow local \
-         codes and licensed practice"
-            .into(),
-    );
-    c
+    Caution::for_figures(
+        Scope::Study,
+        t.manifest.max_supply_v,
+        Some(max(Metric::TotalLossW)),
+        Some(max(Metric::LedPowerW)),
+    )
 }
 
 pub(super) fn print_cautions(t: &StudyTable) {

@@ -9,15 +9,15 @@
 //!   and the effective capacitance the engine uses.
 //! - [`thermal`]: part temperatures from thermal resistances, and the LED
 //!   forward-voltage temperature feedback.
-//! - [`assess`]: the outer loop (DC bias and LED temperature to
-//!   convergence) around [`crate::simulate::simulate`].
+//! - [`assess`]: moved to [`crate::run::assess`] (the bias/temperature
+//!   loop is part of the run).
 //! - [`checks`]: the design-check table (ok / warn / fail).
 //! - [`alternatives`]: series-resistor ballast and linear regulator for the
 //!   same LED string and supply range.
 //! - [`fit`]: the exponential LED model fitted to datasheet points.
 
 pub mod alternatives;
-pub mod assess;
+pub use crate::run::assess; // reshape shim
 pub mod bias;
 pub mod checks;
 pub mod fit;

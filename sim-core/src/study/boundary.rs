@@ -15,8 +15,8 @@ use super::vary::{Grid, Vary};
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
+use crate::run::{run_point, RunOptions};
 use crate::scenario::Scenario;
-use crate::simulate::{simulate, RunOptions};
 use rayon::prelude::*;
 use serde::Serialize;
 use std::time::Instant;
@@ -129,7 +129,7 @@ impl Searcher<'_> {
             None
         };
         let run = |start| {
-            simulate(
+            run_point(
                 &s,
                 &RunOptions {
                     engine: self.settings.run.engine,

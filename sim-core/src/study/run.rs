@@ -8,6 +8,13 @@
 //! results do not depend on the number of threads or on sharding. A
 //! warm-started point that fails is retried from the chain's own start.
 //!
+//! Every point runs through [`crate::run::run_point`], the entry point
+//! `chopwave run` uses too (the full assessment: DC-bias capacitance and
+//! LED temperature to convergence), so a point's figures are those of a
+//! run of the scenario set to the point's values. A warm-started point's
+//! first simulation starts from its neighbour's steady state, the rest of
+//! its bias/temperature loop from its own previous simulation.
+//!
 //! Each [`crate::SimResult`] is dropped as soon as its summary is taken,
 //! and the summary as soon as its compact [`Row`] is made, so memory grows
 //! by one row per point. Finished rows can be streamed to the caller as
@@ -18,9 +25,9 @@
 use super::rows::Row;
 use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
+use crate::run::{run_point, EngineKind, RunOptions};
 use crate::scenario::Scenario;
 use crate::shooting::SteadyMethod;
-use crate::simulate::{simulate, EngineKind, RunOptions};
 use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::ops::Range;
@@ -110,7 +117,7 @@ fn run_one(s: &Scenario, engine: EngineKind, start: Option<[f64; N_STATES]>) -> 
     // A bug in one point (a panic) becomes that point's failed row, not
     // the loss of the whole study.
     let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-        simulate(
+        run_point(
             s,
             &RunOptions {
                 engine,

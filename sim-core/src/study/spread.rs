@@ -72,7 +72,10 @@ impl SpecLimits {
         if let Some(max) = self.max_ripple_pct {
             v.push((
                 format!("LED ripple at most {} %", short_number(max, 4)),
-                Box::new(move |r| r.value(Metric::LedCurrentRipplePct).is_some_and(|x| x <= max)),
+                Box::new(move |r| {
+                    r.value(Metric::LedCurrentRipplePct)
+                        .is_some_and(|x| x <= max)
+                }),
             ));
         }
         if self.no_dcm {

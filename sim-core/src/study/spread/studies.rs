@@ -4,8 +4,8 @@
 
 use super::sampling::*;
 use super::SpecLimits;
+use crate::run::{run_point, RunOptions};
 use crate::scenario::Scenario;
-use crate::simulate::{simulate, RunOptions};
 use crate::study::rows::{Manifest, ShardInfo, StudyKind, StudyTable};
 use crate::study::run::{Hooks, PointInput, RunSettings, Shard};
 use crate::study::sweep::{base_manifest, run_table};
@@ -29,7 +29,7 @@ fn nominal(
     limits: &SpecLimits,
     run: &RunSettings,
 ) -> Result<(SpecLimits, RunSettings), StudyError> {
-    let r = simulate(
+    let r = run_point(
         s,
         &RunOptions {
             engine: run.engine,

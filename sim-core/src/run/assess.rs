@@ -1,5 +1,5 @@
 //! The real-part run: DC-bias capacitance and LED temperature iterated to
-//! convergence around [`crate::simulate::simulate`], then temperatures,
+//! convergence around [`crate::run::simulate`], then temperatures,
 //! the design checks and the alternatives.
 //!
 //! Iteration: the effective scenario starts with each ceramic capacitor at
@@ -15,15 +15,16 @@
 //! the range, and the check table holds each check's worst case over the
 //! nominal supply and the ends (see [`assess_with_progress`]).
 
-use super::alternatives::{self, Comparison, OperatingPoint};
-use super::bias;
-use super::checks::{self, CapacitorState, Check};
-use super::thermal::{self, PartTemperature};
+use super::drive::simulate_with_progress;
+use super::result::{Progress, RunOptions, SimResult};
 use crate::error::SimError;
 use crate::metrics::Metrics;
+use crate::parts::alternatives::{self, Comparison, OperatingPoint};
+use crate::parts::bias;
+use crate::parts::checks::{self, CapacitorState, Check};
+use crate::parts::thermal::{self, PartTemperature};
 use crate::record::{Waveform, COL_IL};
 use crate::scenario::Scenario;
-use crate::simulate::{simulate_with_progress, Progress, RunOptions, SimResult};
 use serde::Serialize;
 
 /// Most runs of the bias/temperature iteration.
@@ -229,6 +230,19 @@ fn assess_at(
     opts: &AssessOptions,
     progress: &mut dyn FnMut(Progress),
 ) -> Result<Assessment, SimError> {
+    assess_once(s, opts, true, progress)
+}
+
+/// The assessment at the scenario's own supply; `startup_peak`: run a
+/// start-up of its own for the saturation check when none is recorded
+/// (a study point, whose row has no start-up peak, skips it: the
+/// steady-state figures are the same either way).
+pub(crate) fn assess_once(
+    s: &Scenario,
+    opts: &AssessOptions,
+    startup_peak: bool,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Assessment, SimError> {
     let p = &s.parts;
     let iterate = bias::bias_dependent(&p.input_capacitor) && s.input_capacitor.is_some()
         || bias::bias_dependent(&p.output_capacitor) && s.output_capacitor.is_some()
@@ -279,7 +293,7 @@ fn assess_at(
     };
     let mut result = result;
     if want_startup {
-        let startup = crate::simulate::startup_transient(&eff, run.engine, &result, progress)?;
+        let startup = super::startup::startup_transient(&eff, run.engine, &result, progress)?;
         result.startup = Some(startup);
     }
     if !converged {
@@ -292,10 +306,10 @@ fn assess_at(
     // the recorded start-up, else from a start-up run made for it alone.
     let startup_peak = match (&result.startup, s.inductor.saturation_current_a) {
         (Some(w), _) => peak_inductor_current_a(w),
-        (None, Some(_)) => peak_inductor_current_a(&crate::simulate::startup_transient(
-            &eff, run.engine, &result, progress,
-        )?),
-        (None, None) => None,
+        (None, Some(_)) if startup_peak => peak_inductor_current_a(
+            &super::startup::startup_transient(&eff, run.engine, &result, progress)?,
+        ),
+        (None, _) => None,
     };
     let m = result.metrics;
     let (vin_avg, vout_avg) = capacitor_averages(&eff, &m);

@@ -7,7 +7,8 @@
 //! periodic inputs", Proc. IEEE 60(1), 1972). Newton's method solves
 //! `(J − I)·δ = −(P(x) − x)` with the Jacobian `J = ∂P/∂x` from the exact
 //! engine's transition matrices and event-time shifts
-//! ([`ExactEngine::run_cycle_with_jacobian`]), or by forward differences
+//! ([`CycleMap::cycle_with_jacobian`], for the exact engine its
+//! `run_cycle_with_jacobian`), or by forward differences
 //! (one extra cycle per active state) when asked or when the analytic one
 //! is not available. Steps that do not reduce the residual are cut back.
 //!
@@ -19,12 +20,40 @@
 //! to, so the caller falls back to cycling, which finds the orbit it
 //! really settles to (subharmonic, for instance).
 
+use super::steady::scaled_change;
 use crate::circuit::{Circuit, N_STATES};
-use crate::engine::ExactEngine;
 use crate::error::SimError;
 use crate::scenario::{ControllerSpec, Scenario};
-use crate::steady::scaled_change;
 use nalgebra::Matrix3;
+
+/// What shooting needs of an engine: the cycle map `x ↦ P(x)` from a
+/// fresh turn-on, with its Jacobian `∂P/∂x` where the engine can carry it,
+/// and control over its curve fits (frozen while Newton runs).
+pub trait CycleMap {
+    /// Which of the states `[i_L, v_Co, v_Cin]` the circuit has (a missing
+    /// capacitor's voltage is not a state Newton solves for).
+    fn active_states(&self) -> [bool; N_STATES];
+    /// The supply voltage, V (bounds the capacitor voltages).
+    fn supply_v(&self) -> f64;
+    /// Puts the engine at a turn-on with state `x`, forgetting any
+    /// memory of earlier cycles, so the map is a function of `x` alone.
+    fn restart_at_turn_on(&mut self, x: [f64; N_STATES]);
+    /// One cycle, turn-on to turn-on.
+    fn cycle(&mut self) -> Result<(), SimError>;
+    /// One cycle carrying `∂x/∂x₀` along (None: not available for this
+    /// cycle, so shooting takes differences).
+    fn cycle_with_jacobian(&mut self) -> Result<Option<Matrix3<f64>>, SimError>;
+    /// The state at the present turn-on.
+    fn state_array(&self) -> [f64; N_STATES];
+    /// Simulated time, s.
+    fn time_s(&self) -> f64;
+    /// The present topology in words (for errors).
+    fn topology(&self) -> String;
+    /// Freezes (`true`) or frees the piecewise-linear curve fits.
+    fn set_fits_frozen(&mut self, frozen: bool);
+    /// How many times the fits have been re-made so far.
+    fn refits(&self) -> u64;
+}
 
 /// Scaled residual `max |P(x) − x| / scale` at which the orbit is found.
 pub const RESIDUAL_TARGET: f64 = 1e-12;
@@ -97,8 +126,8 @@ struct Eval {
     residual: f64,
 }
 
-struct Solver<'a> {
-    e: &'a mut ExactEngine,
+struct Solver<'a, E: CycleMap> {
+    e: &'a mut E,
     scale: [f64; N_STATES],
     active: [bool; N_STATES],
     /// Where a turn-on state can lie: `i_L ≥ 0` (the diode blocks reverse
@@ -115,23 +144,23 @@ struct Solver<'a> {
     hit: Option<SimError>,
 }
 
-impl Solver<'_> {
+impl<E: CycleMap> Solver<'_, E> {
     /// `P(x)` (and the analytic `J` when asked), from a fresh turn-on at `x`.
     fn eval(&mut self, x: [f64; N_STATES], want_jac: bool) -> Result<Eval, SimError> {
         self.e.restart_at_turn_on(x);
         self.count_cycle()?;
         let jac = if want_jac {
-            self.e.run_cycle_with_jacobian()?
+            self.e.cycle_with_jacobian()?
         } else {
-            self.e.run_cycle(None, None)?;
+            self.e.cycle()?;
             None
         };
         let px = self.e.state_array();
         let residual = scaled_change(&px, &x, &self.scale);
         if !residual.is_finite() {
             return Err(SimError::NonFinite {
-                time_s: self.e.t,
-                topology: self.e.region().name(),
+                time_s: self.e.time_s(),
+                topology: self.e.topology(),
                 state: px.to_vec(),
             });
         }
@@ -234,7 +263,7 @@ impl Solver<'_> {
     }
 }
 
-impl Solver<'_> {
+impl<E: CycleMap> Solver<'_, E> {
     /// Counts one cycle against the caps; past them, records the error
     /// the run must end with.
     fn count_cycle(&mut self) -> Result<(), SimError> {
@@ -242,12 +271,12 @@ impl Solver<'_> {
             if self.evaluations >= self.limits.max_cycles {
                 self.hit = Some(SimError::NoSteadyState {
                     cycles: self.evaluations,
-                    time_s: self.e.t,
+                    time_s: self.e.time_s(),
                     last_change: self.best.1,
                     tolerance: RESIDUAL_TARGET,
                     contraction: f64::NAN,
                 });
-            } else if self.e.t >= self.limits.max_time_s {
+            } else if self.e.time_s() >= self.limits.max_time_s {
                 self.hit = Some(SimError::TimeLimit {
                     cycles: self.evaluations,
                     limit_s: self.limits.max_time_s,
@@ -266,7 +295,7 @@ impl Solver<'_> {
     /// One ordinary cycle from where the engine is.
     fn plain_cycle(&mut self) -> Result<(), SimError> {
         self.count_cycle()?;
-        self.e.run_cycle(None, None)
+        self.e.cycle()
     }
 }
 
@@ -282,18 +311,14 @@ fn largest_multiplier(j: &Matrix3<f64>) -> f64 {
 /// starting from the engine's present state (at a turn-on). On success
 /// the engine is left at a turn-on on the orbit with its fits frozen; on
 /// failure it is left at a turn-on at the best state found, fits free.
-pub fn find_orbit(
-    e: &mut ExactEngine,
+pub fn find_orbit<E: CycleMap>(
+    e: &mut E,
     scale: [f64; N_STATES],
     source: JacobianSource,
     limits: Limits,
 ) -> Result<Orbit, NoOrbit> {
-    let active = [
-        true,
-        e.circuit.output_cap.is_some(),
-        e.circuit.input_cap.is_some(),
-    ];
-    let v_max = 1.5 * e.circuit.supply_v;
+    let active = e.active_states();
+    let v_max = 1.5 * e.supply_v();
     let start = e.state_array();
     let mut s = Solver {
         e,
@@ -313,7 +338,7 @@ pub fn find_orbit(
         Ok(orbit) => Ok(orbit),
         Err(reason) => {
             let best_state = s.best.0;
-            s.e.freeze_fits = false;
+            s.e.set_fits_frozen(false);
             s.e.restart_at_turn_on(best_state);
             Err(NoOrbit {
                 reason,
@@ -326,8 +351,8 @@ pub fn find_orbit(
     }
 }
 
-fn solve(s: &mut Solver) -> Result<Orbit, String> {
-    s.e.freeze_fits = false;
+fn solve<E: CycleMap>(s: &mut Solver<'_, E>) -> Result<Orbit, String> {
+    s.e.set_fits_frozen(false);
     for _ in 0..WARM_UP_CYCLES {
         s.plain_cycle()
             .map_err(|e| format!("a warm-up cycle failed: {e}"))?;
@@ -335,7 +360,7 @@ fn solve(s: &mut Solver) -> Result<Orbit, String> {
     let mut x = s.e.state_array();
     let mut restarts = 0;
     for _ in 0..MAX_FIT_ROUNDS + MAX_RESTARTS {
-        s.e.freeze_fits = true;
+        s.e.set_fits_frozen(true);
         let (xs, residual, jac) = match s.newton(x) {
             Ok(found) => found,
             Err(_) if restarts < MAX_RESTARTS => {
@@ -343,7 +368,7 @@ fn solve(s: &mut Solver) -> Result<Orbit, String> {
                 // Newton (an LED that only starts to conduct part-way, say):
                 // let a few ordinary cycles bring the state closer.
                 restarts += 1;
-                s.e.freeze_fits = false;
+                s.e.set_fits_frozen(false);
                 s.e.restart_at_turn_on(s.best.0);
                 for _ in 0..RESTART_CYCLES {
                     s.plain_cycle()
@@ -357,12 +382,12 @@ fn solve(s: &mut Solver) -> Result<Orbit, String> {
         };
         let multiplier = largest_multiplier(&jac);
         // Let the fits follow the orbit for one ordinary cycle.
-        s.e.freeze_fits = false;
-        let refits = s.e.refits;
+        s.e.set_fits_frozen(false);
+        let refits = s.e.refits();
         let check = s
             .eval(xs, false)
             .map_err(|e| format!("a cycle on the orbit failed: {e}"))?;
-        if s.e.refits == refits {
+        if s.e.refits() == refits {
             if multiplier >= 1.0 {
                 return Err(format!(
                     "the period-one orbit is unstable (Floquet multiplier {multiplier:.4}); \
@@ -370,7 +395,7 @@ fn solve(s: &mut Solver) -> Result<Orbit, String> {
                 ));
             }
             // The engine now sits at P(x*), a turn-on on the orbit.
-            s.e.freeze_fits = true;
+            s.e.set_fits_frozen(true);
             return Ok(Orbit {
                 state: check.px,
                 iterations: s.iterations,
