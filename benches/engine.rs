@@ -19,11 +19,11 @@
 
 use chopwave_suite::{allocations, CountingAlloc};
 use criterion::{criterion_group, criterion_main, Criterion};
-use sim_core::engine::ExactEngine;
+use sim_core::exact::engine::ExactEngine;
 use sim_core::record::Recorder;
 use sim_core::reference::ReferenceEngine;
-use sim_core::shooting::{JacobianSource, SteadyMethod};
-use sim_core::simulate::{simulate, CycleEngine, RunOptions};
+use sim_core::scenario::{JacobianSource, SteadyMethod};
+use sim_core::{model::seam::CycleEngine, run::drive::simulate, run::RunOptions};
 use std::hint::black_box;
 use std::time::{Duration, Instant};
 

@@ -13,13 +13,13 @@
 //! size, `STUDY_BENCH_POINTS=N` the sweep's.
 
 use rayon::prelude::*;
-use sim_core::shooting::SteadyMethod;
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::scenario::SteadyMethod;
 use sim_core::study::run::{Hooks, RunSettings};
 use sim_core::study::spread::{spread, SpreadSettings};
 use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
 use sim_core::Scenario;
+use sim_core::{run::drive::simulate, run::RunOptions};
 use std::time::Instant;
 
 const SCENARIO: &str = include_str!("../scenarios/cabin-light-9-32v.json");

@@ -11,7 +11,7 @@ static GLOBAL: CountingAlloc = CountingAlloc;
 
 #[test]
 fn exact_engine_cycles_allocate_nothing() {
-    use sim_core::engine::ExactEngine;
+    use sim_core::exact::engine::ExactEngine;
     use sim_core::metrics::Totals;
     for s in chopwave_suite::realistic_set() {
         let mut e = ExactEngine::new(&s);

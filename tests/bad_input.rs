@@ -139,7 +139,7 @@ fn regression_fuzz_stalled_event_scan() {
 fn deep_dcm_is_explained_not_rejected() {
     use sim_core::metrics::ConductionMode;
     use sim_core::scenario::IntendedMode;
-    use sim_core::simulate::{simulate, RunOptions};
+    use sim_core::{run::drive::simulate, run::RunOptions};
     let s = chopwave_suite::dcm_long_off_time();
     let r = simulate(&s, &RunOptions::default()).expect("deep DCM still runs");
     assert_eq!(r.metrics.conduction_mode, ConductionMode::Dcm);

@@ -20,8 +20,8 @@
 
 use approx::assert_relative_eq;
 use chopwave_suite::*;
-use sim_core::parts::assess::{assess, AssessOptions, Assessment};
 use sim_core::parts::checks::{Check, Status};
+use sim_core::run::assess::{assess, AssessOptions, Assessment};
 use sim_core::scenario::{
     BiasPoint, Capacitor, ControllerSpec, Dielectric, Diode, IntendedMode, Scenario, Thermal,
     VoltageRange,
@@ -606,7 +606,7 @@ fn output_capacitor_rows_at_their_edges() {
     let peak_v = v_out + di * t / (8.0 * c) / 2.0;
     let ripple = di / 12f64.sqrt();
     let opts = AssessOptions {
-        run: sim_core::simulate::RunOptions {
+        run: sim_core::run::RunOptions {
             initial_state: Some([v_out / r - di / 2.0, v_out, 0.0]),
             ..Default::default()
         },

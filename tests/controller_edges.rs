@@ -21,7 +21,7 @@ use approx::assert_relative_eq;
 use chopwave_suite::*;
 use sim_core::metrics::{ConductionMode, Metrics};
 use sim_core::scenario::{ControllerSpec, Load, Scenario};
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 fn run(s: &Scenario) -> Metrics {
     s.validate().expect("circuit validates");

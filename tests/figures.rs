@@ -17,7 +17,10 @@ use chopwave_suite::*;
 use sim_core::metrics::{ConductionMode, Metrics};
 use sim_core::record::{COL_IL, COL_ILED, COL_SWITCH, COL_TIME, COL_VLED, COL_VSW};
 use sim_core::scenario::{ControllerSpec, Diode, Scenario};
-use sim_core::simulate::{simulate, RunOptions, SimResult};
+use sim_core::{
+    run::drive::simulate,
+    run::{RunOptions, SimResult},
+};
 
 fn cot(peak_current_a: f64, off_time_s: f64, delay_s: f64, min_on_time_s: f64) -> ControllerSpec {
     ControllerSpec::ConstantOffTime {

@@ -14,9 +14,12 @@
 use chopwave_suite as circuits;
 use sim_core::metrics::Metrics;
 use sim_core::scenario::{Capacitor, Scenario};
-use sim_core::simulate::{simulate, EngineKind, RunOptions, SimResult};
 use sim_core::study::boundary::{find_boundary, BoundarySettings};
 use sim_core::study::run::RunSettings;
+use sim_core::{
+    run::drive::simulate,
+    run::{EngineKind, RunOptions, SimResult},
+};
 
 fn run(s: &Scenario, engine: EngineKind) -> SimResult {
     let opts = RunOptions {

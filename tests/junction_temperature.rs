@@ -12,9 +12,12 @@
 
 use chopwave_suite::*;
 use sim_core::devices::ExpDevice;
-use sim_core::parts::assess::{assess, AssessOptions};
+use sim_core::run::assess::{assess, AssessOptions};
 use sim_core::scenario::{ControllerSpec, Diode, LedThermal, Load, Scenario};
-use sim_core::simulate::{simulate, EngineKind, RunOptions};
+use sim_core::{
+    run::drive::simulate,
+    run::{EngineKind, RunOptions},
+};
 
 /// kT/q at `t_k`, V (CODATA 2018: k = 1.380649e-23 J/K, q = 1.602176634e-19 C).
 fn vt(t_k: f64) -> f64 {

@@ -7,14 +7,17 @@
 
 use approx::assert_relative_eq;
 use chopwave_suite::*;
-use sim_core::parts::assess::{assess, AssessOptions, Assessment};
 use sim_core::parts::checks::{worst, Check, Status};
 use sim_core::parts::losses::{abs_cos_power_integral, igse_w_per_m3, steinmetz_w_per_m3};
 use sim_core::record::COL_IL;
+use sim_core::run::assess::{assess, AssessOptions, Assessment};
 use sim_core::scenario::{
     Capacitor, ControllerFeed, ControllerSpec, Core, Scenario, Thermal, VoltageRange,
 };
-use sim_core::simulate::{simulate, EngineKind, RunOptions};
+use sim_core::{
+    run::drive::simulate,
+    run::{EngineKind, RunOptions},
+};
 
 fn cot(peak_current_a: f64, off_time_s: f64) -> ControllerSpec {
     ControllerSpec::ConstantOffTime {

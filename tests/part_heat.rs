@@ -20,7 +20,7 @@
 use approx::assert_relative_eq;
 use chopwave_suite::*;
 use sim_core::metrics::ConductionMode;
-use sim_core::parts::assess::{assess, AssessOptions, Assessment};
+use sim_core::run::assess::{assess, AssessOptions, Assessment};
 use sim_core::scenario::{ControllerSpec, Core, Diode, LedThermal, Load, Scenario, Thermal};
 
 // Part data (illustrative values, not from any datasheet).

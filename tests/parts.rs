@@ -5,15 +5,18 @@
 use approx::assert_relative_eq;
 use chopwave_suite::*;
 use sim_core::parts::alternatives::{self, linear_point, resistor_point};
-use sim_core::parts::assess::{assess, AssessOptions};
 use sim_core::parts::checks::Status;
 use sim_core::parts::fit::fit_led;
+use sim_core::run::assess::{assess, AssessOptions};
 use sim_core::scenario::{
     BiasPoint, Capacitor, ControllerSpec, Core, Dielectric, IntendedMode, LedThermal, Load,
     Scenario, Thermal,
 };
-use sim_core::simulate::{simulate, EngineKind, RunOptions};
 use sim_core::units::thermal_voltage_v;
+use sim_core::{
+    run::drive::simulate,
+    run::{EngineKind, RunOptions},
+};
 
 fn cot(peak_current_a: f64, off_time_s: f64) -> ControllerSpec {
     ControllerSpec::ConstantOffTime {

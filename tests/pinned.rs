@@ -5,8 +5,9 @@
 use chopwave_suite::*;
 use rand_chacha::rand_core::{RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use sim_core::simulate::{simulate, RunOptions};
-use sim_core::study::spread::{sample_inputs, Distribution, Param, ParamKind};
+use sim_core::scenario::Distribution;
+use sim_core::study::spread::{sample_inputs, Param, ParamKind};
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 /// The documented scheme (`sim_core::study::spread`): sample `k` reads
 /// ChaCha8 seeded by `seed_from_u64(seed)` on stream `k`, one 64-bit word

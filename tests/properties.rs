@@ -4,7 +4,7 @@
 
 use proptest::prelude::*;
 use sim_core::scenario::{Capacitor, ControllerSpec, Diode, Load, Scenario};
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 /// A random design over wide but physical ranges (illustrative values).
 fn design() -> impl Strategy<Value = Scenario> {

@@ -2,9 +2,9 @@
 //! those of the current demo, and its Quick start says how to get the
 //! `chopwave` command every example uses.
 
-use sim_core::parts::assess::{assess, AssessOptions, Assessment};
+use sim_core::run::assess::{assess, AssessOptions, Assessment};
+use sim_core::run::RunOptions;
 use sim_core::scenario::{Load, Scenario};
-use sim_core::simulate::RunOptions;
 use std::path::Path;
 
 fn root() -> &'static Path {

@@ -11,8 +11,11 @@
 use chopwave_suite as circuits;
 use sim_core::metrics::{ConductionMode, Metrics};
 use sim_core::scenario::Scenario;
-use sim_core::simulate::{simulate, EngineKind, RunOptions, SimResult};
 use sim_core::SimError;
+use sim_core::{
+    run::drive::simulate,
+    run::{EngineKind, RunOptions, SimResult},
+};
 
 fn run(s: &Scenario, engine: EngineKind) -> SimResult {
     let opts = RunOptions {

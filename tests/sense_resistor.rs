@@ -12,7 +12,7 @@
 
 use chopwave_suite::*;
 use sim_core::scenario::{ControllerSpec, Scenario, SensePosition, SenseResistor};
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 fn sense(mut s: Scenario, r: f64, position: Option<SensePosition>) -> Scenario {
     s.sense_resistor = Some(SenseResistor {

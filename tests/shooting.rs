@@ -4,12 +4,17 @@
 
 use chopwave_suite as circuits;
 use nalgebra::Matrix3;
-use sim_core::circuit::{N_STATES, X_IL};
-use sim_core::engine::ExactEngine;
+use sim_core::exact::engine::ExactEngine;
+use sim_core::model::circuit::{N_STATES, X_IL};
+use sim_core::run::shooting::{averaged_guess, find_orbit, Limits};
+use sim_core::run::steady::{SteadyDetector, Verdict};
 use sim_core::scenario::Scenario;
-use sim_core::shooting::{averaged_guess, find_orbit, JacobianSource, Limits, SteadyMethod};
-use sim_core::simulate::{simulate, state_scales, RunOptions, SimResult};
-use sim_core::steady::{SteadyDetector, Verdict};
+use sim_core::scenario::{JacobianSource, SteadyMethod};
+use sim_core::{
+    model::seam::state_scales,
+    run::drive::simulate,
+    run::{RunOptions, SimResult},
+};
 
 fn bundled() -> Vec<Scenario> {
     let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios");

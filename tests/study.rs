@@ -4,19 +4,21 @@
 use approx::assert_relative_eq;
 use chopwave_suite::*;
 use serde_json::Value;
+use sim_core::scenario::SteadyMethod;
 use sim_core::scenario::{ControllerSpec, Scenario, VoltageRange};
-use sim_core::shooting::SteadyMethod;
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::scenario::{
+    Distribution, LedVoltageTolerance, PartTolerance, SpecLimits, Tolerances,
+};
 use sim_core::study::boundary::{find_boundary, BoundarySettings};
 use sim_core::study::rows::{flat_metrics, RowExt, StudyTable};
 use sim_core::study::run::{Finished, Hooks, RunSettings, Shard};
 use sim_core::study::spread::{
-    corners, normal_quantile, sample_inputs, spread, summarize, Distribution, LedVoltageTolerance,
-    Param, ParamKind, PartTolerance, SpecLimits, SpreadSettings, Tolerances,
+    corners, normal_quantile, sample_inputs, spread, summarize, Param, ParamKind, SpreadSettings,
 };
 use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
 use sim_core::study::{scenario_json, scenario_with};
+use sim_core::{run::drive::simulate, run::RunOptions};
 use std::collections::BTreeMap;
 
 fn nothing() -> Hooks<'static> {

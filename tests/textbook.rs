@@ -2,11 +2,11 @@
 
 use approx::assert_relative_eq;
 use chopwave_suite::*;
-use sim_core::circuit::{Aug, Circuit, Signal};
+use sim_core::exact::propagate::{gramian, transition, WorkCounts};
 use sim_core::metrics::ConductionMode;
-use sim_core::propagate::{gramian, transition, WorkCounts};
+use sim_core::model::circuit::{Aug, Circuit, Signal};
 use sim_core::scenario::{Capacitor, ControllerSpec, Load};
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 fn cot(peak_current_a: f64, off_time_s: f64) -> ControllerSpec {
     ControllerSpec::ConstantOffTime {

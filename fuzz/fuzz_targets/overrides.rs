@@ -9,7 +9,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sim_core::parts::assess::{assess, AssessOptions};
+use sim_core::run::assess::{assess, AssessOptions};
 
 fuzz_target!(|data: &[u8]| {
     let Ok(text) = std::str::from_utf8(data) else {
@@ -28,9 +28,9 @@ fuzz_target!(|data: &[u8]| {
     let Ok(mut s) = loaded else {
         return;
     };
-    let estimate = sim_core::budget::run_estimate(&s, true);
+    let estimate = sim_core::study::budget::run_estimate(&s, true);
     if estimate
-        .check(&sim_core::budget::Budget::default(), ["m", "o", "p"])
+        .check(&sim_core::study::budget::Budget::default(), ["m", "o", "p"])
         .is_err()
     {
         return;

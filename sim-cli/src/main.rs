@@ -15,7 +15,6 @@ mod plots;
 mod report;
 mod run_cmd;
 mod study_cmd;
-use plots::{self as plot, self as study_plot}; // reshape shim: the old module paths
 
 use anyhow::Result;
 use clap::{Parser, Subcommand, ValueEnum};
@@ -132,18 +131,18 @@ fn parse_bytes(s: &str) -> Result<u64, String> {
 
 /// The resource budget of this invocation (defaults, raised by the
 /// `--memory-budget`, `--output-budget` and `--max-points` options).
-static BUDGET: std::sync::OnceLock<sim_core::budget::Budget> = std::sync::OnceLock::new();
+static BUDGET: std::sync::OnceLock<sim_core::study::budget::Budget> = std::sync::OnceLock::new();
 
 /// The options that raise each budget figure (memory, output, points).
 pub(crate) const RAISE_BUDGET: [&str; 3] = ["--memory-budget", "--output-budget", "--max-points"];
 
 /// The budget requests are held to.
-pub(crate) fn budget() -> sim_core::budget::Budget {
+pub(crate) fn budget() -> sim_core::study::budget::Budget {
     BUDGET.get().copied().unwrap_or_default()
 }
 
 /// Refuses an estimate above the budget (bad input, exit 2).
-pub(crate) fn within_budget(e: &sim_core::budget::Estimate) -> Result<(), Failure> {
+pub(crate) fn within_budget(e: &sim_core::study::budget::Estimate) -> Result<(), Failure> {
     e.check(&budget(), RAISE_BUDGET)
         .map_err(|e| Failure::Input(format!("request too large: {e}")))
 }
@@ -284,8 +283,8 @@ fn main() -> ExitCode {
     }));
     let cli = Cli::parse();
     let quiet = cli.quiet;
-    let defaults = sim_core::budget::Budget::default();
-    let _ = BUDGET.set(sim_core::budget::Budget {
+    let defaults = sim_core::study::budget::Budget::default();
+    let _ = BUDGET.set(sim_core::study::budget::Budget {
         memory_bytes: cli.memory_budget.unwrap_or(defaults.memory_bytes),
         output_bytes: cli.output_budget.unwrap_or(defaults.output_bytes),
         points: cli.max_points.unwrap_or(defaults.points),

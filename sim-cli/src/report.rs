@@ -9,8 +9,7 @@ use sim_core::metrics::{ConductionMode, LossEnergies, Metrics};
 use sim_core::parts::checks::Status;
 pub use sim_core::report::Report;
 #[allow(unused_imports)]
-pub use sim_core::report::{BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W}; // reshape shim
-use sim_core::shooting::{JacobianSource, SteadyMethod};
+use sim_core::scenario::{JacobianSource, SteadyMethod};
 use sim_core::EngineKind;
 use std::fmt::Write as _;
 

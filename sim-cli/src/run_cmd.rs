@@ -5,7 +5,7 @@
 
 use crate::report::{Render, Report};
 use crate::{
-    bundled, describe_scenario_error, format, io_failure, load, output, parse_override, plot, say,
+    bundled, describe_scenario_error, format, io_failure, load, output, parse_override, plots, say,
     within_budget, EngineArg, Failure,
 };
 use anyhow::{Context, Result};
@@ -115,7 +115,10 @@ pub(crate) fn run(args: &RunArgs, quiet: bool) -> Result<(), Failure> {
     // Record the start-up unless told not to: the plots need it, and the
     // summary reports its inductor peak.
     s.simulation.record_startup = !args.no_startup;
-    within_budget(&sim_core::budget::run_estimate(&s, args.csv.is_some()))?;
+    within_budget(&sim_core::study::budget::run_estimate(
+        &s,
+        args.csv.is_some(),
+    ))?;
     let a = simulate_scenario(&s, args.engine.into(), quiet)?;
     let r = &a.result;
     let report = Report::new(&s, &a);
@@ -168,15 +171,15 @@ fn write_plots(s: &Scenario, a: &Assessment, dir: &Path, stem: &str) -> Result<V
     let ((st, su), al) = rayon::join(
         || {
             rayon::join(
-                || plot::steady_png(s, r, &steady).context("steady-state plot"),
+                || plots::steady_png(s, r, &steady).context("steady-state plot"),
                 || match &startup {
-                    Some(p) => plot::startup_png(s, r, p).context("start-up plot"),
+                    Some(p) => plots::startup_png(s, r, p).context("start-up plot"),
                     None => Ok(()),
                 },
             )
         },
         || match &cmp {
-            Some(p) => plot::alternatives_png(a, p).context("alternatives plot"),
+            Some(p) => plots::alternatives_png(a, p).context("alternatives plot"),
             None => Ok(()),
         },
     );

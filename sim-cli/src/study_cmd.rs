@@ -9,7 +9,7 @@
 mod files;
 mod text;
 
-use crate::{load, output, parse_override, read_text_limited, study_plot, EngineArg, Failure};
+use crate::{load, output, parse_override, plots, read_text_limited, EngineArg, Failure};
 use anyhow::Result;
 use files::*;
 use indicatif::{ProgressBar, ProgressStyle};
@@ -186,7 +186,7 @@ fn set_threads(n: Option<usize>) -> Result<(), Failure> {
 /// Refuses a study whose estimated points, memory or output exceed the
 /// budget (exit 2), naming where its size comes from.
 fn study_budget(s: &Scenario, points: usize, from: &str) -> Result<(), Failure> {
-    crate::within_budget(&sim_core::budget::study_estimate(
+    crate::within_budget(&sim_core::study::budget::study_estimate(
         s,
         points as u64,
         sim_core::study::rows::metric_columns().len(),
@@ -491,9 +491,9 @@ pub fn run_boundary(a: &BoundaryArgs, quiet: bool) -> Result<(), Failure> {
         written.push(p);
         if !a.common.no_plots && t.manifest.incomplete.is_none() {
             let p = dir.join(format!("{base}.png"));
-            study_plot::grid_map(
+            plots::grid_map(
                 &t,
-                study_plot::MapKind::Mode,
+                plots::MapKind::Mode,
                 &format!("{} — CCM/DCM boundary over the mode map", s.name),
                 Some(("boundary found by search", &pts)),
                 &p,

@@ -1,5 +1,5 @@
 //! Development aid: per-cycle cost of the exact engine on a few designs.
-use sim_core::engine::ExactEngine;
+use sim_core::exact::engine::ExactEngine;
 use sim_core::scenario::{template, Capacitor, ControllerSpec};
 
 fn main() {

@@ -1,5 +1,5 @@
 //! Development aid: a long unrecorded run of one design, for a profiler.
-use sim_core::engine::ExactEngine;
+use sim_core::exact::engine::ExactEngine;
 use sim_core::scenario::{template, Capacitor};
 
 fn main() {

@@ -1,7 +1,7 @@
 //! Development aid: shooting against cycling on the bundled scenarios.
 use sim_core::scenario::Scenario;
-use sim_core::shooting::SteadyMethod;
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::scenario::SteadyMethod;
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 fn main() {
     for path in std::env::args().skip(1) {

@@ -2,11 +2,11 @@
 //!
 //! A scenario ([`scenario::Scenario`]) describes a proposed buck LED driver
 //! — supply, input capacitor, switch, freewheel diode, inductor, output
-//! capacitor, LED string and controller. [`simulate::simulate`] runs it
+//! capacitor, LED string and controller. [`run::simulate`] runs it
 //! switching cycle by switching cycle from power-on to periodic steady
 //! state and measures what is needed to choose parts ([`metrics::Metrics`]).
 //!
-//! The exact engine ([`engine`]) treats the circuit as piecewise linear and
+//! The exact engine ([`exact`]) treats the circuit as piecewise linear and
 //! propagates each piece in closed form with the matrix exponential,
 //! locating every switching event by root finding on the closed-form
 //! trajectory; the reference engine ([`reference`]) integrates the full
@@ -15,7 +15,7 @@
 //!
 //! ```
 //! use sim_core::scenario::template;
-//! use sim_core::simulate::{simulate, RunOptions};
+//! use sim_core::run::{simulate, RunOptions};
 //!
 //! let scenario = template();
 //! let result = simulate(&scenario, &RunOptions::default()).unwrap();
@@ -29,34 +29,20 @@
 //! the value and the reason; running returns [`error::SimError`].
 #![deny(missing_docs)]
 
-pub mod budget;
-// reshape shim
-pub use model::circuit;
-// reshape shim
-pub use model::controller;
 pub mod devices;
-// reshape shim
-pub use exact::engine;
 pub mod error;
 pub mod exact;
 pub mod metrics;
 pub mod model;
 pub mod parts;
-// reshape shim
-pub use exact::propagate;
 pub mod record;
 pub mod reference;
 pub mod report;
 pub mod run;
 pub mod scenario;
-pub use run::shooting; // reshape shim
-pub mod simulate;
-// reshape shim
-pub use exact::spectral;
-pub use run::steady; // reshape shim
 pub mod study;
 pub mod units;
 
 pub use error::{FieldProblem, ScenarioError, SimError};
+pub use run::{simulate, EngineKind, RunOptions, SimResult};
 pub use scenario::Scenario;
-pub use simulate::{simulate, EngineKind, RunOptions, SimResult};

@@ -34,6 +34,7 @@ use crate::metrics::Totals;
 use crate::model::circuit::N_STATES;
 use crate::model::controller::{self, Cause, Command, Controller};
 use crate::model::seam::{state_scales, ChatterGuard, CycleEngine, RunStats};
+use crate::model::DIODE_FLOOR_REL;
 use crate::record::{Recorder, Sample};
 use crate::scenario::Scenario;
 use nalgebra::SVector;
@@ -51,9 +52,6 @@ pub const RTOL: f64 = 1e-10;
 /// two decades below [`RTOL`] and only matters where a component passes
 /// through zero.
 pub const ATOL: f64 = 1e-12;
-
-// reshape shim
-pub use crate::model::DIODE_FLOOR_REL;
 
 /// Interior extremes are refined to within this time, s.
 pub const EXTREME_TIME_TOL_S: f64 = 1e-17;

@@ -16,6 +16,7 @@ pub use caution::{Caution, Scope, BRIGHT_LED_POWER_W, HOT_PARTS_LOSS_W};
 pub use warning::Warning;
 
 use crate::metrics::{LossEnergies, Metrics};
+use crate::model::seam::RunStats;
 use crate::parts::alternatives::Comparison;
 use crate::parts::checks::{worst, CapacitorState, Check, Status};
 use crate::parts::thermal::PartTemperature;
@@ -23,7 +24,6 @@ use crate::record::{Waveform, COL_IL};
 use crate::run::assess::{Assessment, IterationInfo};
 use crate::run::{EngineKind, FitReport, SteadyInfo};
 use crate::scenario::{ControllerSpec, Scenario};
-use crate::simulate::RunStats;
 use serde::Serialize;
 
 /// Version of the JSON layout; bumped when a field changes meaning.

@@ -25,8 +25,6 @@ mod tolerances;
 mod validate;
 mod validate_parts;
 
-#[allow(unused_imports)] // reshape shim: spread.rs read it here
-pub(crate) use de::de_quantity;
 pub use diagnose::unit_of;
 pub use elements::{
     Capacitor, ControllerSpec, Diode, Inductor, Load, SensePosition, SenseResistor, Supply, Switch,

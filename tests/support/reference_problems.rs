@@ -17,7 +17,7 @@
 use crate::{fixed_duty_resistive, ideal_buck};
 use sim_core::metrics::Metrics;
 use sim_core::scenario::{ControllerSpec, Scenario};
-use sim_core::simulate::{simulate, RunOptions};
+use sim_core::{run::drive::simulate, run::RunOptions};
 
 /// One expected figure.
 #[derive(Debug, Clone)]

@@ -8,7 +8,7 @@ use crate::format::eng;
 use anyhow::{anyhow, Result};
 use plotters::style::RGBColor;
 use sim_core::parts::alternatives::{self, OperatingPoint};
-use sim_core::parts::assess::Assessment;
+use sim_core::run::assess::Assessment;
 use std::path::Path;
 
 /// The alternatives plot's traces in drawing order: the switching design
@@ -161,8 +161,8 @@ mod tests {
     use super::*;
     use crate::plots::canvas::{HEIGHT, LEGEND_WIDTH, WIDTH};
     use crate::plots::waveform::tests::lamp;
-    use sim_core::parts::assess::{assess, AssessOptions};
-    use sim_core::simulate::RunOptions;
+    use sim_core::run::assess::{assess, AssessOptions};
+    use sim_core::run::RunOptions;
 
     /// Without an input range the alternatives are compared over the same
     /// ±10 % the plot shows: the switching design has a point at each end

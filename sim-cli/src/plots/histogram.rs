@@ -9,8 +9,8 @@ use crate::format::eng;
 use anyhow::Result;
 use plotters::element::DashedPathElement;
 use plotters::prelude::*;
+use sim_core::scenario::SpecLimits;
 use sim_core::study::rows::{RowExt, StudyTable};
-use sim_core::study::spread::SpecLimits;
 use std::path::Path;
 
 /// What a histogram marks: spec limits and the median.
@@ -383,8 +383,9 @@ fn histogram(cell: &Area, label: &str, unit: &str, sorted: &[f64], marks: &[Mark
 #[cfg(test)]
 mod tests {
     use super::*;
+    use sim_core::scenario::{Distribution, PartTolerance, Tolerances};
     use sim_core::study::run::{Hooks, RunSettings};
-    use sim_core::study::spread::{corners, Distribution, PartTolerance, Tolerances};
+    use sim_core::study::spread::corners;
 
     /// Corners are shown one bar per corner, each at its own value (a
     /// histogram of four deliberate extremes bins them into counts).

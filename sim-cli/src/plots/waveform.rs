@@ -559,7 +559,10 @@ fn write_over_time(
 pub(crate) mod tests {
     use super::*;
     use crate::plots::canvas::{draw_buffer, encode_png, HEIGHT};
-    use sim_core::simulate::{simulate, EngineKind, RunOptions};
+    use sim_core::{
+        run::drive::simulate,
+        run::{EngineKind, RunOptions},
+    };
 
     /// A 12 V lamp of our own: three white LEDs (exponential model, about
     /// 3 V each at 0.7 A, illustrative values) behind a constant off-time

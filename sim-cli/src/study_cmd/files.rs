@@ -5,7 +5,7 @@
 //! `sim_core::study::session`'s).
 
 use super::*;
-use crate::{output, read_text_limited, study_plot, Failure};
+use crate::{output, plots, read_text_limited, Failure};
 use anyhow::{Context, Result};
 use indicatif::ProgressBar;
 use rayon::prelude::*;
@@ -60,7 +60,7 @@ pub(super) fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec
         (StudyKind::Sweep, 1) => {
             let a = dir.join(format!("{base}-current.png"));
             let b = dir.join(format!("{base}-operation.png"));
-            study_plot::sweep_1d(t, &a, &b).context("sweep plots")?;
+            plots::sweep_1d(t, &a, &b).context("sweep plots")?;
             written.extend([a, b]);
         }
         (StudyKind::Sweep, _) => {
@@ -69,22 +69,22 @@ pub(super) fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec
             let maps = [
                 (
                     "mode-map",
-                    study_plot::MapKind::Mode,
+                    plots::MapKind::Mode,
                     format!("{name} — conduction mode over the grid"),
                 ),
                 (
                     "led-current-map",
-                    study_plot::MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
+                    plots::MapKind::Heat("led_current_avg_a", 1.0, "LED current", "A"),
                     format!("{name} — average LED current"),
                 ),
                 (
                     "ripple-map",
-                    study_plot::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
+                    plots::MapKind::Heat("led_current_ripple_pct", 1.0, "LED ripple", "%"),
                     format!("{name} — peak-to-peak LED ripple relative to the average"),
                 ),
                 (
                     "efficiency-map",
-                    study_plot::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
+                    plots::MapKind::Heat("efficiency", 100.0, "Efficiency", "%"),
                     format!("{name} — efficiency (LED power over input power)"),
                 ),
             ];
@@ -95,7 +95,7 @@ pub(super) fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec
             maps.par_iter()
                 .zip(files.par_iter())
                 .map(|((what, kind, title), file)| {
-                    study_plot::grid_map(t, *kind, title, None, file)
+                    plots::grid_map(t, *kind, title, None, file)
                         .with_context(|| what.replace('-', " "))
                 })
                 .collect::<Result<Vec<()>>>()?;
@@ -103,7 +103,7 @@ pub(super) fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec
         }
         _ => {
             let h = dir.join(format!("{base}-histograms.png"));
-            study_plot::spread_histograms(t, &h).context("histograms")?;
+            plots::spread_histograms(t, &h).context("histograms")?;
             written.push(h);
         }
     }

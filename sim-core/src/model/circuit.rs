@@ -163,9 +163,6 @@ pub struct Circuit {
     pub led_idle_v: f64,
 }
 
-// reshape shim
-pub use super::elements::sense_resistances;
-
 struct Eval {
     dx: [f64; N_STATES],
     sig: [f64; N_SIGNALS],

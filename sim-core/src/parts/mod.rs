@@ -17,7 +17,6 @@
 //! - [`fit`]: the exponential LED model fitted to datasheet points.
 
 pub mod alternatives;
-pub use crate::run::assess; // reshape shim
 pub mod bias;
 pub mod checks;
 pub mod fit;

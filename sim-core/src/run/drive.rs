@@ -7,20 +7,19 @@
 //! integer number of cycles.
 
 use super::result::{EngineKind, FitReport, Progress, RunOptions, SimResult, SteadyInfo};
-use super::shooting::{
-    averaged_guess, find_orbit, CycleMap, JacobianSource, Limits, NoOrbit, Orbit, SteadyMethod,
-};
+use super::shooting::{averaged_guess, find_orbit, CycleMap, Limits, NoOrbit, Orbit};
 use super::startup::{startup_recorder, startup_transient};
 use super::steady::{SteadyDetector, Verdict};
 use super::warnings::warnings;
-use crate::circuit::N_STATES;
 use crate::devices::ExpDevice;
-use crate::engine::ExactEngine;
 use crate::error::SimError;
+use crate::exact::engine::ExactEngine;
 use crate::metrics::{Metrics, Totals};
+use crate::model::circuit::N_STATES;
+use crate::model::seam::{state_scales, CycleEngine};
 use crate::record::{Recorder, Waveform};
 use crate::scenario::Scenario;
-use crate::simulate::{state_scales, CycleEngine};
+use crate::scenario::{JacobianSource, SteadyMethod};
 use nalgebra::Matrix3;
 
 /// Simulates a validated scenario to steady state and measures it.
@@ -133,7 +132,7 @@ const MAX_COVER_ROUNDS: usize = 3;
 /// The LED and diode current ranges (A) the measured cycles visited, when
 /// one of them lies outside the range its fit was made for.
 fn uncovered_currents(
-    c: &crate::circuit::Circuit,
+    c: &crate::model::circuit::Circuit,
     m: &Metrics,
 ) -> Option<((f64, f64), (f64, f64))> {
     let led = (m.led_current_min_a.max(0.0), m.led_current_max_a);
@@ -176,7 +175,7 @@ fn fit_warnings(s: &Scenario, fit: &FitReport, w: &mut Vec<String>) {
 /// current (their error alternates ± with zero mean, so integrals are far
 /// closer); these figures are single points, so they take the exact
 /// curve's value at the point.
-fn exact_device_voltages(c: &crate::circuit::Circuit, m: &mut Metrics) {
+fn exact_device_voltages(c: &crate::model::circuit::Circuit, m: &mut Metrics) {
     if let Some(d) = c.led_exact {
         if m.led_current_max_a > 0.0 {
             m.led_voltage_max_v = d.voltage_v(m.led_current_max_a);

@@ -2,11 +2,11 @@
 //! state was reached, the curve-fit report, the measured result and the
 //! progress a display is fed with.
 
-use super::shooting::{JacobianSource, SteadyMethod};
-use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
+use crate::model::circuit::N_STATES;
+use crate::model::seam::RunStats;
 use crate::record::Waveform;
-use crate::simulate::RunStats;
+use crate::scenario::{JacobianSource, SteadyMethod};
 use serde::Serialize;
 
 /// Which engine runs the circuit.

@@ -21,9 +21,9 @@
 //! really settles to (subharmonic, for instance).
 
 use super::steady::scaled_change;
-use crate::circuit::{Circuit, N_STATES};
 use crate::error::SimError;
-use crate::scenario::{ControllerSpec, Scenario};
+use crate::model::circuit::{Circuit, N_STATES};
+use crate::scenario::{ControllerSpec, JacobianSource, Scenario};
 use nalgebra::Matrix3;
 
 /// What shooting needs of an engine: the cycle map `x ↦ P(x)` from a
@@ -73,8 +73,6 @@ const MAX_CUTS: u32 = 6;
 const MAX_RESTARTS: u32 = 3;
 /// Ordinary cycles run after a stalled Newton round.
 const RESTART_CYCLES: u64 = 8;
-
-pub use crate::scenario::{JacobianSource, SteadyMethod}; // reshape shim
 
 /// What a successful shooting solve found.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -3,12 +3,12 @@
 
 use super::result::{EngineKind, Progress, SimResult};
 use super::steady::scaled_change;
-use crate::circuit::N_STATES;
-use crate::engine::ExactEngine;
 use crate::error::SimError;
+use crate::exact::engine::ExactEngine;
+use crate::model::circuit::N_STATES;
+use crate::model::seam::{state_scales, CycleEngine};
 use crate::record::{Recorder, Waveform};
 use crate::scenario::Scenario;
-use crate::simulate::{state_scales, CycleEngine};
 
 /// The start-up transient from power-on, recorded by a fresh engine
 /// until it has settled onto `steady`'s orbit (see [`record_startup`]) or

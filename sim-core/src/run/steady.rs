@@ -9,7 +9,7 @@
 //! as settled whatever ρ (they are round-off). An orbit that repeats every
 //! k = 2..8 cycles but not every cycle is reported as subharmonic.
 
-use crate::circuit::N_STATES;
+use crate::model::circuit::N_STATES;
 
 /// Scaled changes this small are round-off, not transient.
 pub const ROUND_OFF_FLOOR: f64 = 1e-12;

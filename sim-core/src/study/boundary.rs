@@ -13,8 +13,8 @@
 use super::run::RunSettings;
 use super::vary::{Grid, Vary};
 use super::{numeric_field, scenario_json, scenario_with, StudyError};
-use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
+use crate::model::circuit::N_STATES;
 use crate::run::{run_point, RunOptions};
 use crate::scenario::Scenario;
 use rayon::prelude::*;

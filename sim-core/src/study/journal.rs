@@ -17,7 +17,7 @@
 use super::rows::{Columns, Manifest, Row};
 use super::run::Finished;
 use super::StudyError;
-use crate::circuit::N_STATES;
+use crate::model::circuit::N_STATES;
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
 

@@ -25,8 +25,8 @@ pub use verdict::{
 };
 
 use super::run::{PointResult, Shard};
-use super::spread::SpecLimits;
 use super::StudyError;
+use crate::scenario::SpecLimits;
 use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
 use std::sync::Arc;

@@ -23,11 +23,11 @@
 //! new points from starting ([`RunSettings::deadline`]).
 
 use super::rows::Row;
-use crate::circuit::N_STATES;
 use crate::metrics::Metrics;
+use crate::model::circuit::N_STATES;
 use crate::run::{run_point, EngineKind, RunOptions};
 use crate::scenario::Scenario;
-use crate::shooting::SteadyMethod;
+use crate::scenario::SteadyMethod;
 use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::ops::Range;

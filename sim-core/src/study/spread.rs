@@ -37,9 +37,7 @@ pub use studies::{
 use super::rows::{Metric, Row, RowExt};
 use crate::units::{eng_sig, short_number};
 
-pub use crate::scenario::{
-    Distribution, LedVoltageTolerance, PartTolerance, SpecLimits, Tolerances,
-}; // reshape shim
+use crate::scenario::SpecLimits;
 
 /// A pass/fail test of one row.
 pub type RowTest<'a> = Box<dyn Fn(&Row) -> bool + 'a>;

@@ -8,8 +8,8 @@ use super::rows::{
 use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
 use super::vary::Grid;
 use super::{scenario_json, scenario_with};
+use crate::run::EngineKind;
 use crate::scenario::{ControllerSpec, Scenario};
-use crate::simulate::EngineKind;
 use std::ops::Range;
 
 /// The manifest fields every study shares.

@@ -68,7 +68,7 @@ fn metric_columns_flatten_losses() {
 #[test]
 fn typed_columns_match_the_serialised_metrics() {
     let s = crate::scenario::template();
-    let r = crate::simulate::simulate(&s, &crate::simulate::RunOptions::default()).unwrap();
+    let r = crate::run::simulate(&s, &crate::run::RunOptions::default()).unwrap();
     let flat = flat_metrics(&r.metrics);
     let names: Vec<&str> = Metric::ALL.iter().map(|m| m.name()).collect();
     let keys: Vec<&str> = flat.keys().map(String::as_str).collect();

@@ -2,7 +2,7 @@
 //! draws (sample `k` from ChaCha8 stream `k`) and extremes, and a
 //! sample applied to the scenario.
 
-use super::Distribution;
+use crate::scenario::Distribution;
 use crate::scenario::{Load, Scenario};
 use crate::study::{numeric_field, scenario_json, scenario_with, StudyError};
 use crate::units::{eng_exact, short_number, thermal_voltage_v, Unit};

@@ -2,7 +2,7 @@
 //! metric, the yield against the spec limits with its Wilson interval,
 //! and the worst point for each limit.
 
-use super::SpecLimits;
+use crate::scenario::SpecLimits;
 use crate::study::rows::{Incomplete, Metric, Row, RowExt, StudyTable};
 use serde::Serialize;
 

@@ -3,9 +3,9 @@
 //! parallel.
 
 use super::sampling::*;
-use super::SpecLimits;
 use crate::run::{run_point, RunOptions};
 use crate::scenario::Scenario;
+use crate::scenario::SpecLimits;
 use crate::study::rows::{Manifest, ShardInfo, StudyKind, StudyTable};
 use crate::study::run::{Hooks, PointInput, RunSettings, Shard};
 use crate::study::sweep::{base_manifest, run_table};
