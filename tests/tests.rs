@@ -7,6 +7,7 @@ mod controller_edges;
 mod figures;
 mod fit_accuracy;
 mod junction_temperature;
+mod layering;
 mod part_checks;
 mod part_heat;
 mod parts;

@@ -14,20 +14,20 @@ use crate::units::{thermal_voltage_v, BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C, ZE
 /// nitride at room temperature, 3.4 eV (**from memory**). With XTI = 3 it
 /// gives an InGaN LED at 2.6–3.1 V of junction voltage a forward-voltage
 /// coefficient of about −1 to −3 mV/K, the range datasheets show.
-pub const LED_BANDGAP_EV: f64 = 3.4;
+pub(crate) const LED_BANDGAP_EV: f64 = 3.4;
 /// Default saturation-current temperature exponent XTI of an LED (the
 /// pn-junction value 3, **from memory**).
-pub const LED_IS_TEMP_EXPONENT: f64 = 3.0;
+pub(crate) const LED_IS_TEMP_EXPONENT: f64 = 3.0;
 /// Default band gap of the Shockley diode's temperature law, eV: a
 /// Schottky barrier, about 0.69 eV (**from memory**). A silicon pn diode
 /// is 1.11 eV with XTI = 3 (**from memory**).
-pub const DIODE_BANDGAP_EV: f64 = 0.69;
+pub(crate) const DIODE_BANDGAP_EV: f64 = 0.69;
 /// Default saturation-current temperature exponent XTI of the Shockley
 /// diode (Schottky barrier: 2, **from memory**).
-pub const DIODE_IS_TEMP_EXPONENT: f64 = 2.0;
+pub(crate) const DIODE_IS_TEMP_EXPONENT: f64 = 2.0;
 /// Temperature a saturation current holds at unless the scenario says
 /// otherwise, °C (the usual datasheet temperature).
-pub const DEFAULT_REFERENCE_C: f64 = 25.0;
+pub(crate) const DEFAULT_REFERENCE_C: f64 = 25.0;
 
 /// How a junction's saturation current follows its temperature (Sze,
 /// *Physics of Semiconductor Devices*, the diode saturation current's
@@ -114,7 +114,7 @@ impl JunctionLaw {
 /// reference temperature. From the model v_j = n·Vt·ln(1 + i/Is(T)):
 /// dv_j/dT = (v_j − f·(XTI·Vt + E_g/q))/T with f = i/(i + Is), so
 /// E_g/q = (v_j − T·dv_j/dT)/f − XTI·Vt.
-pub fn bandgap_from_tempco_ev(
+pub(crate) fn bandgap_from_tempco_ev(
     is0: f64,
     n: f64,
     reference_c: f64,
@@ -130,11 +130,11 @@ pub fn bandgap_from_tempco_ev(
 }
 
 /// Most straight segments a piecewise-linear curve may have.
-pub const MAX_SEGMENTS: usize = 64;
+pub(crate) const MAX_SEGMENTS: usize = 64;
 
 /// Share of a fitted range's top below which a range reaching towards
 /// zero current is covered by the tail segment (see [`PwlCurve::fit`]).
-pub const TAIL_SHARE: f64 = 0.01;
+pub(crate) const TAIL_SHARE: f64 = 0.01;
 
 /// A string of identical junctions as plain numbers (what an exponential
 /// LED load or a Shockley diode states), from which [`ExpDevice::at_temperature`]
@@ -641,15 +641,15 @@ mod tests {
 }
 
 /// Most user points in an inductance-versus-current curve.
-pub const MAX_L_POINTS: usize = 8;
+pub(crate) const MAX_L_POINTS: usize = 8;
 /// Straight pieces of ψ(i) the exact engine uses per interval between two
 /// user points (32: on the cross-check case the LED average then agrees
 /// with the continuous-L reference to 2e-6, against 6e-4 with 8 and 1.3e-4
 /// with 16).
-pub const L_SUBDIVISIONS: usize = 32;
+pub(crate) const L_SUBDIVISIONS: usize = 32;
 /// Most constant-inductance segments (user intervals × subdivisions, plus
 /// the ends).
-pub const MAX_L_SEGMENTS: usize = (MAX_L_POINTS - 1) * L_SUBDIVISIONS + 2;
+pub(crate) const MAX_L_SEGMENTS: usize = (MAX_L_POINTS - 1) * L_SUBDIVISIONS + 2;
 // Region::l_segment is a u8.
 const _: () = assert!(MAX_L_SEGMENTS <= 255);
 

@@ -36,7 +36,7 @@ pub const COL_VIN: usize = 5;
 pub const COL_SWITCH: usize = 6;
 
 /// One recorded sample.
-pub type Sample = [f64; 7];
+pub(crate) type Sample = [f64; 7];
 
 /// A recorded stretch of waveforms.
 #[derive(Debug, Clone, PartialEq)]
@@ -268,7 +268,7 @@ impl Waveform {
 /// `current_ref_a`, the LED and input-node voltages against their steady
 /// values (the largest of the four). Infinite when there is no steady
 /// sample.
-pub fn distance_from_steady(s: &Sample, steady_on: &[Sample], current_ref_a: f64) -> f64 {
+pub(crate) fn distance_from_steady(s: &Sample, steady_on: &[Sample], current_ref_a: f64) -> f64 {
     let i_ref = current_ref_a.abs().max(1e-9);
     steady_on
         .iter()

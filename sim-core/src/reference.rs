@@ -43,7 +43,7 @@ use ode_solvers::dop_shared::IntegrationError;
 use ode_solvers::{Dopri5, OutputType, System};
 
 /// Relative tolerance of the integrator.
-pub const RTOL: f64 = 1e-10;
+pub(crate) const RTOL: f64 = 1e-10;
 
 /// Absolute tolerance of the integrator, on the scaled state: 1e-12 of the
 /// current scale for the inductor current, of the supply voltage for the
@@ -51,10 +51,10 @@ pub const RTOL: f64 = 1e-10;
 /// Every scaled component is of order one over an interval, so this is
 /// two decades below [`RTOL`] and only matters where a component passes
 /// through zero.
-pub const ATOL: f64 = 1e-12;
+pub(crate) const ATOL: f64 = 1e-12;
 
 /// Interior extremes are refined to within this time, s.
-pub const EXTREME_TIME_TOL_S: f64 = 1e-17;
+pub(crate) const EXTREME_TIME_TOL_S: f64 = 1e-17;
 
 /// Most accepted integrator steps in one interval between events.
 const MAX_STEPS_PER_INTERVAL: u32 = 2_000_000;

@@ -8,11 +8,11 @@
 //! constants used for the thermal voltage.
 
 /// Boltzmann constant, J/K (CODATA 2018, exact by the 2019 SI definition).
-pub const BOLTZMANN_J_PER_K: f64 = 1.380_649e-23;
+pub(crate) const BOLTZMANN_J_PER_K: f64 = 1.380_649e-23;
 /// Elementary charge, C (CODATA 2018, exact by the 2019 SI definition).
-pub const ELEMENTARY_CHARGE_C: f64 = 1.602_176_634e-19;
+pub(crate) const ELEMENTARY_CHARGE_C: f64 = 1.602_176_634e-19;
 /// Offset between degrees Celsius and kelvin.
-pub const ZERO_CELSIUS_K: f64 = 273.15;
+pub(crate) const ZERO_CELSIUS_K: f64 = 273.15;
 
 /// Thermal voltage kT/q in volts at a temperature in degrees Celsius.
 pub fn thermal_voltage_v(temperature_c: f64) -> f64 {
@@ -201,7 +201,7 @@ fn suffix_exponent(suffix: &str, unit: Unit) -> Option<(i32, bool)> {
 ///
 /// `None` for zero, non-finite values and values outside the prefixes the
 /// loader accepts (femto to giga): those read better as plain numbers.
-pub fn exact_engineering_text(v: f64, symbol: &str) -> Option<String> {
+pub(crate) fn exact_engineering_text(v: f64, symbol: &str) -> Option<String> {
     if v == 0.0 || !v.is_finite() {
         return None;
     }
@@ -342,7 +342,7 @@ pub fn eng(v: f64, unit: &str) -> String {
 /// exactly (`1.7060570312820633e-5` with `H` is `17.060570312820633 µH`),
 /// for messages that quote a value. Beyond femto to giga, and without a
 /// unit that takes prefixes, the plain shortest form (`1e-18 A`).
-pub fn eng_exact(v: f64, unit: Unit) -> String {
+pub(crate) fn eng_exact(v: f64, unit: Unit) -> String {
     let symbol = unit.display_symbol();
     let text = if unit.takes_prefix() {
         exact_engineering_text(v, "")
@@ -372,7 +372,7 @@ pub fn eng_exact(v: f64, unit: Unit) -> String {
 
 /// A number without a prefix in its shortest exact form: decimal between
 /// 1e-4 and 1e6, else scientific (`1e-18`).
-pub fn plain_number(v: f64) -> String {
+pub(crate) fn plain_number(v: f64) -> String {
     if v == 0.0 {
         return "0".into();
     }

@@ -27,7 +27,7 @@ mod tests;
 pub use scan::{first_event, EventFn, ScanResult, ScanStart, MAX_EVENTS};
 
 /// Time resolution of event location, s.
-pub const EVENT_TIME_TOL_S: f64 = 1e-14;
+pub(crate) const EVENT_TIME_TOL_S: f64 = 1e-14;
 
 /// Counts of the work done, for statistics and benchmarks.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq, serde::Serialize)]
@@ -124,7 +124,7 @@ pub fn advance(m: &AugMatrix, t: f64, z: &Aug, work: &mut WorkCounts) -> Aug {
 }
 
 /// `e^{M t}` by scaling and squaring a degree-12 Taylor polynomial.
-pub fn expm_taylor(m: &AugMatrix, t: f64) -> AugMatrix {
+pub(crate) fn expm_taylor(m: &AugMatrix, t: f64) -> AugMatrix {
     let theta = m.abs().row_sum().max() * t.abs();
     let mut s = 0;
     let mut scale = 1.0;
@@ -184,6 +184,6 @@ pub fn gramian(m: &AugMatrix, z0: &Aug, h: f64, work: &mut WorkCounts) -> (AugMa
 
 /// `r · z`, written out (the generic product's loop does not unroll).
 #[inline]
-pub fn dot4(r: &Row, z: &Aug) -> f64 {
+pub(crate) fn dot4(r: &Row, z: &Aug) -> f64 {
     r[0] * z[0] + r[1] * z[1] + r[2] * z[2] + r[3] * z[3]
 }

@@ -23,22 +23,22 @@ use nalgebra::{SMatrix, SVector};
 /// Number of circuit states (inductor current, output and input capacitor voltages).
 pub const N_STATES: usize = 3;
 /// Size of the augmented state `[x, 1]`.
-pub const N_AUG: usize = N_STATES + 1;
+pub(crate) const N_AUG: usize = N_STATES + 1;
 /// The augmented state.
 pub type Aug = SVector<f64, N_AUG>;
 /// An augmented state matrix.
-pub type AugMatrix = SMatrix<f64, N_AUG, N_AUG>;
+pub(crate) type AugMatrix = SMatrix<f64, N_AUG, N_AUG>;
 /// A row of coefficients on the augmented state.
 pub type Row = nalgebra::RowSVector<f64, N_AUG>;
 
 /// State index of the inductor current, A.
 pub const X_IL: usize = 0;
 /// State index of the output capacitor voltage, V.
-pub const X_VCO: usize = 1;
+pub(crate) const X_VCO: usize = 1;
 /// State index of the input capacitor voltage, V.
-pub const X_VCIN: usize = 2;
+pub(crate) const X_VCIN: usize = 2;
 /// Index of the constant 1 in the augmented state.
-pub const X_ONE: usize = 3;
+pub(crate) const X_ONE: usize = 3;
 
 /// The circuit signals every region expresses as rows on `z`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -68,7 +68,7 @@ pub enum Signal {
 }
 
 /// Number of [`Signal`]s.
-pub const N_SIGNALS: usize = 11;
+pub(crate) const N_SIGNALS: usize = 11;
 
 /// Which linear piece of the circuit applies.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]

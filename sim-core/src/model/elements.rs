@@ -76,7 +76,7 @@ pub struct Elements {
 
 /// The sense resistance `(in series with the LED string, in series with
 /// the switch)` of a scenario, ohms (0 where there is none).
-pub fn sense_resistances(s: &Scenario) -> (f64, f64) {
+pub(crate) fn sense_resistances(s: &Scenario) -> (f64, f64) {
     match s.sense_position() {
         Some((SensePosition::LedString, r)) => (r, 0.0),
         Some((SensePosition::Switch, r)) => (0.0, r),

@@ -19,7 +19,7 @@ use crate::scenario::Scenario;
 /// Headroom a linear LED current regulator needs across its pass element
 /// and sense resistor, V (**common practice**: about a volt for the usual
 /// integrated parts; check the chosen part's dropout).
-pub const LINEAR_HEADROOM_V: f64 = 1.0;
+pub(crate) const LINEAR_HEADROOM_V: f64 = 1.0;
 
 /// The supply span either side of nominal compared when the scenario
 /// declares no input range: ±10 % (common practice for a regulated

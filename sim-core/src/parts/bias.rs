@@ -18,7 +18,7 @@ use crate::scenario::{BiasPoint, Capacitor, CapacitorData, Dielectric};
 
 /// Typical capacitance fraction versus bias fraction of the rated voltage
 /// for a class, as (bias fraction, capacitance fraction); **from memory**.
-pub fn typical_curve(d: Dielectric) -> &'static [(f64, f64)] {
+pub(crate) fn typical_curve(d: Dielectric) -> &'static [(f64, f64)] {
     match d {
         Dielectric::X7r => &[
             (0.0, 1.0),
@@ -86,20 +86,20 @@ pub fn capacitance_fraction(data: &CapacitorData, v: f64) -> f64 {
 }
 
 /// Whether the capacitance of this part depends on its bias.
-pub fn bias_dependent(data: &CapacitorData) -> bool {
+pub(crate) fn bias_dependent(data: &CapacitorData) -> bool {
     data.voltage_rating_v.is_some()
         && (!data.bias_curve.is_empty() || typical_curve(data.dielectric).len() > 1)
 }
 
 /// Effective capacitance at a DC bias, F.
-pub fn effective_capacitance_f(cap: &Capacitor, data: &CapacitorData, v: f64) -> f64 {
+pub(crate) fn effective_capacitance_f(cap: &Capacitor, data: &CapacitorData, v: f64) -> f64 {
     cap.capacitance_f * capacitance_fraction(data, v)
 }
 
 /// The voltage-derating rule of a class: the largest applied peak voltage
 /// as a fraction of the rating, and where the rule comes from. All are
 /// **common practice** (no single published standard).
-pub fn voltage_derating(d: Dielectric) -> (f64, &'static str) {
+pub(crate) fn voltage_derating(d: Dielectric) -> (f64, &'static str) {
     match d {
         Dielectric::Tantalum => (
             0.5,
@@ -125,7 +125,7 @@ pub fn voltage_derating(d: Dielectric) -> (f64, &'static str) {
 
 /// Ripple-current margin rule of a class: the fraction of the rated ripple
 /// current above which a warning is given, and why (**common practice**).
-pub fn ripple_margin(d: Dielectric) -> (f64, &'static str) {
+pub(crate) fn ripple_margin(d: Dielectric) -> (f64, &'static str) {
     match d {
         Dielectric::AluminiumElectrolytic => (
             0.7,

@@ -130,12 +130,12 @@ fn row(
 
 /// Margin below a part's maximum temperature inside which a temperature
 /// check warns, K (**common practice**).
-pub const TEMPERATURE_MARGIN_K: f64 = 10.0;
+pub(crate) const TEMPERATURE_MARGIN_K: f64 = 10.0;
 
 /// The status of a temperature against its maximum: fail above it, warn
 /// within [`TEMPERATURE_MARGIN_K`] kelvin below it (a difference of
 /// temperatures, never a fraction of a Celsius value).
-pub fn temperature_status(t_c: f64, max_c: f64) -> Status {
+pub(crate) fn temperature_status(t_c: f64, max_c: f64) -> Status {
     if t_c > max_c {
         Status::Fail
     } else if t_c > max_c - TEMPERATURE_MARGIN_K {
@@ -150,7 +150,7 @@ pub fn temperature_status(t_c: f64, max_c: f64) -> Status {
 /// current (Erickson & Maksimovic, Fundamentals of Power Electronics,
 /// 3rd ed., ch. 2, capacitor charge balance applied to the input
 /// capacitor).
-pub fn buck_input_ripple_rms_a(i_out_a: f64, duty: f64) -> f64 {
+pub(crate) fn buck_input_ripple_rms_a(i_out_a: f64, duty: f64) -> f64 {
     let d = duty.clamp(0.0, 1.0);
     i_out_a.abs() * (d * (1.0 - d)).sqrt()
 }
@@ -536,11 +536,11 @@ pub fn worst(checks: &[Check]) -> Status {
 /// Allowed change of the average LED current over the declared input
 /// range when `parts.current_accuracy_pct` is not given, % (**common
 /// practice**).
-pub const DEFAULT_REGULATION_PCT: f64 = 10.0;
+pub(crate) const DEFAULT_REGULATION_PCT: f64 = 10.0;
 
 /// One end of the declared input range, as the assessment met it.
 #[derive(Debug, Clone, PartialEq)]
-pub enum RangeEnd {
+pub(crate) enum RangeEnd {
     /// The design ran there and delivered this average LED current.
     Ran {
         /// Supply voltage, V.
@@ -568,7 +568,7 @@ pub enum RangeEnd {
 /// from the nominal supply's `nominal_led_avg_a`, in %, against
 /// `parts.current_accuracy_pct` (else [`DEFAULT_REGULATION_PCT`]); warn
 /// above half of it (common practice).
-pub fn range_checks(s: &Scenario, nominal_led_avg_a: f64, ends: &[RangeEnd]) -> Vec<Check> {
+pub(crate) fn range_checks(s: &Scenario, nominal_led_avg_a: f64, ends: &[RangeEnd]) -> Vec<Check> {
     let mut c = Vec::new();
     let regulating = s.target_current_a().is_some() || s.parts.led_current_target_a.is_some();
     let mut worst: Option<(f64, f64)> = None;
@@ -639,7 +639,7 @@ pub fn range_checks(s: &Scenario, nominal_led_avg_a: f64, ends: &[RangeEnd]) -> 
 /// check, the row with the worst status (between equal statuses, the
 /// larger severity), in the order first met; a row that appears at only
 /// some supplies is kept.
-pub fn worst_over_supplies(tables: &[Vec<Check>]) -> Vec<Check> {
+pub(crate) fn worst_over_supplies(tables: &[Vec<Check>]) -> Vec<Check> {
     let mut out: Vec<Check> = Vec::new();
     for t in tables {
         for r in t {

@@ -104,15 +104,15 @@ fn check_points(points: &[(f64, f64)], offset: usize) -> Result<(), FitError> {
 }
 
 /// Largest current and voltage of a datasheet point (one LED), A and V.
-pub const MAX_POINT_CURRENT_A: f64 = 1e3;
+pub(crate) const MAX_POINT_CURRENT_A: f64 = 1e3;
 /// Largest forward voltage of one LED at a datasheet point, V.
-pub const MAX_POINT_VOLTAGE_V: f64 = 100.0;
+pub(crate) const MAX_POINT_VOLTAGE_V: f64 = 100.0;
 /// Junction temperatures the fit accepts, °C (the loader's range of
 /// `load.junction_temperature_c`).
-pub const TEMPERATURE_RANGE_C: (f64, f64) = (-60.0, 250.0);
+pub(crate) const TEMPERATURE_RANGE_C: (f64, f64) = (-60.0, 250.0);
 /// Largest forward-voltage tempco, V/K (the loader's range of
 /// `parts.led.forward_voltage_tempco_v_per_k`).
-pub const TEMPCO_LIMIT_V_PER_K: f64 = 0.05;
+pub(crate) const TEMPCO_LIMIT_V_PER_K: f64 = 0.05;
 
 /// The temperatures and a given tempco: finite and inside the ranges a
 /// scenario accepts.

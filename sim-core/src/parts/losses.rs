@@ -55,7 +55,7 @@ use crate::scenario::{ControllerFeed, Core, Scenario};
 
 /// Energy of one switching edge, J: the linear-ramp estimate ½·V·I·t
 /// (voltage and current overlap as straight ramps for time `t_s`).
-pub fn transition_energy_j(v: f64, i: f64, t_s: f64) -> f64 {
+pub(crate) fn transition_energy_j(v: f64, i: f64, t_s: f64) -> f64 {
     0.5 * v * i * t_s
 }
 
@@ -65,7 +65,7 @@ pub fn gate_drive_power_w(gate_charge_c: f64, drive_v: f64, frequency_hz: f64) -
 }
 
 /// Energy of an output capacitance charged to `v`, J: ½·C·V².
-pub fn output_capacitance_energy_j(c_f: f64, v: f64) -> f64 {
+pub(crate) fn output_capacitance_energy_j(c_f: f64, v: f64) -> f64 {
     0.5 * c_f * v * v
 }
 
@@ -98,7 +98,7 @@ pub fn abs_cos_power_integral(alpha: f64) -> f64 {
 /// The iGSE coefficient k_i from the sinusoidal Steinmetz coefficients
 /// (Venkatachalam et al., IEEE COMPEL 2002, eq. for k_i):
 /// k_i = k / ((2π)^(α−1)·∫₀^{2π} |cos θ|^α·2^(β−α) dθ).
-pub fn igse_ki(k: f64, alpha: f64, beta: f64) -> f64 {
+pub(crate) fn igse_ki(k: f64, alpha: f64, beta: f64) -> f64 {
     let two_pi = std::f64::consts::TAU;
     k / (two_pi.powf(alpha - 1.0) * 2f64.powf(beta - alpha) * abs_cos_power_integral(alpha))
 }
@@ -142,7 +142,7 @@ pub fn flux_peak_t(inductance_h: f64, ripple_pp_a: f64, turns: u32, area_m2: f64
 
 /// The voltage the controller and gate driver draw their power at, V:
 /// the supply, or the separate rail at the gate-drive voltage.
-pub fn controller_feed_v(s: &Scenario) -> f64 {
+pub(crate) fn controller_feed_v(s: &Scenario) -> f64 {
     match s.parts.controller.fed_from {
         ControllerFeed::Input => s.supply.voltage_v,
         ControllerFeed::SeparateRail => s.parts.switch.gate_drive_v,
@@ -165,7 +165,7 @@ fn flux_density_points(s: &Scenario, core: &Core, w: &Waveform) -> Vec<(f64, f64
 
 /// The part losses of the measured cycles in `t`, J; `w` is the waveform
 /// recorded over the same cycles (for the core loss).
-pub fn part_loss_energies(s: &Scenario, t: &Totals, w: &Waveform) -> LossEnergies {
+pub(crate) fn part_loss_energies(s: &Scenario, t: &Totals, w: &Waveform) -> LossEnergies {
     let p = &s.parts;
     let e = &t.edges;
     let sw = &p.switch;
@@ -202,7 +202,7 @@ pub fn part_loss_energies(s: &Scenario, t: &Totals, w: &Waveform) -> LossEnergie
 
 /// Adds the part losses to `t`: to the losses and, as energy drawn from the
 /// supply, to `e_in` (and `e_parts`), so the balance still closes.
-pub fn apply(s: &Scenario, t: &mut Totals, w: &Waveform) {
+pub(crate) fn apply(s: &Scenario, t: &mut Totals, w: &Waveform) {
     let l = part_loss_energies(s, t, w);
     let extra = l.total();
     t.loss.add(&l);

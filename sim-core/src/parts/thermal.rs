@@ -20,7 +20,7 @@ use serde::Serialize;
 /// Surface temperature above which a part burns a finger that touches it,
 /// °C (**common practice**: about 60 °C is where brief contact starts to
 /// hurt; no standard is applied).
-pub const TOUCH_HOT_C: f64 = 60.0;
+pub(crate) const TOUCH_HOT_C: f64 = 60.0;
 
 /// One part's estimated steady temperature.
 #[derive(Debug, Clone, Serialize, PartialEq)]
@@ -42,7 +42,7 @@ pub struct PartTemperature {
 /// output capacitance and the diode junction capacitance it charges; the
 /// gate drive heats the driver, not the channel),
 /// diode (conduction, recovery), inductor (winding, core), capacitors (ESR).
-pub fn dissipations(m: &Metrics) -> [(&'static str, f64); 5] {
+pub(crate) fn dissipations(m: &Metrics) -> [(&'static str, f64); 5] {
     let l = &m.losses_w;
     [
         (
@@ -60,7 +60,7 @@ pub fn dissipations(m: &Metrics) -> [(&'static str, f64); 5] {
 }
 
 /// Number of LEDs in the string (1 for a resistor load).
-pub fn led_count(load: &Load) -> u32 {
+pub(crate) fn led_count(load: &Load) -> u32 {
     match *load {
         Load::LedExponential { count, .. } | Load::LedKnee { count, .. } => count.max(1),
         Load::Resistor { .. } => 1,
@@ -69,7 +69,7 @@ pub fn led_count(load: &Load) -> u32 {
 
 /// The LED junction temperature for a run's LED power, °C (None without
 /// LED thermal data).
-pub fn led_junction_c(s: &Scenario, m: &Metrics) -> Option<f64> {
+pub(crate) fn led_junction_c(s: &Scenario, m: &Metrics) -> Option<f64> {
     let led = s.parts.led?;
     let per_led = led.heat_fraction * m.led_power_w / f64::from(led_count(&s.load));
     Some(s.parts.ambient_temperature_c + led.resistance_c_per_w * per_led)
@@ -115,7 +115,7 @@ pub fn temperatures(s: &Scenario, m: &Metrics) -> Vec<PartTemperature> {
 /// scaled by exp(−shift/(n·Vt)), which moves v = n·Vt·ln(1 + i/Is) + Rs·i
 /// by `shift_v` at every current well above Is (all operating currents);
 /// for the knee model the knee moves; a resistor is unchanged.
-pub fn shifted_load(load: &Load, shift_v: f64) -> Load {
+pub(crate) fn shifted_load(load: &Load, shift_v: f64) -> Load {
     let mut out = *load;
     match &mut out {
         Load::LedExponential {
@@ -163,7 +163,7 @@ pub fn load_with_led_tempco(s: &Scenario) -> Load {
 /// follows the junction law, [`crate::devices::JunctionLaw`]: the same
 /// model as a scenario's `load.junction_temperature_c`); the knee model's
 /// knee moves by `parts.led.forward_voltage_tempco_v_per_k`·(T_j − 25 °C).
-pub fn load_at_junction(s: &Scenario, t_j_c: f64) -> Load {
+pub(crate) fn load_at_junction(s: &Scenario, t_j_c: f64) -> Load {
     let mut out = load_with_led_tempco(s);
     match &mut out {
         Load::LedExponential {
@@ -185,7 +185,7 @@ pub fn load_at_junction(s: &Scenario, t_j_c: f64) -> Load {
 /// Whether the LED load's voltage depends on its junction temperature
 /// (so the temperature loop must iterate): always for the exponential
 /// model, for the knee model when a coefficient is given.
-pub fn led_depends_on_temperature(s: &Scenario) -> bool {
+pub(crate) fn led_depends_on_temperature(s: &Scenario) -> bool {
     s.parts.led.is_some_and(|l| match s.load {
         Load::LedExponential { .. } => true,
         Load::LedKnee { .. } => l.forward_voltage_tempco_v_per_k != 0.0,
@@ -196,7 +196,7 @@ pub fn led_depends_on_temperature(s: &Scenario) -> bool {
 /// The temperature the LED model's parameters hold at, °C: the junction
 /// temperature the exponential model is evaluated at, 25 °C for the knee
 /// model.
-pub fn model_temperature_c(load: &Load) -> f64 {
+pub(crate) fn model_temperature_c(load: &Load) -> f64 {
     match *load {
         Load::LedExponential {
             junction_temperature_c,

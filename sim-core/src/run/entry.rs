@@ -34,7 +34,7 @@ pub enum Purpose {
 
 /// Whether the resistor and linear alternatives apply: they are for LED
 /// strings.
-pub fn alternatives_apply(s: &Scenario) -> bool {
+pub(crate) fn alternatives_apply(s: &Scenario) -> bool {
     !matches!(s.load, Load::Resistor { .. })
 }
 

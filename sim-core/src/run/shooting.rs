@@ -56,14 +56,14 @@ pub trait CycleMap {
 }
 
 /// Scaled residual `max |P(x) − x| / scale` at which the orbit is found.
-pub const RESIDUAL_TARGET: f64 = 1e-12;
+pub(crate) const RESIDUAL_TARGET: f64 = 1e-12;
 /// Newton iterations allowed in one round (between fit updates).
-pub const MAX_ITERATIONS: u32 = 30;
+pub(crate) const MAX_ITERATIONS: u32 = 30;
 /// Rounds of "converge, let the fits follow, converge again".
-pub const MAX_FIT_ROUNDS: u32 = 6;
+pub(crate) const MAX_FIT_ROUNDS: u32 = 6;
 /// Ordinary cycles run before the first Newton step, so the curve fits
 /// have seen the currents of a real cycle.
-pub const WARM_UP_CYCLES: u64 = 2;
+pub(crate) const WARM_UP_CYCLES: u64 = 2;
 /// Relative size of a forward-difference step (of the state's scale).
 const FD_STEP: f64 = 1e-6;
 /// Step cuts tried before a Newton round gives up.

@@ -13,7 +13,7 @@ use crate::scenario::Scenario;
 /// The start-up transient from power-on, recorded by a fresh engine
 /// until it has settled onto `steady`'s orbit (see [`record_startup`]) or
 /// the scenario's caps.
-pub fn startup_transient(
+pub(crate) fn startup_transient(
     s: &Scenario,
     engine: EngineKind,
     steady: &SimResult,
@@ -53,7 +53,7 @@ pub(crate) fn startup_recorder() -> Recorder {
 
 /// Scaled distance from the steady state at which a recorded start-up
 /// has settled to the eye (a thousandth of the scale).
-pub const STARTUP_SETTLED: f64 = 1e-3;
+pub(crate) const STARTUP_SETTLED: f64 = 1e-3;
 
 /// Records the start-up transient from power-on by cycling a fresh
 /// engine until, for two recorded cycles in a row, its turn-on state is

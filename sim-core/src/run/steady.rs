@@ -12,14 +12,18 @@
 use crate::model::circuit::N_STATES;
 
 /// Scaled changes this small are round-off, not transient.
-pub const ROUND_OFF_FLOOR: f64 = 1e-12;
+pub(crate) const ROUND_OFF_FLOOR: f64 = 1e-12;
 const HISTORY: usize = 10;
 /// Longest subharmonic period looked for, cycles.
-pub const MAX_SUBHARMONIC: usize = 8;
+pub(crate) const MAX_SUBHARMONIC: usize = 8;
 
 /// The largest per-state difference of two states, each in units of its
 /// scale: the measure of "how far apart" every steady-state test uses.
-pub fn scaled_change(a: &[f64; N_STATES], b: &[f64; N_STATES], scale: &[f64; N_STATES]) -> f64 {
+pub(crate) fn scaled_change(
+    a: &[f64; N_STATES],
+    b: &[f64; N_STATES],
+    scale: &[f64; N_STATES],
+) -> f64 {
     (0..N_STATES)
         .map(|i| (a[i] - b[i]).abs() / scale[i])
         .fold(0.0, f64::max)

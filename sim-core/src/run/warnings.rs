@@ -7,7 +7,7 @@ use crate::scenario::{IntendedMode, Scenario};
 
 /// Idle share of the period above which DCM is called deep: the current
 /// collapses early in every off-time and rests at zero most of the cycle.
-pub const DEEP_DCM_IDLE: f64 = 0.5;
+pub(crate) const DEEP_DCM_IDLE: f64 = 0.5;
 
 /// The DCM warning: how deep, whether it contradicts the stated intent,
 /// and (constant off-time) the inductance that would just keep the
@@ -60,7 +60,7 @@ fn dcm_words(s: &Scenario, m: &Metrics) -> String {
 
 /// Supply voltage above which the usual safety-extra-low-voltage limit is
 /// passed, V (60 V DC; from memory).
-pub const SELV_LIMIT_V: f64 = 60.0;
+pub(crate) const SELV_LIMIT_V: f64 = 60.0;
 
 /// The warnings of a measured run (`order`: cycles per orbit).
 pub(crate) fn warnings(s: &Scenario, m: &Metrics, order: usize) -> Vec<String> {

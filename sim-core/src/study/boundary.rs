@@ -48,7 +48,7 @@ impl Default for BoundarySettings {
 /// The signed distance from the CCM/DCM boundary of one steady state:
 /// positive in CCM (valley over average), negative in DCM (minus the idle
 /// fraction of the period), zero on the boundary.
-pub fn signed_margin(m: &Metrics) -> f64 {
+pub(crate) fn signed_margin(m: &Metrics) -> f64 {
     if m.idle_time_s > 0.0 {
         -m.idle_time_s / m.period_s
     } else {

@@ -14,25 +14,25 @@
 use crate::scenario::Scenario;
 
 /// Bytes of one recorded waveform sample (seven `f64` columns).
-pub const SAMPLE_BYTES: u64 = 7 * 8;
+pub(crate) const SAMPLE_BYTES: u64 = 7 * 8;
 
 /// Bytes of one sample in the waveform CSV, at most (seven numbers of up
 /// to 24 characters and their separators).
-pub const CSV_SAMPLE_BYTES: u64 = 7 * 25;
+pub(crate) const CSV_SAMPLE_BYTES: u64 = 7 * 25;
 
 /// Samples the bounded start-up recorder holds at most.
-pub const STARTUP_SAMPLES: u64 = 400_000;
+pub(crate) const STARTUP_SAMPLES: u64 = 400_000;
 
 /// Bytes a study row takes in memory, per metric column (a cell and its
 /// share of the row's bookkeeping), at most.
-pub const ROW_BYTES_PER_COLUMN: u64 = 32;
+pub(crate) const ROW_BYTES_PER_COLUMN: u64 = 32;
 
 /// Bytes a study row's text takes in the table files and the journal,
 /// per metric column (JSON name and value, CSV value), at most.
-pub const ROW_TEXT_BYTES_PER_COLUMN: u64 = 40;
+pub(crate) const ROW_TEXT_BYTES_PER_COLUMN: u64 = 40;
 
 /// Fixed bytes per row (index, inputs, status, error text).
-pub const ROW_FIXED_BYTES: u64 = 512;
+pub(crate) const ROW_FIXED_BYTES: u64 = 512;
 
 /// The most a request may use. The defaults fit an ordinary desktop and
 /// every bundled example many times over.
@@ -92,7 +92,7 @@ pub struct BudgetError {
 }
 
 /// A byte count in words (binary prefixes), e.g. `1.0 GiB`.
-pub fn bytes_text(b: u64) -> String {
+pub(crate) fn bytes_text(b: u64) -> String {
     const UNITS: [&str; 6] = ["B", "KiB", "MiB", "GiB", "TiB", "PiB"];
     let mut v = b as f64;
     let mut k = 0;
@@ -110,7 +110,7 @@ pub fn bytes_text(b: u64) -> String {
 /// Intervals between events in one switching cycle, at most: on, off,
 /// idle and a blanking or delay, plus a chord boundary of each fitted
 /// curve (LED and diode) crossed on the way up and down.
-pub fn intervals_per_cycle(s: &Scenario) -> u64 {
+pub(crate) fn intervals_per_cycle(s: &Scenario) -> u64 {
     4 + 4 * u64::from(s.simulation.curve_segments)
 }
 

@@ -149,7 +149,7 @@ pub fn scenario_json(s: &Scenario) -> serde_json::Value {
 }
 
 /// Formats a number so that it reads back as exactly the same `f64`.
-pub fn exact_text(v: f64) -> String {
+pub(crate) fn exact_text(v: f64) -> String {
     format!("{v:e}")
 }
 
@@ -168,7 +168,7 @@ pub fn scenario_with(
 
 /// The numeric value at a dotted path of a scenario held as JSON, or why
 /// there is none.
-pub fn numeric_field(base: &serde_json::Value, path: &str) -> Result<f64, String> {
+pub(crate) fn numeric_field(base: &serde_json::Value, path: &str) -> Result<f64, String> {
     let mut node = base;
     for part in path.split('.') {
         node = match node.get(part) {

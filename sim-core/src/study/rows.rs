@@ -32,7 +32,7 @@ use serde_json::{Map, Value};
 use std::sync::Arc;
 
 /// Layout version of study outputs.
-pub const STUDY_FORMAT: &str = "chopwave-study-1";
+pub(crate) const STUDY_FORMAT: &str = "chopwave-study-1";
 
 /// What kind of study a table holds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -189,7 +189,7 @@ pub struct Incomplete {
 }
 
 /// FNV-1a, 64 bits, as 16 hex digits.
-pub fn digest(text: &str) -> String {
+pub(crate) fn digest(text: &str) -> String {
     let mut h: u64 = 0xcbf2_9ce4_8422_2325;
     for b in text.bytes() {
         h ^= u64::from(b);

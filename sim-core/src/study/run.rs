@@ -81,7 +81,7 @@ impl RunSettings {
 
 /// Points per warm-start chain in a sweep: long enough that most points
 /// start warm, short enough to give two cores many chains to share.
-pub const DEFAULT_CHAIN_LEN: usize = 8;
+pub(crate) const DEFAULT_CHAIN_LEN: usize = 8;
 
 /// What one point produced.
 #[derive(Debug, Clone, PartialEq)]
@@ -100,7 +100,7 @@ pub struct PointSummary {
 
 /// One point's outcome: its summary, or the reason it failed (a scenario
 /// problem or a simulation failure, in words).
-pub type PointOutcome = Result<PointSummary, String>;
+pub(crate) type PointOutcome = Result<PointSummary, String>;
 
 /// A point's index, the input values it was given and its outcome.
 #[derive(Debug, Clone, PartialEq)]
@@ -140,7 +140,7 @@ fn run_one(s: &Scenario, engine: EngineKind, start: Option<[f64; N_STATES]>) -> 
 /// What a study needs to make point `k`: its input values, its label (if
 /// rows are labelled) and its scenario (or why it has none).
 #[derive(Debug, Clone)]
-pub struct PointInput {
+pub(crate) struct PointInput {
     /// The values of the study's inputs at this point.
     pub inputs: Vec<f64>,
     /// The row's label (corners), if any.
@@ -162,7 +162,7 @@ pub struct Finished {
 
 /// Called with each point as it finishes, from any worker thread, in
 /// finish order (not index order).
-pub type RowSink<'a> = &'a (dyn Fn(&Finished) + Sync);
+pub(crate) type RowSink<'a> = &'a (dyn Fn(&Finished) + Sync);
 
 /// What a study does besides computing: stream finished rows to a caller
 /// and take over points an earlier, interrupted run already finished.
@@ -188,7 +188,7 @@ impl std::fmt::Debug for Hooks<'_> {
 /// Rows of a run, in index order, and whether it stopped at the
 /// deadline before every point of its range had run.
 #[derive(Debug, Clone, PartialEq)]
-pub struct RunRows {
+pub(crate) struct RunRows {
     /// Finished rows (resumed ones included), in index order.
     pub rows: Vec<Row>,
     /// Whether [`RunSettings::deadline`] passed with points left unstarted.
@@ -200,7 +200,7 @@ pub struct RunRows {
 /// point goes to `hooks.on_finish` at once; points in `hooks.resume` are
 /// taken as they are. Once `settings.deadline` has passed, no new point
 /// starts (points already running finish). Rows come back in index order.
-pub fn run_points<F>(
+pub(crate) fn run_points<F>(
     range: Range<usize>,
     settings: &RunSettings,
     columns: &super::rows::Columns,

@@ -40,7 +40,7 @@ use crate::units::{eng_sig, short_number};
 use crate::scenario::SpecLimits;
 
 /// A pass/fail test of one row.
-pub type RowTest<'a> = Box<dyn Fn(&Row) -> bool + 'a>;
+pub(crate) type RowTest<'a> = Box<dyn Fn(&Row) -> bool + 'a>;
 
 impl SpecLimits {
     /// Whether any limit is set.

@@ -12,10 +12,10 @@ use crate::scenario::Scenario;
 use crate::units::{parse_quantity, Unit};
 
 /// Points a `range` specification takes when it gives no count.
-pub const DEFAULT_RANGE_COUNT: usize = 11;
+pub(crate) const DEFAULT_RANGE_COUNT: usize = 11;
 
 /// Most points one variable may take.
-pub const MAX_POINTS_PER_AXIS: usize = 100_000;
+pub(crate) const MAX_POINTS_PER_AXIS: usize = 100_000;
 
 /// One swept variable: a scenario field and the values it takes.
 #[derive(Debug, Clone, PartialEq)]
@@ -49,7 +49,7 @@ pub fn unit_of(path: &str) -> Unit {
 }
 
 /// `n` evenly spaced values from `a` to `b`, both included (exactly).
-pub fn linspace(a: f64, b: f64, n: usize) -> Vec<f64> {
+pub(crate) fn linspace(a: f64, b: f64, n: usize) -> Vec<f64> {
     match n {
         0 => vec![],
         1 => vec![a],
@@ -73,7 +73,7 @@ fn bad(spec: &str, reason: impl Into<String>) -> StudyError {
 }
 
 /// Splits `PATH=REST`.
-pub fn split_spec(spec: &str) -> Result<(String, String), StudyError> {
+pub(crate) fn split_spec(spec: &str) -> Result<(String, String), StudyError> {
     match spec.split_once('=') {
         Some((p, r)) if !p.trim().is_empty() && !r.trim().is_empty() => {
             Ok((p.trim().to_string(), r.trim().to_string()))
@@ -279,7 +279,10 @@ impl Grid {
 
 /// `base` with each `(path, value)` of a study point set on it directly,
 /// validated once (see [`Scenario::with_values`]).
-pub fn point_scenario(base: &Scenario, sets: &[(String, f64)]) -> Result<Scenario, ScenarioError> {
+pub(crate) fn point_scenario(
+    base: &Scenario,
+    sets: &[(String, f64)],
+) -> Result<Scenario, ScenarioError> {
     base.with_values(sets)
 }
 
