@@ -284,7 +284,8 @@ impl ExactEngine {
             r.cycle_start(self.t);
         }
         loop {
-            let step = self.interval(totals.as_deref_mut(), rec.as_deref_mut(), f64::INFINITY)?;
+            let step =
+                self.interval::<false>(totals.as_deref_mut(), rec.as_deref_mut(), f64::INFINITY)?;
             if step.turned_on {
                 self.cycles += 1;
                 self.refit();
@@ -352,7 +353,7 @@ impl ExactEngine {
                 turned_on: false,
             });
         }
-        let step = self.interval(None, None, until_s)?;
+        let step = self.interval::<true>(None, None, until_s)?;
         if step.turned_on {
             self.cycles += 1;
             self.refit();

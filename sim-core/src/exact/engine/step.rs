@@ -8,7 +8,10 @@ use super::*;
 impl ExactEngine {
     /// Simulates up to the next event, or to `until_s` when that comes
     /// first; says why it stopped and whether the switch turned on.
-    pub(super) fn interval(
+    /// `STOPPABLE` is false for whole cycles (`until_s` infinite): that
+    /// copy is compiled without the end-time checks, so the cycle loop
+    /// costs what it did before the stepping call existed.
+    pub(super) fn interval<const STOPPABLE: bool>(
         &mut self,
         totals: Option<&mut Totals>,
         rec: Option<&mut Recorder>,
@@ -23,11 +26,18 @@ impl ExactEngine {
                 lin,
                 spectral,
                 events,
-            }) => self.interval_with(lin, spectral.as_ref(), events, totals, rec, until_s),
+            }) => self.interval_with::<STOPPABLE>(
+                lin,
+                spectral.as_ref(),
+                events,
+                totals,
+                rec,
+                until_s,
+            ),
             None => {
                 let lin = self.circuit.linearize(self.region);
                 let mut events = region_events(&self.circuit, self.region, &lin);
-                self.interval_with(&lin, None, &mut events, totals, rec, until_s)
+                self.interval_with::<STOPPABLE>(&lin, None, &mut events, totals, rec, until_s)
             }
         };
         self.cache = cache;
@@ -35,7 +45,7 @@ impl ExactEngine {
     }
 
     /// [`Self::interval`] with the region's model at hand.
-    pub(super) fn interval_with(
+    pub(super) fn interval_with<const STOPPABLE: bool>(
         &mut self,
         lin: &Linear,
         spectral: Option<&Spectral>,
@@ -139,7 +149,7 @@ impl ExactEngine {
         // A caller's end time cuts the scan short (never when it is
         // infinite, as for whole cycles: the limit is then unchanged).
         let to_end = until_s - self.t;
-        let cut = to_end < t_limit;
+        let cut = STOPPABLE && to_end < t_limit;
         let t_limit = if cut { to_end } else { t_limit };
         let start = ScanStart {
             due: true,
