@@ -198,8 +198,8 @@ fn central_jacobian(
 ) -> Matrix3<f64> {
     let active = [
         true,
-        e.circuit.output_cap.is_some(),
-        e.circuit.input_cap.is_some(),
+        e.circuit.el.output_cap.is_some(),
+        e.circuit.el.input_cap.is_some(),
     ];
     let mut at = |xp: [f64; N_STATES]| {
         e.restart_at_turn_on(xp);

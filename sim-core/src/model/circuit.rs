@@ -16,7 +16,7 @@
 //! the (affine) circuit equations at `z = e_j`.
 
 use super::elements::{DeviceCurve, Elements};
-use crate::devices::{ExpDevice, InductanceCurve, PwlCurve};
+use crate::devices::{ExpDevice, PwlCurve};
 use crate::scenario::{Load, Scenario};
 use nalgebra::{SMatrix, SVector};
 
@@ -122,30 +122,14 @@ impl Linear {
     }
 }
 
-/// Element values of the circuit, in SI units.
+/// The circuit the exact engine runs: the element values and the
+/// piecewise-linear device curves fitted to them, in SI units.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Circuit {
-    /// Supply voltage, V.
-    pub supply_v: f64,
-    /// Source resistance, ohms.
-    pub source_ohm: f64,
-    /// Input capacitance, F, and ESR, ohms (None: absent or on an ideal source).
-    pub input_cap: Option<(f64, f64)>,
-    /// Switch on-resistance, ohms.
-    pub switch_ohm: f64,
-    /// Inductance, H (the value at zero current with a saturation curve).
-    pub inductance_h: f64,
-    /// The soft-saturation curve, when the part gives one.
-    pub saturation: Option<InductanceCurve>,
-    /// Inductor DCR, ohms.
-    pub dcr_ohm: f64,
-    /// Sense resistance in series with the LED string (carrying the
-    /// inductor current), ohms; 0 without one there.
-    pub sense_string_ohm: f64,
-    /// Sense resistance in series with the switch, ohms; 0 without one there.
-    pub sense_switch_ohm: f64,
-    /// Output capacitance, F, and ESR, ohms.
-    pub output_cap: Option<(f64, f64)>,
+    /// The element values, as read from the scenario once (the same
+    /// values the reference engine and the part losses use); the device
+    /// curves there are the exact ones, the fitted curves are below.
+    pub el: Elements,
     /// The diode's piecewise-linear curve in use.
     pub diode: PwlCurve,
     /// The load's piecewise-linear curve in use.
@@ -199,16 +183,7 @@ impl Circuit {
             DeviceCurve::Line { knee_v, r_ohm } => PwlCurve::line(knee_v, r_ohm),
         };
         Circuit {
-            supply_v: e.supply_v,
-            source_ohm: e.source_ohm,
-            input_cap: e.input_cap,
-            switch_ohm: e.switch_ohm,
-            inductance_h: e.inductance_h,
-            saturation: e.saturation,
-            dcr_ohm: e.dcr_ohm,
-            sense_string_ohm: e.sense_string_ohm,
-            sense_switch_ohm: e.sense_switch_ohm,
-            output_cap: e.output_cap,
+            el: e,
             diode,
             led,
             diode_exact,
@@ -225,10 +200,10 @@ impl Circuit {
     /// Energy stored in the inductor and capacitors, J.
     pub fn stored_energy_j(&self, x: &SVector<f64, N_STATES>) -> f64 {
         let mut e = self.inductor_energy_j(x[X_IL]);
-        if let Some((c, _)) = self.output_cap {
+        if let Some((c, _)) = self.el.output_cap {
             e += 0.5 * c * x[X_VCO] * x[X_VCO];
         }
-        if let Some((c, _)) = self.input_cap {
+        if let Some((c, _)) = self.el.input_cap {
             e += 0.5 * c * x[X_VCIN] * x[X_VCIN];
         }
         e
@@ -237,58 +212,60 @@ impl Circuit {
     /// Energy in the inductor at current `i`, J (segment by segment for a
     /// saturating inductor).
     pub fn inductor_energy_j(&self, i: f64) -> f64 {
-        match &self.saturation {
+        match &self.el.saturation {
             Some(c) => c.energy_segmented_j(i),
-            None => 0.5 * self.inductance_h * i * i,
+            None => 0.5 * self.el.inductance_h * i * i,
         }
     }
 
     /// The inductance segment for current `i` (0 without saturation).
     pub fn l_segment_for(&self, i: f64) -> u8 {
-        self.saturation
+        self.el
+            .saturation
             .as_ref()
             .map_or(0, |c| c.segment_for(i) as u8)
     }
 
     /// The inductance in a region, H.
     pub fn inductance_in(&self, region: Region) -> f64 {
-        match &self.saturation {
+        match &self.el.saturation {
             Some(c) => c.seg_h[(region.l_segment as usize).min(c.segments - 1)],
-            None => self.inductance_h,
+            None => self.el.inductance_h,
         }
     }
 
     /// A bound on the highest natural angular frequency of the circuit,
     /// rad/s: the inductor against the series combination of the capacitors.
     pub fn max_angular_frequency(&self) -> f64 {
-        let inv_c: f64 =
-            self.input_cap.map_or(0.0, |c| 1.0 / c.0) + self.output_cap.map_or(0.0, |c| 1.0 / c.0);
+        let inv_c: f64 = self.el.input_cap.map_or(0.0, |c| 1.0 / c.0)
+            + self.el.output_cap.map_or(0.0, |c| 1.0 / c.0);
         let l_min = self
+            .el
             .saturation
             .as_ref()
-            .map_or(self.inductance_h, |c| c.min_h());
+            .map_or(self.el.inductance_h, |c| c.min_h());
         (inv_c / l_min).sqrt()
     }
 
     /// The input-node voltage and the source and input-capacitor currents
     /// for a given switch current.
     fn input_side(&self, x: &[f64; N_STATES], one: f64, i_sw: f64) -> (f64, f64, f64) {
-        let vs = self.supply_v * one;
-        match self.input_cap {
+        let vs = self.el.supply_v * one;
+        match self.el.input_cap {
             None => {
-                let vin = vs - self.source_ohm * i_sw;
+                let vin = vs - self.el.source_ohm * i_sw;
                 (vin, i_sw, 0.0)
             }
             Some((_, esr)) => {
                 let vc = x[X_VCIN];
-                if self.source_ohm == 0.0 {
+                if self.el.source_ohm == 0.0 {
                     let i_c = (vs - vc) / esr;
                     (vs, i_c + i_sw, i_c)
                 } else if esr == 0.0 {
-                    let i_s = (vs - vc) / self.source_ohm;
+                    let i_s = (vs - vc) / self.el.source_ohm;
                     (vc, i_s, i_s - i_sw)
                 } else {
-                    let gs = 1.0 / self.source_ohm;
+                    let gs = 1.0 / self.el.source_ohm;
                     let gc = 1.0 / esr;
                     let vin = (vs * gs + vc * gc - i_sw) / (gs + gc);
                     let i_c = (vin - vc) * gc;
@@ -306,7 +283,7 @@ impl Circuit {
         il: f64,
         led: Option<u8>,
     ) -> (f64, f64, f64) {
-        match (self.output_cap, led) {
+        match (self.el.output_cap, led) {
             (None, Some(k)) => {
                 let k = k as usize;
                 let vo = self.led.v0_v[k] * one + self.led.r_ohm[k] * il;
@@ -346,7 +323,7 @@ impl Circuit {
         let (vo, i_led, i_co) = self.output_side(&x, one, il, region.led_segment);
         let (v_sw, i_d, v_d) = if region.switch_on {
             (
-                vin - (self.switch_ohm + self.sense_switch_ohm) * il,
+                vin - (self.el.switch_ohm + self.el.sense_switch_ohm) * il,
                 0.0,
                 0.0,
             )
@@ -358,12 +335,13 @@ impl Circuit {
             (vo, 0.0, 0.0)
         };
         let dil = if region.conducting {
-            (v_sw - (self.dcr_ohm + self.sense_string_ohm) * il - vo) / self.inductance_in(region)
+            (v_sw - (self.el.dcr_ohm + self.el.sense_string_ohm) * il - vo)
+                / self.inductance_in(region)
         } else {
             0.0
         };
-        let dvco = self.output_cap.map_or(0.0, |(c, _)| i_co / c);
-        let dvcin = self.input_cap.map_or(0.0, |(c, _)| i_cin / c);
+        let dvco = self.el.output_cap.map_or(0.0, |(c, _)| i_co / c);
+        let dvcin = self.el.input_cap.map_or(0.0, |(c, _)| i_cin / c);
         Eval {
             dx: [dil, dvco, dvcin],
             sig: [il, i_led, vo, v_sw, vin, i_s, i_cin, i_co, i_sw, i_d, v_d],
@@ -395,7 +373,7 @@ impl Circuit {
     pub fn region_for(&self, switch_on: bool, x: &SVector<f64, N_STATES>) -> Region {
         let il = x[X_IL];
         let led_for = |conducting: bool, diode_segment: u8| -> Option<u8> {
-            match self.output_cap {
+            match self.el.output_cap {
                 None => {
                     if conducting {
                         Some(self.led.segment_for_current(il) as u8)
@@ -434,7 +412,7 @@ impl Circuit {
         };
         let diode_segment = self.diode.segment_for_current(il) as u8;
         let conducting = if switch_on {
-            if self.output_cap.is_some() {
+            if self.el.output_cap.is_some() {
                 // The switch conducts both ways: current may reverse into
                 // the input while the output capacitor is above it.
                 true
@@ -465,7 +443,7 @@ impl Circuit {
             },
         };
         // At the knee with a capacitor: decide by the direction of travel.
-        if let (Some(_), Some(0)) = (self.output_cap, region.led_segment) {
+        if let (Some(_), Some(0)) = (self.el.output_cap, region.led_segment) {
             let lin = self.linearize(region);
             let z = Aug::new(x[0], x[1], x[2], 1.0);
             let i_led = (lin.row(Signal::LedCurrent) * z)[0];

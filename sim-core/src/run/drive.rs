@@ -410,12 +410,12 @@ impl CycleMap for ExactEngine {
     fn active_states(&self) -> [bool; N_STATES] {
         [
             true,
-            self.circuit.output_cap.is_some(),
-            self.circuit.input_cap.is_some(),
+            self.circuit.el.output_cap.is_some(),
+            self.circuit.el.input_cap.is_some(),
         ]
     }
     fn supply_v(&self) -> f64 {
-        self.circuit.supply_v
+        self.circuit.el.supply_v
     }
     fn restart_at_turn_on(&mut self, x: [f64; N_STATES]) {
         ExactEngine::restart_at_turn_on(self, x);

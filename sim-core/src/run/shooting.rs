@@ -431,8 +431,8 @@ pub fn averaged_guess(s: &Scenario, c: &Circuit) -> Option<[f64; N_STATES]> {
             for _ in 0..4 {
                 let v_off = c.led.voltage_v(i_avg)
                     + c.diode.voltage_v(i_avg)
-                    + (c.dcr_ohm + c.sense_string_ohm) * i_avg;
-                let ripple = v_off * off_time_s / c.inductance_h;
+                    + (c.el.dcr_ohm + c.el.sense_string_ohm) * i_avg;
+                let ripple = v_off * off_time_s / c.el.inductance_h;
                 valley = (peak_current_a - ripple).max(0.0);
                 i_avg = if ripple < peak_current_a {
                     peak_current_a - 0.5 * ripple
@@ -455,12 +455,16 @@ pub fn averaged_guess(s: &Scenario, c: &Circuit) -> Option<[f64; N_STATES]> {
     };
     let v_out = c.led.voltage_v(i_avg);
     let v_d = c.diode.voltage_v(i_avg);
-    let duty = ((v_out + v_d) / (c.supply_v + v_d)).clamp(0.0, 1.0);
-    let v_in = (c.supply_v - c.source_ohm * duty * i_avg).max(0.0);
+    let duty = ((v_out + v_d) / (c.el.supply_v + v_d)).clamp(0.0, 1.0);
+    let v_in = (c.el.supply_v - c.el.source_ohm * duty * i_avg).max(0.0);
     let guess = [
         i_valley,
-        if c.output_cap.is_some() { v_out } else { 0.0 },
-        if c.input_cap.is_some() { v_in } else { 0.0 },
+        if c.el.output_cap.is_some() {
+            v_out
+        } else {
+            0.0
+        },
+        if c.el.input_cap.is_some() { v_in } else { 0.0 },
     ];
     guess.iter().all(|v| v.is_finite()).then_some(guess)
 }

@@ -83,7 +83,7 @@ pub(super) fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> 
     let mut evs = [EventFn::new(Row::zeros(), &lin.m); MAX_EVENTS];
     let mut acts = [Action::Controller; MAX_EVENTS];
     let mut n = 1;
-    let has_co = circuit.output_cap.is_some();
+    let has_co = circuit.el.output_cap.is_some();
     let led = circuit.led;
     let diode = circuit.diode;
     if region.conducting {
@@ -116,7 +116,7 @@ pub(super) fn region_events(circuit: &Circuit, region: Region, lin: &Linear) -> 
         ExactEngine::push_event(&mut evs, &mut acts, &mut n, row, lin, Action::Unblock);
     }
     // A saturating inductor: the current crossing a segment boundary.
-    if let (Some(sat), true) = (circuit.saturation.as_ref(), region.conducting) {
+    if let (Some(sat), true) = (circuit.el.saturation.as_ref(), region.conducting) {
         let k = region.l_segment as usize;
         if k > 0 {
             let row = one * sat.upper_a[k - 1] - il_row;

@@ -135,7 +135,7 @@ impl ExactEngine {
         // The slice starts at the threshold when there is one.
         let evs = &evs[first..n];
         let threshold_slot = (first == 0).then_some(0);
-        let has_co = self.circuit.output_cap.is_some();
+        let has_co = self.circuit.el.output_cap.is_some();
 
         // The scan ends at once on an event already due at the start, and
         // at the start when the deadline has passed.
@@ -244,19 +244,19 @@ impl ExactEngine {
 
         self.t += dt;
         self.x = SVector::from([z1[0], z1[1], z1[2]]);
-        if let Some((c, _)) = self.circuit.output_cap {
+        if let Some((c, _)) = self.circuit.el.output_cap {
             let _ = c;
         } else {
             self.x[X_VCO] = 0.0;
         }
-        if self.circuit.input_cap.is_none() {
+        if self.circuit.el.input_cap.is_none() {
             self.x[X_VCIN] = 0.0;
         }
         if let Some(sens) = self.sens.as_mut() {
-            if self.circuit.output_cap.is_none() {
+            if self.circuit.el.output_cap.is_none() {
                 sens.j.row_mut(X_VCO).fill(0.0);
             }
-            if self.circuit.input_cap.is_none() {
+            if self.circuit.el.input_cap.is_none() {
                 sens.j.row_mut(X_VCIN).fill(0.0);
             }
         }
@@ -398,7 +398,7 @@ impl ExactEngine {
                 // (always with an output capacitor: the switch conducts both ways).
                 let r = self.circuit.region_for(true, &self.x);
                 region.conducting = r.conducting;
-                if self.circuit.output_cap.is_none() {
+                if self.circuit.el.output_cap.is_none() {
                     region.led_segment = r.led_segment;
                 }
             }
@@ -416,7 +416,7 @@ impl ExactEngine {
             }
             region.conducting = false;
             region.l_segment = 0;
-            if self.circuit.output_cap.is_none() {
+            if self.circuit.el.output_cap.is_none() {
                 region.led_segment = None;
             }
         }

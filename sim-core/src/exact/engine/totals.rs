@@ -52,20 +52,20 @@ impl ExactEngine {
         tot.idiode += lin_int(&idi);
         tot.idiode2 += q(&idi, &idi);
         let c = &self.circuit;
-        tot.e_in += c.supply_v * lin_int(&isrc);
+        tot.e_in += c.el.supply_v * lin_int(&isrc);
         tot.e_led += q(&vled, &iled);
-        tot.loss.source_resistance += c.source_ohm * q(&isrc, &isrc);
-        if let Some((_, esr)) = c.input_cap {
+        tot.loss.source_resistance += c.el.source_ohm * q(&isrc, &isrc);
+        if let Some((_, esr)) = c.el.input_cap {
             tot.loss.input_capacitor_esr += esr * q(&icin, &icin);
         }
-        if let Some((_, esr)) = c.output_cap {
+        if let Some((_, esr)) = c.el.output_cap {
             tot.loss.output_capacitor_esr += esr * q(&ico, &ico);
         }
-        tot.loss.switch_conduction += c.switch_ohm * q(&isw, &isw);
+        tot.loss.switch_conduction += c.el.switch_ohm * q(&isw, &isw);
         tot.loss.diode_conduction += q(&vdi, &idi);
-        tot.loss.inductor_dcr += c.dcr_ohm * q(&il, &il);
+        tot.loss.inductor_dcr += c.el.dcr_ohm * q(&il, &il);
         tot.loss.current_sense +=
-            c.sense_string_ohm * q(&il, &il) + c.sense_switch_ohm * q(&isw, &isw);
+            c.el.sense_string_ohm * q(&il, &il) + c.el.sense_switch_ohm * q(&isw, &isw);
         // Extremes: the ends, and any turning point inside.
         let extreme = |s: Signal, lo: Option<&mut f64>, hi: &mut f64, work: &mut WorkCounts| {
             let r = row(s);

@@ -57,16 +57,22 @@ fn both_engines_use_the_elements_the_scenario_gives() {
 
         // The exact engine's circuit.
         let c = ExactEngine::new(&s).circuit;
-        assert_eq!(c.supply_v.to_bits(), e.supply_v.to_bits());
-        assert_eq!(c.source_ohm.to_bits(), e.source_ohm.to_bits());
-        assert_eq!(c.input_cap, e.input_cap);
-        assert_eq!(c.switch_ohm.to_bits(), e.switch_ohm.to_bits());
-        assert_eq!(c.inductance_h.to_bits(), e.inductance_h.to_bits());
-        assert_eq!(c.saturation, e.saturation);
-        assert_eq!(c.dcr_ohm.to_bits(), e.dcr_ohm.to_bits());
-        assert_eq!(c.sense_string_ohm.to_bits(), e.sense_string_ohm.to_bits());
-        assert_eq!(c.sense_switch_ohm.to_bits(), e.sense_switch_ohm.to_bits());
-        assert_eq!(c.output_cap, e.output_cap);
+        assert_eq!(c.el.supply_v.to_bits(), e.supply_v.to_bits());
+        assert_eq!(c.el.source_ohm.to_bits(), e.source_ohm.to_bits());
+        assert_eq!(c.el.input_cap, e.input_cap);
+        assert_eq!(c.el.switch_ohm.to_bits(), e.switch_ohm.to_bits());
+        assert_eq!(c.el.inductance_h.to_bits(), e.inductance_h.to_bits());
+        assert_eq!(c.el.saturation, e.saturation);
+        assert_eq!(c.el.dcr_ohm.to_bits(), e.dcr_ohm.to_bits());
+        assert_eq!(
+            c.el.sense_string_ohm.to_bits(),
+            e.sense_string_ohm.to_bits()
+        );
+        assert_eq!(
+            c.el.sense_switch_ohm.to_bits(),
+            e.sense_switch_ohm.to_bits()
+        );
+        assert_eq!(c.el.output_cap, e.output_cap);
         assert_eq!(c.led_exact, e.led.exp());
         assert_eq!(c.diode_exact, e.diode.exp());
         assert_eq!(c.led_idle_v.to_bits(), e.led_idle_v().to_bits());
@@ -89,7 +95,7 @@ fn a_sense_resistor_reaches_both_engines_once() {
         (0.0f64.to_bits(), 0.33f64.to_bits())
     );
     assert_eq!(
-        ExactEngine::new(&s).circuit.sense_switch_ohm.to_bits(),
+        ExactEngine::new(&s).circuit.el.sense_switch_ohm.to_bits(),
         0.33f64.to_bits()
     );
     assert_eq!(
@@ -145,7 +151,7 @@ fn the_core_loss_reads_the_inductor_the_engines_use() {
     let mut nominal = plain.clone();
     nominal.inductor.inductance_h = 150e-6;
     assert_eq!(
-        ExactEngine::new(&curved).circuit.inductance_h.to_bits(),
+        ExactEngine::new(&curved).circuit.el.inductance_h.to_bits(),
         47e-6f64.to_bits()
     );
     assert_eq!(
