@@ -7,6 +7,7 @@
 
 use approx::assert_relative_eq;
 use chopwave_suite::*;
+use sim_core::parts::advice::{SupplyEnd, Warning};
 use sim_core::parts::checks::{worst, Check, Status};
 use sim_core::parts::losses::{abs_cos_power_integral, igse_w_per_m3, steinmetz_w_per_m3};
 use sim_core::record::COL_IL;
@@ -520,10 +521,27 @@ fn a_design_that_cannot_run_at_its_range_end_fails_a_row_not_the_run() {
     assert!(c.source.contains("settles at"), "{}", c.source);
     assert_eq!(worst(&a.checks), Status::Fail);
     assert!(
-        a.result.warnings.iter().any(|w| w.contains("at 8 V")),
+        a.result.warnings.iter().any(|w| matches!(
+            w,
+            Warning::RangeEndFails { supply_v, end: SupplyEnd::Low, reason }
+                if (supply_v - 8.0).abs() < 1e-12 && !reason.is_empty()
+        )),
         "{:?}",
         a.result.warnings
     );
+    // Only the low end failed.
+    assert!(!a.result.warnings.iter().any(|w| matches!(
+        w,
+        Warning::RangeEndFails {
+            end: SupplyEnd::High,
+            ..
+        }
+    )));
+    assert!(a
+        .result
+        .warnings
+        .iter()
+        .any(|w| w.to_string().starts_with("at 8 V, the low end")));
     // The high end ran: its regulation row is there.
     assert!(a
         .checks
