@@ -583,3 +583,50 @@ fn regulation_over_the_range_fires_at_its_edges() {
         assert_eq!(c.status, want, "{acc}: {c:?}");
     }
 }
+
+/// The report warns about a start-up peak above the saturation rating
+/// when the steady-state peak stays below it, with the recorded start-up
+/// peak (read here off the waveform), the rating and the steady peak; with
+/// the rating above the start-up peak it does not.
+#[test]
+fn the_report_warns_of_start_up_saturation_with_its_three_currents() {
+    use sim_core::report::Report;
+    let mut s = lamp_12v_with_output_cap();
+    s.supply.input_range_v = None;
+    s.simulation.record_startup = true;
+    s.inductor.saturation_current_a = Some(10.0);
+    let base = a(&s);
+    let steady = base.result.metrics.inductor_current_peak_a;
+    let w = base.result.startup.as_ref().expect("recorded start-up");
+    let startup = w.column(COL_IL).iter().copied().fold(f64::MIN, f64::max);
+    assert!(startup > steady + 2e-3, "{startup} vs {steady}");
+    let is_startup = |w: &Warning| matches!(w, Warning::StartupSaturation { .. });
+    assert!(!Report::new(&s, &base).warnings.iter().any(is_startup));
+
+    let isat = 0.5 * (startup + steady);
+    s.inductor.saturation_current_a = Some(isat);
+    let at = a(&s);
+    let r = Report::new(&s, &at);
+    let got: Vec<_> = r.warnings.iter().filter(|w| is_startup(w)).collect();
+    assert_eq!(got.len(), 1, "{:?}", r.warnings);
+    let Warning::StartupSaturation {
+        startup_peak_a,
+        saturation_a,
+        steady_peak_a,
+    } = got[0]
+    else {
+        unreachable!()
+    };
+    assert_relative_eq!(*startup_peak_a, startup, max_relative = 1e-9);
+    assert_relative_eq!(*saturation_a, isat, max_relative = 1e-15);
+    assert_relative_eq!(
+        *steady_peak_a,
+        at.result.metrics.inductor_current_peak_a,
+        max_relative = 1e-15
+    );
+    // The steady-state peak is under the rating: no steady-state warning.
+    assert!(!r
+        .warnings
+        .iter()
+        .any(|w| matches!(w, Warning::InductorSaturation { .. })));
+}
