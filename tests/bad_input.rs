@@ -138,30 +138,66 @@ fn regression_fuzz_stalled_event_scan() {
 #[test]
 fn deep_dcm_is_explained_not_rejected() {
     use sim_core::metrics::ConductionMode;
-    use sim_core::scenario::IntendedMode;
+    use sim_core::parts::advice::Warning;
+    use sim_core::scenario::{ControllerSpec, IntendedMode};
     use sim_core::{run::drive::simulate, run::RunOptions};
     let s = chopwave_suite::dcm_long_off_time();
     let r = simulate(&s, &RunOptions::default()).expect("deep DCM still runs");
     assert_eq!(r.metrics.conduction_mode, ConductionMode::Dcm);
     assert!(r.metrics.idle_time_s / r.metrics.period_s > 0.5);
-    let w = r.warnings.join("\n");
-    assert!(w.contains("deep discontinuous conduction"), "{w}");
-    assert!(w.contains("not an error"), "{w}");
+    let dcm = |r: &sim_core::SimResult| {
+        r.warnings
+            .iter()
+            .find(|w| matches!(w, Warning::Dcm { .. }))
+            .cloned()
+            .unwrap_or_else(|| panic!("a DCM warning in {:?}", r.warnings))
+    };
+    let w = dcm(&r);
+    assert!(w.is_deep_dcm(), "{w:?}");
+    let Warning::Dcm {
+        idle_time_s,
+        period_s,
+        ccm_intended,
+        ..
+    } = w
+    else {
+        unreachable!()
+    };
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-12 * b.abs();
+    assert!(close(idle_time_s, r.metrics.idle_time_s), "{w:?}");
+    assert!(close(period_s, r.metrics.period_s), "{w:?}");
+    assert!(!ccm_intended);
+    let text = w.to_string();
+    assert!(text.contains("deep discontinuous conduction"), "{text}");
+    assert!(text.contains("not an error"), "{text}");
 
     let mut ccm = s.clone();
     ccm.parts.intended_mode = IntendedMode::Ccm;
     let r = simulate(&ccm, &RunOptions::default()).expect("runs");
-    let w = r.warnings.join("\n");
-    assert!(w.contains("asks for CCM"), "{w}");
-    assert!(!w.contains("not an error"), "{w}");
+    let w = dcm(&r);
+    let text = w.to_string();
+    assert!(text.contains("asks for CCM"), "{text}");
+    assert!(!text.contains("not an error"), "{text}");
+    let Warning::Dcm {
+        ccm_inductance_h: Some(l_h),
+        ccm_intended: true,
+        ..
+    } = w
+    else {
+        panic!("a suggested inductance and the stated intent: {w:?}")
+    };
+    // The boundary inductance stretches the current's fall from the peak
+    // to zero over the whole off-time: L·t_off/(t_off − t_idle).
+    let ControllerSpec::ConstantOffTime { off_time_s, .. } = s.controller else {
+        panic!("a constant off-time design")
+    };
+    let expected = s.inductor.inductance_h * off_time_s / (off_time_s - r.metrics.idle_time_s);
+    assert!(
+        (l_h - expected).abs() <= 1e-9 * expected,
+        "{l_h} vs {expected}"
+    );
     // The suggested inductance, with a 30 % margin, does give CCM.
-    let at = w.find("roughly ").expect("a suggested inductance") + "roughly ".len();
-    let l_uh: f64 = w[at..]
-        .split(' ')
-        .next()
-        .unwrap()
-        .parse()
-        .expect("a number");
+    let l_uh = l_h * 1e6;
     let mut fixed = s.clone();
     fixed.inductor.inductance_h = 1.3 * l_uh * 1e-6;
     let r = simulate(&fixed, &RunOptions::default()).expect("runs");

@@ -7,6 +7,7 @@
 
 use approx::assert_relative_eq;
 use chopwave_suite::*;
+use sim_core::parts::advice::{SupplyEnd, Warning};
 use sim_core::parts::checks::{worst, Check, Status};
 use sim_core::parts::losses::{abs_cos_power_integral, igse_w_per_m3, steinmetz_w_per_m3};
 use sim_core::record::COL_IL;
@@ -520,10 +521,27 @@ fn a_design_that_cannot_run_at_its_range_end_fails_a_row_not_the_run() {
     assert!(c.source.contains("settles at"), "{}", c.source);
     assert_eq!(worst(&a.checks), Status::Fail);
     assert!(
-        a.result.warnings.iter().any(|w| w.contains("at 8 V")),
+        a.result.warnings.iter().any(|w| matches!(
+            w,
+            Warning::RangeEndFails { supply_v, end: SupplyEnd::Low, reason }
+                if (supply_v - 8.0).abs() < 1e-12 && !reason.is_empty()
+        )),
         "{:?}",
         a.result.warnings
     );
+    // Only the low end failed.
+    assert!(!a.result.warnings.iter().any(|w| matches!(
+        w,
+        Warning::RangeEndFails {
+            end: SupplyEnd::High,
+            ..
+        }
+    )));
+    assert!(a
+        .result
+        .warnings
+        .iter()
+        .any(|w| w.to_string().starts_with("at 8 V, the low end")));
     // The high end ran: its regulation row is there.
     assert!(a
         .checks
@@ -564,4 +582,51 @@ fn regulation_over_the_range_fires_at_its_edges() {
         assert_relative_eq!(c.value, dev, max_relative = 1e-6);
         assert_eq!(c.status, want, "{acc}: {c:?}");
     }
+}
+
+/// The report warns about a start-up peak above the saturation rating
+/// when the steady-state peak stays below it, with the recorded start-up
+/// peak (read here off the waveform), the rating and the steady peak; with
+/// the rating above the start-up peak it does not.
+#[test]
+fn the_report_warns_of_start_up_saturation_with_its_three_currents() {
+    use sim_core::report::Report;
+    let mut s = lamp_12v_with_output_cap();
+    s.supply.input_range_v = None;
+    s.simulation.record_startup = true;
+    s.inductor.saturation_current_a = Some(10.0);
+    let base = a(&s);
+    let steady = base.result.metrics.inductor_current_peak_a;
+    let w = base.result.startup.as_ref().expect("recorded start-up");
+    let startup = w.column(COL_IL).iter().copied().fold(f64::MIN, f64::max);
+    assert!(startup > steady + 2e-3, "{startup} vs {steady}");
+    let is_startup = |w: &Warning| matches!(w, Warning::StartupSaturation { .. });
+    assert!(!Report::new(&s, &base).warnings.iter().any(is_startup));
+
+    let isat = 0.5 * (startup + steady);
+    s.inductor.saturation_current_a = Some(isat);
+    let at = a(&s);
+    let r = Report::new(&s, &at);
+    let got: Vec<_> = r.warnings.iter().filter(|w| is_startup(w)).collect();
+    assert_eq!(got.len(), 1, "{:?}", r.warnings);
+    let Warning::StartupSaturation {
+        startup_peak_a,
+        saturation_a,
+        steady_peak_a,
+    } = got[0]
+    else {
+        unreachable!()
+    };
+    assert_relative_eq!(*startup_peak_a, startup, max_relative = 1e-9);
+    assert_relative_eq!(*saturation_a, isat, max_relative = 1e-15);
+    assert_relative_eq!(
+        *steady_peak_a,
+        at.result.metrics.inductor_current_peak_a,
+        max_relative = 1e-15
+    );
+    // The steady-state peak is under the rating: no steady-state warning.
+    assert!(!r
+        .warnings
+        .iter()
+        .any(|w| matches!(w, Warning::InductorSaturation { .. })));
 }

@@ -627,13 +627,27 @@ fn saturation_grows_the_ripple_and_peak_and_keeps_the_balance() {
         "{}",
         m.energy_balance_residual
     );
+    // The steady-state peak passes the 0.8 A rating: the warning carries
+    // the measured peak and the rating.
+    assert!(m.inductor_current_peak_a > 0.8);
     assert!(
-        sat.warnings
-            .iter()
-            .any(|w| w.contains("saturation current")),
+        sat.warnings.iter().any(|w| matches!(
+            w,
+            sim_core::parts::advice::Warning::InductorSaturation {
+                inductor_peak_a,
+                saturation_a,
+            } if (inductor_peak_a - m.inductor_current_peak_a).abs() < 1e-12
+                && (saturation_a - 0.8).abs() < 1e-12
+        )),
         "{:?}",
         sat.warnings
     );
+    // The plain lamp peaks below its 1.5 A rating: no such warning.
+    assert!(p.inductor_current_peak_a < 1.5);
+    assert!(!plain.warnings.iter().any(|w| matches!(
+        w,
+        sim_core::parts::advice::Warning::InductorSaturation { .. }
+    )));
     // The off-state slope by hand at the valley: di/dt = −v/L(i) with the
     // segment's chord L, so the ripple over the fixed off-time is
     // ∫ v dt = Δψ: ψ(peak) − ψ(valley) ≈ V_off·t_off within the LED
@@ -653,4 +667,51 @@ fn saturation_grows_the_ripple_and_peak_and_keeps_the_balance() {
         "{dpsi} vs {}",
         v_off * t_off
     );
+}
+
+/// A part estimated above the touch limit (60 °C, common practice) is
+/// warned about with its temperature T = T_a + R_th·P, computed here from
+/// the run's own loss; a cool part and the LEDs (however hot) are not.
+#[test]
+fn a_part_too_hot_to_touch_is_warned_with_its_temperature() {
+    use sim_core::parts::advice::Warning;
+    let mut s = lamp_12v();
+    s.parts.ambient_temperature_c = 40.0;
+    s.parts.switch.thermal = Some(Thermal {
+        resistance_c_per_w: 1000.0,
+        max_temperature_c: 175.0,
+    });
+    s.parts.inductor.thermal = Some(Thermal {
+        resistance_c_per_w: 1.0,
+        max_temperature_c: 125.0,
+    });
+    s.parts.led = Some(LedThermal {
+        resistance_c_per_w: 200.0,
+        max_junction_temperature_c: 150.0,
+        forward_voltage_tempco_v_per_k: -2e-3,
+        heat_fraction: 0.7,
+    });
+    s.validate().unwrap();
+    let a = assess(&s, &AssessOptions::default()).unwrap();
+    let m = &a.result.metrics;
+    let t_switch = 40.0 + 1000.0 * m.losses_w.switch_conduction;
+    assert!(t_switch > 60.0, "{t_switch}");
+    let hot: Vec<_> = a
+        .result
+        .warnings
+        .iter()
+        .filter_map(|w| match w {
+            Warning::HotPart {
+                part,
+                temperature_c,
+            } => Some((*part, *temperature_c)),
+            _ => None,
+        })
+        .collect();
+    assert_eq!(hot.len(), 1, "{:?}", a.result.warnings);
+    assert_eq!(hot[0].0, "switch");
+    assert_relative_eq!(hot[0].1, t_switch, max_relative = 1e-12);
+    // The LEDs run hot too, but they have their own check, not this one.
+    let led = a.temperatures.iter().find(|t| t.part == "led").unwrap();
+    assert!(led.temperature_c > 60.0, "{}", led.temperature_c);
 }

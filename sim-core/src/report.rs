@@ -136,7 +136,7 @@ impl Report {
         let input = m.input_power_w;
         let k = if input > 0.0 { 100.0 / input } else { 0.0 };
         let startup_peak = startup_peak_a(r.startup.as_ref());
-        let mut warnings: Vec<Warning> = r.warnings.iter().cloned().map(Warning::Run).collect();
+        let mut warnings: Vec<Warning> = r.warnings.clone();
         warnings.extend(Warning::startup_saturation(
             startup_peak,
             scenario.inductor.saturation_current_a,

@@ -15,7 +15,10 @@
 //! - [`alternatives`]: series-resistor ballast and linear regulator for the
 //!   same LED string and supply range.
 //! - [`fit`]: the exponential LED model fitted to datasheet points.
+//! - [`advice`]: [`advice::Warning`], the warnings of a run as typed
+//!   values with their words.
 
+pub mod advice;
 pub mod alternatives;
 pub mod bias;
 pub mod checks;

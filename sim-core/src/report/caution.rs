@@ -3,7 +3,7 @@
 //! facts and the same thresholds.
 
 use crate::metrics::Metrics;
-use crate::run::warnings::SELV_LIMIT_V;
+use crate::parts::advice::SELV_LIMIT_V;
 use crate::scenario::Scenario;
 use crate::units::eng;
 use serde::{Serialize, Serializer};

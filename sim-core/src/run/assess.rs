@@ -19,6 +19,7 @@ use super::drive::simulate_with_progress;
 use super::result::{Progress, RunOptions, SimResult};
 use crate::error::SimError;
 use crate::metrics::Metrics;
+use crate::parts::advice::{SupplyEnd, Warning};
 use crate::parts::alternatives::{self, Comparison, OperatingPoint};
 use crate::parts::bias;
 use crate::parts::checks::{self, CapacitorState, Check};
@@ -153,7 +154,10 @@ pub fn assess_with_progress(
             a.startup_peak_a,
         )];
         let mut ends = Vec::new();
-        for (end, v) in [("low", range.min_v), ("high", range.max_v)] {
+        for (end, v) in [
+            (SupplyEnd::Low, range.min_v),
+            (SupplyEnd::High, range.max_v),
+        ] {
             if (v - v_nom).abs() <= 1e-9 * v_nom.abs() {
                 continue;
             }
@@ -181,13 +185,14 @@ pub fn assess_with_progress(
                     tables.push(at_end.checks);
                 }
                 Err(reason) => {
-                    a.result.warnings.push(format!(
-                        "at {v} V, the {end} end of the declared input range, the design does \
-                         not run: {reason}"
-                    ));
-                    ends.push(checks::RangeEnd::Failed {
+                    a.result.warnings.push(Warning::RangeEndFails {
                         supply_v: v,
                         end,
+                        reason: reason.clone(),
+                    });
+                    ends.push(checks::RangeEnd::Failed {
+                        supply_v: v,
+                        end: end.name(),
                         reason,
                     });
                 }
@@ -297,10 +302,9 @@ pub(crate) fn assess_once(
         result.startup = Some(startup);
     }
     if !converged {
-        result.warnings.push(format!(
-            "the capacitor-bias / LED-temperature iteration did not settle in {iterations} runs: \
-             the figures are those of the last run"
-        ));
+        result
+            .warnings
+            .push(Warning::IterationUnsettled { runs: iterations });
     }
     // The start-up peak for its check against the saturation rating: from
     // the recorded start-up, else from a start-up run made for it alone.
@@ -352,12 +356,10 @@ pub(crate) fn assess_once(
     let checks = checks::design_checks(s, &m, &temperatures, &capacitors, startup_peak);
     for t in &temperatures {
         if t.part != "led" && t.temperature_c > thermal::TOUCH_HOT_C {
-            result.warnings.push(format!(
-                "{} estimated at {:.0} °C: hot enough to burn a finger (above about 60 °C, \
-                 common practice); keep it out of reach or give it copper and airflow",
-                t.part.replace('_', " "),
-                t.temperature_c
-            ));
+            result.warnings.push(Warning::HotPart {
+                part: t.part,
+                temperature_c: t.temperature_c,
+            });
         }
     }
     Ok(Assessment {

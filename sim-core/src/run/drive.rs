@@ -17,6 +17,7 @@ use crate::exact::engine::ExactEngine;
 use crate::metrics::{Metrics, Totals};
 use crate::model::circuit::N_STATES;
 use crate::model::seam::{state_scales, CycleEngine};
+use crate::parts::advice::{FittedCurve, Warning};
 use crate::record::{Recorder, Waveform};
 use crate::scenario::Scenario;
 use crate::scenario::{JacobianSource, SteadyMethod};
@@ -148,21 +149,23 @@ fn uncovered_currents(
 
 /// A warning when a fit's worst error exceeds the tolerance asked for
 /// (the segment limit was reached first).
-fn fit_warnings(s: &Scenario, fit: &FitReport, w: &mut Vec<String>) {
+fn fit_warnings(s: &Scenario, fit: &FitReport, w: &mut Vec<Warning>) {
     let tol = s.simulation.curve_tolerance_v;
-    for (what, err, segs) in [
-        ("LED", fit.led_max_error_v, fit.led_segments),
-        ("diode", fit.diode_max_error_v, fit.diode_segments),
+    for (curve, err, segments) in [
+        (FittedCurve::Led, fit.led_max_error_v, fit.led_segments),
+        (
+            FittedCurve::Diode,
+            fit.diode_max_error_v,
+            fit.diode_segments,
+        ),
     ] {
-        if let Some(err) = err.filter(|&e| e > tol) {
-            w.push(format!(
-                "the {what} curve's straight-segment fit errs by up to {:.3} mV, more than \
-                 simulation.curve_tolerance_v = {:.3} mV, with all {segs} segments allowed: \
-                 raise simulation.curve_segments (at most {}) or loosen the tolerance",
-                err * 1e3,
-                tol * 1e3,
-                crate::devices::MAX_SEGMENTS
-            ));
+        if let Some(error_v) = err.filter(|&e| e > tol) {
+            w.push(Warning::CurveFit {
+                curve,
+                error_v,
+                tolerance_v: tol,
+                segments,
+            });
         }
     }
 }
@@ -440,5 +443,54 @@ impl CycleMap for ExactEngine {
     }
     fn refits(&self) -> u64 {
         self.refits
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A fit error above `simulation.curve_tolerance_v` gives the curve's
+    /// warning with the error, the tolerance and the segments; one at or
+    /// below it, or a linear curve (no error), gives none.
+    #[test]
+    fn a_fit_past_its_tolerance_is_warned_with_its_numbers() {
+        let mut s = crate::scenario::template();
+        s.simulation.curve_tolerance_v = 1e-3;
+        let fit = FitReport {
+            led_max_error_v: Some(1.5e-3),
+            diode_max_error_v: Some(1e-3),
+            led_segments: 32,
+            diode_segments: 8,
+            led_fit_range_a: None,
+            diode_fit_range_a: None,
+        };
+        let mut w = Vec::new();
+        fit_warnings(&s, &fit, &mut w);
+        assert_eq!(
+            w,
+            vec![Warning::CurveFit {
+                curve: FittedCurve::Led,
+                error_v: 1.5e-3,
+                tolerance_v: 1e-3,
+                segments: 32,
+            }]
+        );
+        let fit = FitReport {
+            led_max_error_v: None,
+            diode_max_error_v: Some(2e-3),
+            ..fit
+        };
+        let mut w = Vec::new();
+        fit_warnings(&s, &fit, &mut w);
+        assert_eq!(
+            w,
+            vec![Warning::CurveFit {
+                curve: FittedCurve::Diode,
+                error_v: 2e-3,
+                tolerance_v: 1e-3,
+                segments: 8,
+            }]
+        );
     }
 }

@@ -5,6 +5,7 @@
 use crate::metrics::Metrics;
 use crate::model::circuit::N_STATES;
 use crate::model::seam::RunStats;
+use crate::parts::advice::Warning;
 use crate::record::Waveform;
 use crate::scenario::{JacobianSource, SteadyMethod};
 use serde::Serialize;
@@ -99,7 +100,7 @@ pub struct SimResult {
     /// The start-up transient, if asked for.
     pub startup: Option<Waveform>,
     /// Things the engineer should look at.
-    pub warnings: Vec<String>,
+    pub warnings: Vec<Warning>,
     /// Work done.
     pub stats: RunStats,
 }

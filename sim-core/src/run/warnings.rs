@@ -1,13 +1,11 @@
-//! The warnings of a run, in words: high supply, saturation, conduction
-//! mode (with the inductance that keeps the current flowing), subharmonic
-//! operation, audible frequency, duty headroom.
+//! The warnings of a measured run as typed values
+//! ([`crate::parts::advice::Warning`]): high supply, saturation,
+//! conduction mode (with the inductance that keeps the current flowing),
+//! subharmonic operation, audible frequency, duty headroom.
 
 use crate::metrics::{ConductionMode, Metrics};
-use crate::scenario::{IntendedMode, Scenario};
-
-/// Idle share of the period above which DCM is called deep: the current
-/// collapses early in every off-time and rests at zero most of the cycle.
-pub(crate) const DEEP_DCM_IDLE: f64 = 0.5;
+pub use crate::parts::advice::{Warning, DEEP_DCM_IDLE, SELV_LIMIT_V};
+use crate::scenario::{ControllerSpec, IntendedMode, Scenario};
 
 /// The DCM warning: how deep, whether it contradicts the stated intent,
 /// and (constant off-time) the inductance that would just keep the
@@ -15,92 +13,184 @@ pub(crate) const DEEP_DCM_IDLE: f64 = 0.5;
 /// `t_off − t_idle`; the fall is linear in 1/L at the same peak and
 /// voltages, so `L · t_off / (t_off − t_idle)` stretches it over the whole
 /// off-time: the CCM/DCM boundary.
-fn dcm_words(s: &Scenario, m: &Metrics) -> String {
-    let idle = m.idle_time_s / m.period_s;
-    let what = if idle >= DEEP_DCM_IDLE {
-        format!(
-            "deep discontinuous conduction (DCM): the inductor current collapses to zero every \
-             cycle and rests there for {:.1} % of the period",
-            100.0 * idle
-        )
-    } else {
-        format!(
-            "discontinuous conduction (DCM): the inductor current rests at zero for {:.1} % of \
-             each period",
-            100.0 * idle
-        )
-    };
-    let hint = match s.controller {
-        crate::scenario::ControllerSpec::ConstantOffTime { off_time_s, .. }
-            if m.idle_time_s < off_time_s =>
-        {
-            let l_ccm = s.inductor.inductance_h * off_time_s / (off_time_s - m.idle_time_s);
-            format!(
-                "; roughly {:.3} µH or more (or a proportionally shorter off-time) keeps it \
-                 continuous (`chopwave boundary` finds the exact value)",
-                l_ccm * 1e6
-            )
+fn dcm_warning(s: &Scenario, m: &Metrics) -> Warning {
+    let ccm_inductance_h = match s.controller {
+        ControllerSpec::ConstantOffTime { off_time_s, .. } if m.idle_time_s < off_time_s => {
+            Some(s.inductor.inductance_h * off_time_s / (off_time_s - m.idle_time_s))
         }
-        _ => String::new(),
+        _ => None,
     };
-    if s.parts.intended_mode == IntendedMode::Ccm {
-        format!(
-            "{what}, but the design asks for CCM (parts.intended_mode = ccm): the LED average is \
-             {:.1} % of the inductor peak{hint}",
-            100.0 * m.led_current_avg_a / m.inductor_current_peak_a
-        )
-    } else {
-        format!(
-            "{what}. This is a valid way to run, not an error: the controller still regulates, \
-             and the LED average is {:.1} % of the inductor peak{hint}",
-            100.0 * m.led_current_avg_a / m.inductor_current_peak_a
-        )
+    Warning::Dcm {
+        idle_time_s: m.idle_time_s,
+        period_s: m.period_s,
+        led_current_avg_a: m.led_current_avg_a,
+        inductor_peak_a: m.inductor_current_peak_a,
+        ccm_inductance_h,
+        ccm_intended: s.parts.intended_mode == IntendedMode::Ccm,
     }
 }
 
-/// Supply voltage above which the usual safety-extra-low-voltage limit is
-/// passed, V (60 V DC; from memory).
-pub(crate) const SELV_LIMIT_V: f64 = 60.0;
-
 /// The warnings of a measured run (`order`: cycles per orbit).
-pub(crate) fn warnings(s: &Scenario, m: &Metrics, order: usize) -> Vec<String> {
+pub(crate) fn warnings(s: &Scenario, m: &Metrics, order: usize) -> Vec<Warning> {
     let mut w = Vec::new();
     if s.supply.voltage_v > SELV_LIMIT_V {
-        w.push(format!(
-            "supply {:.1} V is above the usual 60 V DC extra-low-voltage limit: touch-safe \
-             construction, insulation and creepage rules apply; follow local codes and licensed practice",
-            s.supply.voltage_v
-        ));
+        w.push(Warning::SupplyAboveSelv {
+            supply_v: s.supply.voltage_v,
+        });
     }
     if let Some(isat) = s.inductor.saturation_current_a {
         if m.inductor_current_peak_a > isat {
-            w.push(format!(
-                "inductor peak current {:.3} A exceeds its rated saturation current {:.3} A",
-                m.inductor_current_peak_a, isat
-            ));
+            w.push(Warning::InductorSaturation {
+                inductor_peak_a: m.inductor_current_peak_a,
+                saturation_a: isat,
+            });
         }
     }
     if m.conduction_mode == ConductionMode::Dcm {
-        w.push(dcm_words(s, m));
+        w.push(dcm_warning(s, m));
     } else if m.conduction_mode == ConductionMode::Boundary {
-        w.push("at the CCM/DCM boundary: the valley current touches zero".into());
+        w.push(Warning::ModeBoundary);
     }
     if order > 1 {
-        w.push(format!(
-            "subharmonic operation: the waveform repeats every {order} switching cycles"
-        ));
+        w.push(Warning::Subharmonic {
+            period_cycles: order,
+        });
     }
     if m.switching_frequency_hz < 20e3 {
-        w.push(format!(
-            "switching frequency {:.1} kHz is in the audible band (below 20 kHz)",
-            m.switching_frequency_hz / 1e3
-        ));
+        w.push(Warning::AudibleSwitching {
+            switching_frequency_hz: m.switching_frequency_hz,
+        });
     }
     if m.duty > 0.95 {
-        w.push(format!(
-            "duty cycle {:.1} % leaves little headroom: the supply is close to the LED string voltage",
-            100.0 * m.duty
-        ));
+        w.push(Warning::DutyHeadroom { duty: m.duty });
     }
     w
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::metrics::Totals;
+    use crate::scenario::template;
+
+    /// Figures of a healthy CCM point: 100 kHz, half duty, 0.7 A LEDs,
+    /// 0.8 A peak (set by hand; no run).
+    fn healthy() -> Metrics {
+        let mut m = Metrics::from_totals(&Totals::new());
+        m.conduction_mode = ConductionMode::Ccm;
+        m.switching_frequency_hz = 100e3;
+        m.period_s = 1e-5;
+        m.duty = 0.5;
+        m.idle_time_s = 0.0;
+        m.led_current_avg_a = 0.7;
+        m.inductor_current_peak_a = 0.8;
+        m
+    }
+
+    /// A healthy point at 12 V under the rating gives no warning.
+    #[test]
+    fn a_healthy_point_has_no_warning() {
+        let s = template();
+        assert!(s.supply.voltage_v <= SELV_LIMIT_V);
+        assert_eq!(warnings(&s, &healthy(), 1), vec![]);
+    }
+
+    /// Every threshold passed at once: each kind once, in order, with the
+    /// numbers it was given.
+    #[test]
+    fn each_threshold_gives_its_variant_with_its_numbers() {
+        let mut s = template();
+        s.supply.voltage_v = 72.0;
+        s.inductor.saturation_current_a = Some(0.75);
+        s.inductor.inductance_h = 68e-6;
+        s.controller = crate::scenario::ControllerSpec::ConstantOffTime {
+            peak_current_a: 0.8,
+            off_time_s: 4e-6,
+            delay_s: 0.0,
+            min_on_time_s: 0.0,
+        };
+        s.parts.intended_mode = IntendedMode::Ccm;
+        let mut m = healthy();
+        m.conduction_mode = ConductionMode::Dcm;
+        m.idle_time_s = 1e-6;
+        m.switching_frequency_hz = 18e3;
+        m.duty = 0.96;
+        // Boundary inductance L·t_off/(t_off − t_idle) = 68 µH · 4/3.
+        let l_ccm = 68e-6 * 4.0 / 3.0;
+        let got = warnings(&s, &m, 3);
+        let want = [
+            Warning::SupplyAboveSelv { supply_v: 72.0 },
+            Warning::InductorSaturation {
+                inductor_peak_a: 0.8,
+                saturation_a: 0.75,
+            },
+            Warning::Dcm {
+                idle_time_s: 1e-6,
+                period_s: 1e-5,
+                led_current_avg_a: 0.7,
+                inductor_peak_a: 0.8,
+                ccm_inductance_h: Some(l_ccm),
+                ccm_intended: true,
+            },
+            Warning::Subharmonic { period_cycles: 3 },
+            Warning::AudibleSwitching {
+                switching_frequency_hz: 18e3,
+            },
+            Warning::DutyHeadroom { duty: 0.96 },
+        ];
+        assert_eq!(got.len(), want.len(), "{got:?}");
+        for (g, w) in got.iter().zip(&want) {
+            match (g, w) {
+                (
+                    Warning::Dcm {
+                        ccm_inductance_h: Some(a),
+                        ..
+                    },
+                    Warning::Dcm {
+                        ccm_inductance_h: Some(b),
+                        ..
+                    },
+                ) => {
+                    assert!((a - b).abs() <= 1e-15, "{a} vs {b}");
+                    assert_eq!(g.to_string(), w.to_string());
+                }
+                _ => assert_eq!(g, w),
+            }
+        }
+    }
+
+    /// At the boundary a bare notice; a fixed-duty design in DCM gets no
+    /// inductance hint (it has no off-time to stretch); just inside each
+    /// threshold nothing.
+    #[test]
+    fn boundary_and_dcm_without_an_off_time_and_the_edges() {
+        let mut s = template();
+        let mut m = healthy();
+        m.conduction_mode = ConductionMode::Boundary;
+        assert_eq!(warnings(&s, &m, 1), vec![Warning::ModeBoundary]);
+
+        s.controller = crate::scenario::ControllerSpec::FixedDuty {
+            frequency_hz: 100e3,
+            duty: 0.5,
+        };
+        m.conduction_mode = ConductionMode::Dcm;
+        m.idle_time_s = 6e-6;
+        let w = warnings(&s, &m, 1);
+        assert!(matches!(
+            w.as_slice(),
+            [Warning::Dcm {
+                ccm_inductance_h: None,
+                ccm_intended: false,
+                ..
+            }]
+        ));
+        assert!(w[0].is_deep_dcm());
+
+        let mut m = healthy();
+        m.switching_frequency_hz = 20e3;
+        m.duty = 0.95;
+        s.supply.voltage_v = 60.0;
+        s.inductor.saturation_current_a = Some(0.8);
+        assert_eq!(warnings(&s, &m, 1), vec![]);
+    }
 }
