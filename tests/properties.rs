@@ -238,3 +238,53 @@ proptest! {
         }
     }
 }
+
+/// A design the random-design property drew with `PROPTEST_RNG_SEED=138`:
+/// a hysteretic buck into a 2 Ω resistor with long controller delays, so
+/// the current overshoots to about 3.8 A before the switch opens. With
+/// the switch off, the diode carries i(t) = −V_d/R + (I₀ + V_d/R)·e^(−t·R/L)
+/// (first-order RL decay; E&M ch. 2 for the freewheel path), which reaches
+/// zero after L/R·ln(1 + I₀·R/V_d) ≈ 3.7 µs; the diode then blocks and the
+/// current rests at zero (DCM). The exact engine misses that zero crossing
+/// (and the controller's 15 mA threshold on the way down): the current
+/// settles at −V_d/R ≈ −92 mA through a diode that cannot conduct
+/// backwards, and the energy balance opens by 5e-4.
+#[test]
+#[ignore = "bug: the event scan misses the diode-current zero (and the falling threshold) after a 3.8 A turn-off on a 2 µH / 2 Ω design; the current goes to −V_d/R"]
+fn an_overshooting_turn_off_still_ends_in_dcm() {
+    let mut s = sim_core::scenario::template();
+    s.name = "seed-138".into();
+    s.supply.voltage_v = 42.206_273_510_056_86;
+    s.supply.source_resistance_ohm = 0.0;
+    s.input_capacitor = None;
+    s.output_capacitor = None;
+    s.switch.on_resistance_ohm = 0.0;
+    s.diode = Diode::FixedDrop {
+        forward_voltage_v: 0.183_951_591_392_594_5,
+        series_resistance_ohm: 0.0,
+    };
+    s.inductor.inductance_h = 2e-6;
+    s.inductor.dcr_ohm = 0.0;
+    s.load = Load::Resistor {
+        resistance_ohm: 2.0,
+    };
+    s.controller = ControllerSpec::Hysteretic {
+        upper_current_a: 0.05,
+        lower_current_a: 0.015,
+        turn_off_delay_s: 1.962_303_641_076_242_5e-7,
+        turn_on_delay_s: 1.962_303_641_076_242_5e-7,
+    };
+    s.validate().expect("a valid design");
+    let r = simulate(&s, &RunOptions::default()).expect("it runs");
+    let m = &r.metrics;
+    assert!(
+        m.inductor_current_valley_a > -1e-6,
+        "the inductor current went to {} A through the diode",
+        m.inductor_current_valley_a
+    );
+    assert!(
+        m.energy_balance_residual.abs() < 1e-6,
+        "residual {}",
+        m.energy_balance_residual
+    );
+}
