@@ -429,6 +429,14 @@ pub(super) fn refine(
         }
     };
     let late = 1e-12 * step;
+    // Which bracket end the last evaluation replaced (+1 the upper, −1 the
+    // lower): when the same end is replaced twice in a row the function's
+    // value at the end kept is halved for the false-position step
+    // (the Illinois modification; Dowell & Jarratt, BIT 11, 1971), so a
+    // bracket with one flat end — an exponential settled to its asymptote
+    // long before a whole-interval step ends — still closes superlinearly
+    // instead of creeping a few per cent an evaluation.
+    let mut replaced = 0i8;
     for _ in 0..60 {
         if hi - lo <= EVENT_TIME_TOL_S * 1e-1 {
             break;
@@ -445,9 +453,17 @@ pub(super) fn refine(
             hi = t;
             z_hi = z;
             h_hi = h;
+            if replaced == 1 {
+                h_lo *= 0.5;
+            }
+            replaced = 1;
         } else {
             lo = t;
             h_lo = h;
+            if replaced == -1 {
+                h_hi *= 0.5;
+            }
+            replaced = -1;
         }
         let d = ev.slope(&z);
         let newton = t - h / d;
