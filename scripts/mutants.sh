@@ -17,9 +17,8 @@
 # these modules: sim-core's unit tests and the cross-crate `tests` binary
 # (not the CLI tests, the allocation test or the doc tests), skipping its
 # slow modules (the Dopri5 cross-check `reference::`, the README demo
-# `readme::`, the study sweeps `study::`; MUTANTS_SKIP overrides the
-# skip list, e.g. MUTANTS_SKIP="--skip readme::" for the study modules,
-# whose tests are in `study::`). It builds
+# `readme::`, the fit-accuracy cross-check `fit_accuracy::`; MUTANTS_SKIP
+# overrides the skip list). It builds
 # with the `mutants` profile (Cargo.toml): our crates unoptimised, so a
 # mutant rebuilds in seconds, dependencies optimised, so the simulations
 # in the tests still run quickly.
