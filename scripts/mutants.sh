@@ -9,6 +9,7 @@
 #   MUTANTS_JOBS=2 scripts/mutants.sh       # parallel builds (needs cores;
 #                                           # default one, not with --in-place)
 #   MUTANTS_OUT=dir scripts/mutants.sh      # where cargo-mutants writes
+#   MUTANTS_TIMEOUT=150 scripts/mutants.sh  # seconds before a mutant counts as hung (300)
 #   MUTANTS_RE='^sim-core/src/units.rs:138:' scripts/mutants.sh  # by name
 #   MUTANTS_EXTRA="--in-place" scripts/mutants.sh  # more cargo-mutants options
 #                                           # (--in-place: only in a scratch copy)
@@ -78,7 +79,7 @@ cargo mutants \
     --workspace \
     --no-shuffle \
     --profile mutants \
-    --timeout 300 \
+    --timeout "${MUTANTS_TIMEOUT:-300}" \
     --output "$OUT" \
     "${ARGS[@]}" \
     ${MUTANTS_EXTRA:-} \
