@@ -166,25 +166,6 @@ pub fn scenario_with(
     Scenario::from_json_value(&v)
 }
 
-/// The numeric value at a dotted path of a scenario held as JSON, or why
-/// there is none.
-pub fn numeric_field(base: &serde_json::Value, path: &str) -> Result<f64, String> {
-    let mut node = base;
-    for part in path.split('.') {
-        node = match node.get(part) {
-            Some(n) => n,
-            None => {
-                return Err(format!(
-                    "the scenario has no field `{part}` here; a path names a numeric field \
-                     that the scenario sets, e.g. supply.voltage_v or inductor.inductance_h"
-                ))
-            }
-        };
-    }
-    node.as_f64()
-        .ok_or_else(|| format!("`{path}` is not a number in the scenario ({node})"))
-}
-
 /// Highest supply voltage a study will apply, V: the larger of the
 /// scenario's own and any swept or toleranced supply value.
 pub fn max_supply_v(s: &Scenario, extra: impl IntoIterator<Item = f64>) -> f64 {
