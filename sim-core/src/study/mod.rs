@@ -154,7 +154,9 @@ pub fn exact_text(v: f64) -> String {
 }
 
 /// The scenario `base` with each `(path, value)` set, loaded and validated
-/// as if the user had written those values into the file.
+/// as if the user had written those values into the file: the JSON route,
+/// kept as the reference the studies' own route ([`Scenario::with_values`]
+/// on the `Scenario`, no JSON) is checked against bit for bit.
 pub fn scenario_with(
     base: &serde_json::Value,
     sets: &[(String, f64)],
