@@ -9,15 +9,29 @@
 //! runs with no study machinery, 2 vs 1 thread) says what two threads can
 //! gain on the machine at that moment.
 //!
+//! The per-point overhead comes first: a point's time in a one-thread
+//! sweep (spread) minus the engine's own time for the same points, run
+//! one after another from scenarios made beforehand
+//! ([`sim_core::run::run_point`], as a study point runs); and the point
+//! set-up alone, by the JSON route (`study::scenario_with`, and for a
+//! spread sample the LED factor applied and validated a second time, as
+//! before 2026-12-04) and by the route the studies take now
+//! (`Scenario::with_values`, `spread::scenario_at`).
+//!
 //! `cargo bench --bench study`; `STUDY_BENCH_SAMPLES=N` changes the spread
-//! size, `STUDY_BENCH_POINTS=N` the sweep's.
+//! size, `STUDY_BENCH_POINTS=N` the sweep's; `STUDY_BENCH_OVERHEAD_ONLY=1`
+//! stops after the overhead figures.
 
 use rayon::prelude::*;
+use sim_core::run::run_point;
 use sim_core::scenario::SteadyMethod;
 use sim_core::study::run::{Hooks, RunSettings};
-use sim_core::study::spread::{spread, SpreadSettings};
+use sim_core::study::spread::{
+    params, sample_inputs, scale_led_voltage, spread, Param, ParamKind, SpreadSettings,
+};
 use sim_core::study::sweep::sweep;
 use sim_core::study::vary::{Grid, Vary};
+use sim_core::study::{scenario_json, scenario_with};
 use sim_core::Scenario;
 use sim_core::{run::drive::simulate, run::RunOptions};
 use std::time::Instant;
@@ -48,6 +62,137 @@ fn pool(n: usize) -> rayon::ThreadPool {
         .expect("thread pool")
 }
 
+/// Best of `reps` wall times of `f`, s.
+fn best_of(reps: usize, mut f: impl FnMut()) -> f64 {
+    (0..reps)
+        .map(|_| {
+            let t0 = Instant::now();
+            f();
+            t0.elapsed().as_secs_f64()
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
+/// A spread sample by the JSON route (what `spread::scenario_at` did
+/// before it took the `Scenario`): the fields written as exact text,
+/// loaded and validated, the LED factor applied and validated again.
+fn sample_by_json(base: &serde_json::Value, params: &[Param], x: &[f64]) -> Option<Scenario> {
+    let mut sets = Vec::new();
+    let mut led = None;
+    for (p, &v) in params.iter().zip(x) {
+        match &p.kind {
+            ParamKind::Field { path, .. } => sets.push((path.clone(), v)),
+            ParamKind::Supply { .. } => sets.push(("supply.voltage_v".to_string(), v)),
+            ParamKind::LedVoltage { at_current_a } => led = Some((v, *at_current_a)),
+        }
+    }
+    let mut s = scenario_with(base, &sets).ok()?;
+    if let Some((f, i)) = led {
+        scale_led_voltage(&mut s, f, i).ok()?;
+        s.validate().ok()?;
+    }
+    Some(s)
+}
+
+/// The per-point overhead outside the engine, on one thread.
+fn overhead(s: &Scenario, grid: &Grid) {
+    let n = grid.len();
+    let p1 = pool(1);
+    let reps = 5;
+    // Sweep points: the study, and the engine alone on the same scenarios.
+    let settings = RunSettings::default();
+    let study = p1.install(|| {
+        best_of(reps, || {
+            let t = sweep(s, grid, &settings, None, &Hooks::default());
+            assert_eq!(t.failed(), 0);
+        })
+    });
+    let json = scenario_json(s);
+    let points: Vec<Scenario> = (0..n)
+        .map(|k| scenario_with(&json, &grid.point(k)).expect("valid point"))
+        .collect();
+    let engine = best_of(reps, || {
+        for p in &points {
+            run_point(p, &RunOptions::default()).expect("runs");
+        }
+    });
+    let by_json = best_of(reps, || {
+        for k in 0..n {
+            std::hint::black_box(scenario_with(&json, &grid.point(k)).ok());
+        }
+    });
+    let typed = best_of(reps, || {
+        for k in 0..n {
+            std::hint::black_box(s.with_values(&grid.point(k)).ok());
+        }
+    });
+    let us = |t: f64, m: usize| t / m as f64 * 1e6;
+    println!(
+        "sweep point, 1 thread: {:.1} us in the study, {:.1} us in the engine alone: \
+         overhead {:.1} us ({:.0} % of the point); set-up alone {:.1} us by JSON, \
+         {:.1} us by with_values",
+        us(study, n),
+        us(engine, n),
+        us(study - engine, n),
+        100.0 * (study - engine) / study,
+        us(by_json, n),
+        us(typed, n)
+    );
+    // Spread samples (warm from the nominal, as the spread runs them).
+    let m: usize = 1000;
+    let limits = s.spec.unwrap_or_default();
+    let set = SpreadSettings {
+        samples: m,
+        seed: 1,
+        run: RunSettings::default(),
+    };
+    let study = p1.install(|| {
+        best_of(reps, || {
+            let t = spread(s, &limits, &set, None, &Hooks::default()).unwrap();
+            assert_eq!(t.failed(), 0);
+        })
+    });
+    let params = params(s).unwrap();
+    let nominal = run_point(s, &RunOptions::default()).expect("nominal runs");
+    let warm = RunOptions {
+        initial_state: Some(nominal.steady.state_at_turn_on),
+        ..RunOptions::default()
+    };
+    let inputs: Vec<Vec<f64>> = (0..m).map(|k| sample_inputs(&params, 1, k)).collect();
+    let samples: Vec<Scenario> = inputs
+        .iter()
+        .map(|x| sample_by_json(&json, &params, x).expect("valid sample"))
+        .collect();
+    // The spread's own nominal run, counted in its time: added here too.
+    let engine = best_of(reps, || {
+        run_point(s, &RunOptions::default()).expect("runs");
+        for p in &samples {
+            run_point(p, &warm).expect("runs");
+        }
+    });
+    let by_json = best_of(reps, || {
+        for x in &inputs {
+            std::hint::black_box(sample_by_json(&json, &params, x));
+        }
+    });
+    let typed = best_of(reps, || {
+        for x in &inputs {
+            std::hint::black_box(typed_sample(s, &json, &params, x));
+        }
+    });
+    println!(
+        "spread sample, 1 thread: {:.1} us in the study, {:.1} us in the engine alone: \
+         overhead {:.1} us ({:.0} % of the sample); set-up alone {:.1} us by JSON, \
+         {:.1} us as the spread sets it now",
+        us(study, m),
+        us(engine, m),
+        us(study - engine, m),
+        100.0 * (study - engine) / study,
+        us(by_json, m),
+        us(typed, m)
+    );
+}
+
 fn main() {
     // `cargo bench` passes `--bench`; nothing to parse.
     let s = Scenario::from_json_str(SCENARIO).expect("bundled scenario");
@@ -64,6 +209,10 @@ fn main() {
     let n = grid.len();
     println!("study benchmark: {} ({n}-point supply sweep)", s.name);
     println!("peak RSS at start: {:?} KiB", peak_rss_kib());
+    overhead(&s, &grid);
+    if std::env::var_os("STUDY_BENCH_OVERHEAD_ONLY").is_some() {
+        return;
+    }
     let mut times = std::collections::BTreeMap::new();
     // Shooting (the default: every point on its own from its averaged
     // operating point), and cycling cold and with warm-start chains.
@@ -190,4 +339,14 @@ fn main() {
         t.failed(),
         peak_rss_kib()
     );
+}
+
+/// A spread sample as the spread sets it now.
+fn typed_sample(
+    s: &Scenario,
+    _json: &serde_json::Value,
+    params: &[Param],
+    x: &[f64],
+) -> Option<Scenario> {
+    sim_core::study::spread::scenario_at(s, params, x).ok()
 }

@@ -36,26 +36,49 @@ pub(super) fn summary_json(s: &SpreadSummary) -> String {
 pub(super) fn write_table(t: &StudyTable, dir: &Path, plots: bool) -> Result<Vec<PathBuf>> {
     output::ensure_dir(dir)?;
     let base = file_base(&t.manifest);
-    let mut written = Vec::new();
+    // Plots of an incomplete study would show gaps as if they were
+    // results: drawn only once every point has run.
+    let draw = plots && t.manifest.shard.is_none() && t.manifest.incomplete.is_none();
+    // The tables and the plots are written side by side, the CSV beside
+    // the JSON too: each file waits on its flush to disk, which the
+    // other files' work can overlap (on one thread, one after another).
+    let (tables, pngs) = rayon::join(
+        || write_tables(t, dir, &base),
+        || {
+            if draw {
+                write_plots(t, dir, &base)
+            } else {
+                Ok(vec![])
+            }
+        },
+    );
+    let mut written = tables?;
+    written.extend(pngs?);
+    Ok(written)
+}
+
+/// The table's CSV and JSON and, for a whole study, the spread summary.
+fn write_tables(t: &StudyTable, dir: &Path, base: &str) -> Result<Vec<PathBuf>> {
     let csv = dir.join(format!("{base}.csv"));
-    output::write_pieces(&csv, t.csv_lines())?;
-    written.push(csv);
     let json = dir.join(format!("{base}.json"));
-    output::write_pieces(&json, t.json_pieces())?;
-    written.push(json);
-    if t.manifest.shard.is_some() {
-        return Ok(written);
-    }
-    if t.manifest.kind != StudyKind::Sweep {
+    let (a, b) = rayon::join(
+        || output::write_pieces(&csv, t.csv_lines()),
+        || output::write_pieces(&json, t.json_pieces()),
+    );
+    a?;
+    b?;
+    let mut written = vec![csv, json];
+    if t.manifest.shard.is_none() && t.manifest.kind != StudyKind::Sweep {
         let p = dir.join(format!("{base}-summary.json"));
         output::write_text(&p, &summary_json(&summarize(t)))?;
         written.push(p);
     }
-    // Plots of an incomplete study would show gaps as if they were
-    // results: drawn only once every point has run.
-    if !plots || t.manifest.incomplete.is_some() {
-        return Ok(written);
-    }
+    Ok(written)
+}
+
+/// The plots of a whole, complete study.
+fn write_plots(t: &StudyTable, dir: &Path, base: &str) -> Result<Vec<PathBuf>> {
+    let mut written = Vec::new();
     match (t.manifest.kind, t.manifest.inputs.len()) {
         (StudyKind::Sweep, 1) => {
             let a = dir.join(format!("{base}-current.png"));

@@ -425,10 +425,23 @@ impl Scenario {
     /// finite number) goes the way of a `PATH=VALUE` override on the
     /// scenario as JSON, so the result or the error is the same either way.
     pub fn with_values(&self, sets: &[(String, f64)]) -> Result<Scenario, ScenarioError> {
+        match self.with_values_unvalidated(sets) {
+            Some(s) => {
+                s.validate()?;
+                Ok(s)
+            }
+            None => self.with_values_as_json(sets),
+        }
+    }
+
+    /// This scenario with each `(path, value)` set in place, not yet
+    /// validated: what [`Scenario::with_values`] validates. None when a
+    /// set needs the JSON route (then use `with_values`).
+    pub(crate) fn with_values_unvalidated(&self, sets: &[(String, f64)]) -> Option<Scenario> {
         let mut s = self.clone();
         for (path, x) in sets {
             if !s.set_in_place(path, *x) {
-                return self.with_values_as_json(sets);
+                return None;
             }
         }
         // What the JSON route's round trip does to the fields it leaves
@@ -439,8 +452,20 @@ impl Scenario {
         if s.parts.is_empty() {
             s.parts = PartData::default();
         }
-        s.validate()?;
-        Ok(s)
+        Some(s)
+    }
+
+    /// The numeric field at `path` as a study reads its nominal value: the
+    /// table's value, or (for a path the table does not hold here) what
+    /// the scenario as JSON has there, or why there is no number.
+    pub(crate) fn numeric_field(&self, path: &str) -> Result<f64, String> {
+        match self.numeric_value(path) {
+            Some(v) => Ok(v),
+            None => numeric_field(
+                &serde_json::to_value(self).unwrap_or(serde_json::Value::Null),
+                path,
+            ),
+        }
     }
 
     /// Sets the field at `path` when the table has it and the value fits

@@ -12,7 +12,7 @@
 
 use super::run::RunSettings;
 use super::vary::{Grid, Vary};
-use super::{numeric_field, scenario_json, scenario_with, StudyError};
+use super::StudyError;
 use crate::metrics::Metrics;
 use crate::model::circuit::N_STATES;
 use crate::run::{run_point, RunOptions};
@@ -84,7 +84,7 @@ pub struct Boundary {
 }
 
 struct Searcher<'a> {
-    base: serde_json::Value,
+    base: &'a Scenario,
     path: &'a str,
     fixed: &'a [(String, f64)],
     settings: &'a BoundarySettings,
@@ -115,11 +115,14 @@ impl Searcher<'_> {
         }
         let mut sets = self.fixed.to_vec();
         sets.push((self.path.to_string(), x));
-        let s = scenario_with(&self.base, &sets).map_err(|source| StudyError::BoundaryPoint {
-            path: self.path.into(),
-            at: show(x, self.path),
-            source,
-        })?;
+        let s = self
+            .base
+            .with_values(&sets)
+            .map_err(|source| StudyError::BoundaryPoint {
+                path: self.path.into(),
+                at: show(x, self.path),
+                source,
+            })?;
         let near = if self.settings.run.warm_start {
             self.known
                 .iter()
@@ -163,13 +166,14 @@ pub fn find_boundary(
     fixed: &[(String, f64)],
     settings: &BoundarySettings,
 ) -> Result<Boundary, StudyError> {
-    let base = scenario_json(s);
-    let nominal = numeric_field(&base, path).map_err(|reason| StudyError::Boundary {
-        path: path.into(),
-        reason,
-    })?;
+    let nominal = s
+        .numeric_field(path)
+        .map_err(|reason| StudyError::Boundary {
+            path: path.into(),
+            reason,
+        })?;
     let mut q = Searcher {
-        base,
+        base: s,
         path,
         fixed,
         settings,

@@ -154,7 +154,9 @@ pub(crate) fn exact_text(v: f64) -> String {
 }
 
 /// The scenario `base` with each `(path, value)` set, loaded and validated
-/// as if the user had written those values into the file.
+/// as if the user had written those values into the file: the JSON route,
+/// kept as the reference the studies' own route ([`Scenario::with_values`]
+/// on the `Scenario`, no JSON) is checked against bit for bit.
 pub fn scenario_with(
     base: &serde_json::Value,
     sets: &[(String, f64)],
@@ -164,25 +166,6 @@ pub fn scenario_with(
         apply_override(&mut v, path, &exact_text(*x))?;
     }
     Scenario::from_json_value(&v)
-}
-
-/// The numeric value at a dotted path of a scenario held as JSON, or why
-/// there is none.
-pub(crate) fn numeric_field(base: &serde_json::Value, path: &str) -> Result<f64, String> {
-    let mut node = base;
-    for part in path.split('.') {
-        node = match node.get(part) {
-            Some(n) => n,
-            None => {
-                return Err(format!(
-                    "the scenario has no field `{part}` here; a path names a numeric field \
-                     that the scenario sets, e.g. supply.voltage_v or inductor.inductance_h"
-                ))
-            }
-        };
-    }
-    node.as_f64()
-        .ok_or_else(|| format!("`{path}` is not a number in the scenario ({node})"))
 }
 
 /// Highest supply voltage a study will apply, V: the larger of the

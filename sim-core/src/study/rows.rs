@@ -305,7 +305,7 @@ impl Row {
                 warm_start: s.warm_start,
                 metrics: columns.iter().map(|c| c.cell(&s.metrics)).collect(),
             },
-            Err(e) => RowOutcome::Failed(e.clone()),
+            Err(e) => RowOutcome::Failed(e.to_string()),
         };
         Row {
             index: p.index,

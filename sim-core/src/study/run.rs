@@ -23,6 +23,7 @@
 //! new points from starting ([`RunSettings::deadline`]).
 
 use super::rows::Row;
+use crate::error::{ScenarioError, SimError};
 use crate::metrics::Metrics;
 use crate::model::circuit::N_STATES;
 use crate::run::{run_point, EngineKind, RunOptions};
@@ -98,12 +99,55 @@ pub struct PointSummary {
     pub supply_v: f64,
 }
 
-/// One point's outcome: its summary, or the reason it failed (a scenario
-/// problem or a simulation failure, in words).
-pub(crate) type PointOutcome = Result<PointSummary, String>;
+/// Why a point has no figures. A scenario problem or a simulation
+/// failure keeps its error as the source; the text (what the row's
+/// `error` holds) is the same as the error's, with the prefix shown.
+#[derive(Debug, Clone, thiserror::Error)]
+#[non_exhaustive]
+pub enum PointError {
+    /// The sweep point's values make the scenario invalid.
+    #[error("invalid point: {0}")]
+    InvalidPoint(#[source] ScenarioError),
+    /// The spread sample's (or corner's) values make the scenario invalid.
+    #[error("invalid sample: {0}")]
+    InvalidSample(#[source] ScenarioError),
+    /// The LED forward-voltage factor cannot be applied to the load.
+    #[error(transparent)]
+    LedVoltage(#[from] LedVoltageError),
+    /// The simulation failed.
+    #[error(transparent)]
+    Run(#[from] SimError),
+    /// A bug: running the point panicked.
+    #[error("internal error while running this point (please report it)")]
+    Internal,
+}
+
+/// Why an LED forward-voltage factor cannot be applied to the load.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum LedVoltageError {
+    /// The scaled forward voltage is at or below the series-resistance
+    /// drop, so no junction voltage is left.
+    #[error(
+        "an LED forward voltage {factor} times nominal is below the series-resistance \
+         drop at {at_current_a} A"
+    )]
+    BelowSeriesDrop {
+        /// The factor on the nominal forward voltage.
+        factor: f64,
+        /// The current the factor holds at, A.
+        at_current_a: f64,
+    },
+    /// The load is a resistor.
+    #[error("the load has no LED forward voltage")]
+    NotAnLed,
+}
+
+/// One point's outcome: its summary, or why it failed.
+pub type PointOutcome = Result<PointSummary, PointError>;
 
 /// A point's index, the input values it was given and its outcome.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone)]
 pub struct PointResult {
     /// Index in the whole study.
     pub index: usize,
@@ -125,8 +169,7 @@ fn run_one(s: &Scenario, engine: EngineKind, start: Option<[f64; N_STATES]>) -> 
             },
         )
     }))
-    .map_err(|_| "internal error while running this point (please report it)".to_string())?
-    .map_err(|e| e.to_string())?;
+    .map_err(|_| PointError::Internal)??;
     Ok(PointSummary {
         metrics: r.metrics,
         cycles_to_settle: r.steady.cycles_to_settle,
@@ -146,7 +189,7 @@ pub(crate) struct PointInput {
     /// The row's label (corners), if any.
     pub label: Option<String>,
     /// The scenario, or why the point has none.
-    pub scenario: Result<Scenario, String>,
+    pub scenario: Result<Scenario, PointError>,
 }
 
 /// A finished point as a study streams it: its row and, for a point that

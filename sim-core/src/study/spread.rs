@@ -94,3 +94,5 @@ impl SpecLimits {
 
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_sample;

@@ -5,9 +5,9 @@ use super::rows::{
     digest, metric_columns, Columns, Incomplete, Manifest, ShardInfo, StudyKind, StudyTable,
     STUDY_FORMAT,
 };
-use super::run::{run_points, Hooks, PointInput, RunSettings, Shard};
+use super::run::{run_points, Hooks, PointError, PointInput, RunSettings, Shard};
+use super::scenario_json;
 use super::vary::Grid;
-use super::{scenario_json, scenario_with};
 use crate::run::EngineKind;
 use crate::scenario::{ControllerSpec, Scenario};
 use std::ops::Range;
@@ -152,7 +152,6 @@ pub fn sweep(
 ) -> StudyTable {
     let settings = &settings.for_sweep_of(s);
     let manifest = sweep_manifest(s, grid, settings, shard);
-    let base = scenario_json(s);
     run_table(
         manifest,
         settings,
@@ -161,7 +160,7 @@ pub fn sweep(
             PointInput {
                 inputs: sets.iter().map(|(_, v)| *v).collect(),
                 label: None,
-                scenario: scenario_with(&base, &sets).map_err(|e| format!("invalid point: {e}")),
+                scenario: s.with_values(&sets).map_err(PointError::InvalidPoint),
             }
         },
         hooks,

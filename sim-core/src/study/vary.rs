@@ -6,7 +6,7 @@
 //! Values may use engineering notation with the field's unit (`4.7u`,
 //! `22uH`); the unit is taken from the field name's suffix (`_h`, `_v`, …).
 
-use super::{numeric_field, StudyError};
+use super::StudyError;
 use crate::error::ScenarioError;
 use crate::scenario::Scenario;
 use crate::units::{parse_quantity, Unit};
@@ -108,8 +108,7 @@ impl Vary {
     /// path must name a numeric field the scenario sets.
     pub fn parse(spec: &str, scenario: &Scenario) -> Result<Vary, StudyError> {
         let (path, rest) = split_spec(spec)?;
-        let base = super::scenario_json(scenario);
-        numeric_field(&base, &path).map_err(|r| bad(spec, r))?;
+        scenario.numeric_field(&path).map_err(|r| bad(spec, r))?;
         let values = if rest == "range" || rest.starts_with("range:") {
             if path != "supply.voltage_v" {
                 return Err(bad(
@@ -171,8 +170,7 @@ impl Vary {
         scenario: &Scenario,
     ) -> Result<(String, f64, f64), StudyError> {
         let (path, rest) = split_spec(spec)?;
-        let base = super::scenario_json(scenario);
-        numeric_field(&base, &path).map_err(|r| bad(spec, r))?;
+        scenario.numeric_field(&path).map_err(|r| bad(spec, r))?;
         let (lo, hi) = if rest == "range" {
             let r = scenario
                 .supply

@@ -4,7 +4,8 @@
 
 use crate::scenario::Distribution;
 use crate::scenario::{Load, Scenario};
-use crate::study::{numeric_field, scenario_json, scenario_with, StudyError};
+use crate::study::run::{LedVoltageError, PointError};
+use crate::study::StudyError;
 use crate::units::{eng_exact, short_number, thermal_voltage_v, Unit};
 use rand_chacha::rand_core::{RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -114,13 +115,14 @@ impl Param {
 /// parts, then the LED forward voltage, then the supply.
 pub fn params(s: &Scenario) -> Result<Vec<Param>, StudyError> {
     let t = s.tolerances.clone().unwrap_or_default();
-    let json = scenario_json(s);
     let mut v = Vec::new();
     for p in &t.parts {
-        let nominal = numeric_field(&json, &p.path).map_err(|reason| StudyError::Scenario {
-            path: p.path.clone(),
-            reason,
-        })?;
+        let nominal = s
+            .numeric_field(&p.path)
+            .map_err(|reason| StudyError::Scenario {
+                path: p.path.clone(),
+                reason,
+            })?;
         v.push(Param {
             name: p.path.clone(),
             kind: ParamKind::Field {
@@ -234,13 +236,19 @@ pub fn sample_inputs(params: &[Param], seed: u64, index: usize) -> Vec<f64> {
     params.iter().map(|p| p.at(unit(&mut rng))).collect()
 }
 
-/// The scenario with the parameters at `values`.
+/// The scenario `base` with the parameters at `values`, validated once.
+///
+/// The fields are set in place ([`Scenario::with_values`]) and the LED
+/// forward-voltage factor applied to the result before its one
+/// validation, so the sample is checked as the design it is (a sample
+/// whose fields alone, before the factor, would not pass is judged with
+/// the factor applied). Bit for bit the scenario the JSON route gives.
 pub fn scenario_at(
-    base: &serde_json::Value,
+    base: &Scenario,
     params: &[Param],
     values: &[f64],
-) -> Result<Scenario, String> {
-    let mut sets = Vec::new();
+) -> Result<Scenario, PointError> {
+    let mut sets = Vec::with_capacity(params.len());
     let mut led = None;
     for (p, &v) in params.iter().zip(values) {
         match &p.kind {
@@ -249,17 +257,22 @@ pub fn scenario_at(
             ParamKind::LedVoltage { at_current_a } => led = Some((v, *at_current_a)),
         }
     }
-    let mut s = scenario_with(base, &sets).map_err(|e| format!("invalid sample: {e}"))?;
-    if let Some((factor, i_ref)) = led {
-        scale_led_voltage(&mut s, factor, i_ref)?;
-        s.validate().map_err(|e| format!("invalid sample: {e}"))?;
-    }
+    let Some((factor, i_ref)) = led else {
+        return base.with_values(&sets).map_err(PointError::InvalidSample);
+    };
+    let mut s = match base.with_values_unvalidated(&sets) {
+        Some(s) => s,
+        // A value only the JSON route takes: loaded (and checked) that way.
+        None => base.with_values(&sets).map_err(PointError::InvalidSample)?,
+    };
+    scale_led_voltage(&mut s, factor, i_ref)?;
+    s.validate().map_err(PointError::InvalidSample)?;
     Ok(s)
 }
 
 /// Scales the LED string's forward voltage by `factor` (at `i_ref` for
 /// the exponential model, whose saturation current is solved for).
-pub fn scale_led_voltage(s: &mut Scenario, factor: f64, i_ref: f64) -> Result<(), String> {
+pub fn scale_led_voltage(s: &mut Scenario, factor: f64, i_ref: f64) -> Result<(), LedVoltageError> {
     // The saturation current at the junction temperature (the scenario's
     // value holds at its reference temperature; the junction law scales
     // both alike).
@@ -287,14 +300,14 @@ pub fn scale_led_voltage(s: &mut Scenario, factor: f64, i_ref: f64) -> Result<()
             let v = nvt * (i_ref / is_t).ln_1p() + *series_resistance_ohm * i_ref;
             let junction = factor * v - *series_resistance_ohm * i_ref;
             if junction <= 0.0 {
-                return Err(format!(
-                    "an LED forward voltage {factor} times nominal is below the series-resistance \
-                     drop at {i_ref} A"
-                ));
+                return Err(LedVoltageError::BelowSeriesDrop {
+                    factor,
+                    at_current_a: i_ref,
+                });
             }
             *saturation_current_a *= i_ref / (junction / nvt).exp_m1() / is_t;
             Ok(())
         }
-        Load::Resistor { .. } => Err("the load has no LED forward voltage".into()),
+        Load::Resistor { .. } => Err(LedVoltageError::NotAnLed),
     }
 }

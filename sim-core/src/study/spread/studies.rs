@@ -9,7 +9,7 @@ use crate::scenario::SpecLimits;
 use crate::study::rows::{Manifest, ShardInfo, StudyKind, StudyTable};
 use crate::study::run::{Hooks, PointInput, RunSettings, Shard};
 use crate::study::sweep::{base_manifest, run_table};
-use crate::study::{scenario_json, StudyError};
+use crate::study::StudyError;
 
 /// What a spread or corners study needs besides the scenario.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -135,13 +135,12 @@ pub fn spread(
     hooks: &Hooks<'_>,
 ) -> Result<StudyTable, StudyError> {
     let (params, run, manifest) = spread_setup(s, limits, settings, shard)?;
-    let base = scenario_json(s);
     Ok(run_table(
         manifest,
         &run,
         |k| {
             let x = sample_inputs(&params, settings.seed, k);
-            let scenario = scenario_at(&base, &params, &x);
+            let scenario = scenario_at(s, &params, &x);
             PointInput {
                 inputs: x,
                 label: None,
@@ -201,7 +200,6 @@ pub fn corners(
     hooks: &Hooks<'_>,
 ) -> Result<StudyTable, StudyError> {
     let (params, settings, manifest) = corners_setup(s, limits, run, shard)?;
-    let base = scenario_json(s);
     Ok(run_table(
         manifest,
         &settings,
@@ -211,7 +209,7 @@ pub fn corners(
                 .enumerate()
                 .map(|(j, p)| p.extreme(k >> j & 1 == 1))
                 .collect();
-            let scenario = scenario_at(&base, &params, &x);
+            let scenario = scenario_at(s, &params, &x);
             PointInput {
                 inputs: x,
                 label: Some(corner_label(&params, k)),
