@@ -114,7 +114,7 @@ impl JunctionLaw {
 /// reference temperature. From the model v_j = n·Vt·ln(1 + i/Is(T)):
 /// dv_j/dT = (v_j − f·(XTI·Vt + E_g/q))/T with f = i/(i + Is), so
 /// E_g/q = (v_j − T·dv_j/dT)/f − XTI·Vt.
-pub(crate) fn bandgap_from_tempco_ev(
+pub fn bandgap_from_tempco_ev(
     is0: f64,
     n: f64,
     reference_c: f64,
@@ -641,12 +641,12 @@ mod tests {
 }
 
 /// Most user points in an inductance-versus-current curve.
-pub(crate) const MAX_L_POINTS: usize = 8;
+pub const MAX_L_POINTS: usize = 8;
 /// Straight pieces of ψ(i) the exact engine uses per interval between two
 /// user points (32: on the cross-check case the LED average then agrees
 /// with the continuous-L reference to 2e-6, against 6e-4 with 8 and 1.3e-4
 /// with 16).
-pub(crate) const L_SUBDIVISIONS: usize = 32;
+pub const L_SUBDIVISIONS: usize = 32;
 /// Most constant-inductance segments (user intervals × subdivisions, plus
 /// the ends).
 pub(crate) const MAX_L_SEGMENTS: usize = (MAX_L_POINTS - 1) * L_SUBDIVISIONS + 2;

@@ -9,7 +9,7 @@
 //! The exact engine ([`exact`]) treats the circuit as piecewise linear and
 //! propagates each piece in closed form with the matrix exponential,
 //! locating every switching event by root finding on the closed-form
-//! trajectory; the reference engine ([`reference`]) integrates the full
+//! trajectory; the reference engine ([`mod@reference`]) integrates the full
 //! exponential device curves with `ode_solvers`' Dopri5 as an independent
 //! check.
 //!

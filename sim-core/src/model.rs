@@ -22,4 +22,4 @@ pub mod seam;
 /// is negligible beside any loss. Without an output capacitor the
 /// exponential string is also taken to block below this current (see
 /// `Model::led_idle_v`).
-pub(crate) const DIODE_FLOOR_REL: f64 = 1e-9;
+pub const DIODE_FLOOR_REL: f64 = 1e-9;

@@ -268,7 +268,7 @@ impl Waveform {
 /// `current_ref_a`, the LED and input-node voltages against their steady
 /// values (the largest of the four). Infinite when there is no steady
 /// sample.
-pub(crate) fn distance_from_steady(s: &Sample, steady_on: &[Sample], current_ref_a: f64) -> f64 {
+pub fn distance_from_steady(s: &Sample, steady_on: &[Sample], current_ref_a: f64) -> f64 {
     let i_ref = current_ref_a.abs().max(1e-9);
     steady_on
         .iter()

@@ -27,7 +27,7 @@ use crate::scenario::{ControllerSpec, Scenario};
 use serde::Serialize;
 
 /// Version of the JSON layout; bumped when a field changes meaning.
-pub(crate) const JSON_SCHEMA: &str = "chopwave-run-2";
+pub const JSON_SCHEMA: &str = "chopwave-run-2";
 
 /// Everything a run reports about one design at steady state.
 #[derive(Debug, Clone, Serialize)]

@@ -10,7 +10,7 @@
 //!   the map and its Jacobian ([`shooting::CycleMap`]).
 //! - [`steady`]: the cycling steady-state detector.
 //! - [`startup`]: the start-up transient from power-on.
-//! - [`assess`]: the full run — DC-bias capacitance and LED temperature
+//! - [`mod@assess`]: the full run — DC-bias capacitance and LED temperature
 //!   iterated to convergence around [`simulate`], temperatures, design
 //!   checks, the ends of a declared supply range, the alternatives.
 //! - [`result`]: what a run produces ([`SimResult`], [`SteadyInfo`], …).

@@ -36,12 +36,12 @@ pub trait CycleEngine {
 }
 
 /// Zero-length intervals in a row before a run is stopped as chattering.
-pub(crate) const MAX_ZERO_INTERVALS: u32 = 64;
+pub const MAX_ZERO_INTERVALS: u32 = 64;
 
 /// Counts zero-length intervals in a row (events with no time between
 /// them) and stops a run that chatters; shared by both engines.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub(crate) struct ChatterGuard {
+pub struct ChatterGuard {
     zero_run: u32,
 }
 

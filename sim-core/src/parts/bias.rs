@@ -4,7 +4,7 @@
 //! Class 2 ceramics (X7R, X5R, Y5V) lose much of their capacitance at a DC
 //! bias; class 1 (C0G) and the electrolytic, tantalum and polymer types
 //! hardly do. The engine uses the **effective capacitance at the
-//! steady-state average voltage across the part**: [`crate::run::assess`]
+//! steady-state average voltage across the part**: [`fn@crate::run::assess`]
 //! starts from the supply voltage (input) and the LED voltage at the target
 //! current (output), simulates, re-evaluates the curve at the measured
 //! averages and repeats until the capacitance changes by under 0.1 %.

@@ -536,11 +536,11 @@ pub fn worst(checks: &[Check]) -> Status {
 /// Allowed change of the average LED current over the declared input
 /// range when `parts.current_accuracy_pct` is not given, % (**common
 /// practice**).
-pub(crate) const DEFAULT_REGULATION_PCT: f64 = 10.0;
+pub const DEFAULT_REGULATION_PCT: f64 = 10.0;
 
 /// One end of the declared input range, as the assessment met it.
 #[derive(Debug, Clone, PartialEq)]
-pub(crate) enum RangeEnd {
+pub enum RangeEnd {
     /// The design ran there and delivered this average LED current.
     Ran {
         /// Supply voltage, V.
@@ -568,7 +568,7 @@ pub(crate) enum RangeEnd {
 /// from the nominal supply's `nominal_led_avg_a`, in %, against
 /// `parts.current_accuracy_pct` (else [`DEFAULT_REGULATION_PCT`]); warn
 /// above half of it (common practice).
-pub(crate) fn range_checks(s: &Scenario, nominal_led_avg_a: f64, ends: &[RangeEnd]) -> Vec<Check> {
+pub fn range_checks(s: &Scenario, nominal_led_avg_a: f64, ends: &[RangeEnd]) -> Vec<Check> {
     let mut c = Vec::new();
     let regulating = s.target_current_a().is_some() || s.parts.led_current_target_a.is_some();
     let mut worst: Option<(f64, f64)> = None;

@@ -202,7 +202,7 @@ pub(crate) fn part_loss_energies(s: &Scenario, t: &Totals, w: &Waveform) -> Loss
 
 /// Adds the part losses to `t`: to the losses and, as energy drawn from the
 /// supply, to `e_in` (and `e_parts`), so the balance still closes.
-pub(crate) fn apply(s: &Scenario, t: &mut Totals, w: &Waveform) {
+pub fn apply(s: &Scenario, t: &mut Totals, w: &Waveform) {
     let l = part_loss_energies(s, t, w);
     let extra = l.total();
     t.loss.add(&l);

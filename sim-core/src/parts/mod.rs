@@ -9,8 +9,7 @@
 //!   and the effective capacitance the engine uses.
 //! - [`thermal`]: part temperatures from thermal resistances, and the LED
 //!   forward-voltage temperature feedback.
-//! - [`assess`]: moved to [`crate::run::assess`] (the bias/temperature
-//!   loop is part of the run).
+//! - the bias/temperature loop is part of the run: [`mod@crate::run::assess`].
 //! - [`checks`]: the design-check table (ok / warn / fail).
 //! - [`alternatives`]: series-resistor ballast and linear regulator for the
 //!   same LED string and supply range.

@@ -9,7 +9,7 @@
 //! heat) is fed back into the load: the exponential model is evaluated at
 //! T_j (its saturation current by [`crate::devices::JunctionLaw`], the
 //! same model as `load.junction_temperature_c`), the knee model's knee
-//! moves by tempco·(T_j − 25 °C); [`crate::run::assess`] repeats the run
+//! moves by tempco·(T_j − 25 °C); [`fn@crate::run::assess`] repeats the run
 //! until T_j settles.
 
 use crate::metrics::Metrics;

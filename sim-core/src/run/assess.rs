@@ -29,7 +29,7 @@ use crate::scenario::Scenario;
 use serde::Serialize;
 
 /// Most runs of the bias/temperature iteration.
-pub(crate) const MAX_ITERATIONS: u32 = 8;
+pub const MAX_ITERATIONS: u32 = 8;
 
 /// Everything the real-part run produces.
 #[derive(Debug, Clone)]

@@ -3,7 +3,7 @@
 //! [`run_design`], so a study point at a value gives the same figures, to
 //! the bit, as a run of the scenario set to that value.
 //!
-//! The run is the full assessment ([`super::assess`]): with DC-bias
+//! The run is the full assessment ([`fn@super::assess`]): with DC-bias
 //! capacitors or LED temperature feedback the circuit is simulated again
 //! at the capacitances and junction temperature the last run produced,
 //! until they settle. A plain [`super::simulate`] of the nominal element

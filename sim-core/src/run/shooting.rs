@@ -58,7 +58,7 @@ pub trait CycleMap {
 /// Scaled residual `max |P(x) − x| / scale` at which the orbit is found.
 pub(crate) const RESIDUAL_TARGET: f64 = 1e-12;
 /// Newton iterations allowed in one round (between fit updates).
-pub(crate) const MAX_ITERATIONS: u32 = 30;
+pub const MAX_ITERATIONS: u32 = 30;
 /// Rounds of "converge, let the fits follow, converge again".
 pub(crate) const MAX_FIT_ROUNDS: u32 = 6;
 /// Ordinary cycles run before the first Newton step, so the curve fits

@@ -12,7 +12,7 @@
 use crate::model::circuit::N_STATES;
 
 /// Scaled changes this small are round-off, not transient.
-pub(crate) const ROUND_OFF_FLOOR: f64 = 1e-12;
+pub const ROUND_OFF_FLOOR: f64 = 1e-12;
 const HISTORY: usize = 10;
 /// Longest subharmonic period looked for, cycles.
 pub(crate) const MAX_SUBHARMONIC: usize = 8;

@@ -22,7 +22,7 @@ use serde_json::{json, Value};
 use std::collections::BTreeMap;
 
 /// Layout version of journals.
-pub(crate) const JOURNAL_FORMAT: &str = "chopwave-journal-1";
+pub const JOURNAL_FORMAT: &str = "chopwave-journal-1";
 
 /// The header line (with its newline).
 pub fn header_line(m: &Manifest) -> String {

@@ -32,7 +32,7 @@ use serde_json::{Map, Value};
 use std::sync::Arc;
 
 /// Layout version of study outputs.
-pub(crate) const STUDY_FORMAT: &str = "chopwave-study-1";
+pub const STUDY_FORMAT: &str = "chopwave-study-1";
 
 /// What kind of study a table holds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]

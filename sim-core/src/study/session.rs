@@ -110,7 +110,7 @@ pub fn open(m: &Manifest, found: Found<'_>, resume: bool) -> Result<Opening, Ses
 }
 
 /// The longest wall-clock time limit accepted, s.
-pub(crate) const MAX_TIME_LIMIT_S: f64 = 1e9;
+pub const MAX_TIME_LIMIT_S: f64 = 1e9;
 
 /// The moment no new point starts, `seconds` after `started` (None: no
 /// limit).

@@ -2,7 +2,7 @@
 //!
 //! A scenario may carry two optional objects:
 //!
-//! - `tolerances` ([`Tolerances`]): a list of numeric fields, each with a
+//! - `tolerances` ([`crate::scenario::Tolerances`]): a list of numeric fields, each with a
 //!   ± tolerance in % and a distribution (`uniform` over ±tolerance, or
 //!   `normal` with 3σ at the tolerance); the LED string's forward-voltage
 //!   spread; and whether the supply takes any value of its declared

@@ -15,7 +15,7 @@ use crate::units::{parse_quantity, Unit};
 pub(crate) const DEFAULT_RANGE_COUNT: usize = 11;
 
 /// Most points one variable may take.
-pub(crate) const MAX_POINTS_PER_AXIS: usize = 100_000;
+pub const MAX_POINTS_PER_AXIS: usize = 100_000;
 
 /// One swept variable: a scenario field and the values it takes.
 #[derive(Debug, Clone, PartialEq)]
