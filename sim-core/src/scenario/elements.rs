@@ -131,7 +131,7 @@ pub struct SenseResistor {
     /// Resistance, ohms.
     #[serde(deserialize_with = "de_ohm")]
     pub resistance_ohm: f64,
-    /// Where it sits (default: [`crate::Scenario::sense_position`] per controller).
+    /// Where it sits (default: [`crate::scenario::Scenario::sense_position`] per controller).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub position: Option<SensePosition>,
 }
