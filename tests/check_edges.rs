@@ -524,6 +524,26 @@ fn a_rating_exceeded_only_at_the_top_of_the_range_is_reported_there() {
 }
 
 #[test]
+fn a_rating_exceeded_everywhere_is_reported_where_it_is_exceeded_most() {
+    // An input capacitor rated 12 V on a 20–30 V range (24 V nominal):
+    // every end fails, by 20/12, 24/12 and 30/12 of its rating; the row
+    // must be the top's, the one furthest past its limit (the worst case a
+    // designer must cover), not the first met nor the one whose excess is
+    // smallest in absolute terms. With an ideal source the capacitor sits
+    // at the supply voltage (no ripple), so the value is the supply itself.
+    let b = Buck::BASE;
+    let (lo, hi) = (20.0, 30.0);
+    let mut s = ranged(&b, lo, hi);
+    with_input_capacitor(&mut s, Dielectric::AluminiumElectrolytic);
+    s.parts.input_capacitor.voltage_rating_v = Some(12.0);
+    let a = assessed(&s);
+    let c = row(&a, "input capacitor peak voltage vs rating");
+    assert_eq!(c.status, Status::Fail, "{c:?}");
+    assert_relative_eq!(c.supply_v, hi);
+    assert_relative_eq!(c.value, hi, max_relative = 1e-12);
+}
+
+#[test]
 fn peak_current_and_temperature_worst_at_the_top_of_the_range() {
     // With a turn-off delay t_d the peak is I_pk + (V_in − V_out)·t_d/L
     // (the on-slope carries it past the threshold; Erickson & Maksimovic,
