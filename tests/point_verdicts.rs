@@ -89,3 +89,32 @@ fn audible_and_saturation_points_are_flagged() {
     }
     assert!(audible > 0 && audible < t.rows.len(), "{audible}");
 }
+
+/// The saturation flag at its edge: a peak exactly at the inductor's
+/// saturation rating is within it (the rating is the largest current the
+/// part is specified for), one float above it is flagged. Probed on a
+/// real row by moving the manifest's rating to the row's own peak.
+#[test]
+fn the_saturation_flag_sits_exactly_at_the_rating() {
+    let s = lamp_12v();
+    let mut t = sweep(
+        &s,
+        &grid(&s, "supply.voltage_v=12:12:1"),
+        &RunSettings::default(),
+        None,
+        &Hooks::default(),
+    );
+    let r = t.rows[0].clone();
+    let peak = r.metric("inductor_current_peak_a").unwrap();
+    let saturation = |t: &sim_core::study::rows::StudyTable| {
+        t.manifest
+            .check_point(&r)
+            .warnings
+            .iter()
+            .any(|w| w.code() == "saturation")
+    };
+    t.manifest.inductor_saturation_a = Some(peak);
+    assert!(!saturation(&t), "a peak at the rating is within it");
+    t.manifest.inductor_saturation_a = Some(peak.next_down());
+    assert!(saturation(&t), "a peak above the rating is flagged");
+}
