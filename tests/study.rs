@@ -598,3 +598,40 @@ fn a_resumed_sweep_equals_one_run_and_a_deadline_stops_it() {
     let inc = t.manifest.incomplete.expect("marked incomplete");
     assert_eq!((inc.ran, inc.of), (0, 20));
 }
+
+/// A corner puts every toleranced input at its extreme: a part field at
+/// nominal·(1 ± tolerance), the LED forward-voltage factor at 1 ± its
+/// tolerance, the supply at the ends of its declared range (the definition
+/// of a worst-case corner; common practice).
+#[test]
+fn corner_extremes_are_the_tolerance_limits() {
+    let s = toleranced_lamp();
+    let params = sim_core::study::spread::params(&s).unwrap();
+    let mut kinds = 0;
+    for p in &params {
+        let (lo, hi) = (p.extreme(false), p.extreme(true));
+        match &p.kind {
+            ParamKind::Field { path, nominal } => {
+                let tol = if path == "inductor.inductance_h" {
+                    0.20
+                } else {
+                    0.05
+                };
+                assert_relative_eq!(lo, nominal * (1.0 - tol), max_relative = 1e-12);
+                assert_relative_eq!(hi, nominal * (1.0 + tol), max_relative = 1e-12);
+                kinds |= 1;
+            }
+            ParamKind::LedVoltage { .. } => {
+                assert_relative_eq!(lo, 0.97, max_relative = 1e-12);
+                assert_relative_eq!(hi, 1.03, max_relative = 1e-12);
+                kinds |= 2;
+            }
+            ParamKind::Supply { .. } => {
+                assert_relative_eq!(lo, 10.5);
+                assert_relative_eq!(hi, 14.0);
+                kinds |= 4;
+            }
+        }
+    }
+    assert_eq!(kinds, 7, "every kind of input is probed");
+}
