@@ -27,6 +27,12 @@ const LAYERS: &[(&str, &[&str])] = &[
 /// engines stay independent (the reference is a check on the exact one).
 const APART: &[(&str, &str)] = &[("exact", "reference")];
 
+/// Modules held to fewer imports than their layer allows: the file format
+/// names only the numbers, the errors and the device laws (not the
+/// figures or the recorded waveform), so reading a file never depends on
+/// how a run is measured.
+const ONLY: &[(&str, &[&str])] = &[("scenario", &["units", "error", "devices"])];
+
 fn src() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("sim-core/src")
 }
@@ -151,6 +157,13 @@ fn sim_core_imports_point_down_the_layers_only() {
                         "{rel}:{n}: `{from}` ({}) imports `{to}` ({}), a higher layer",
                         LAYERS[from_layer].0, LAYERS[to_layer].0
                     ));
+                }
+                if let Some((_, allowed)) = ONLY.iter().find(|(m, _)| *m == from) {
+                    if !allowed.contains(&to.as_str()) {
+                        wrong.push(format!(
+                            "{rel}:{n}: `{from}` imports `{to}`; it may import only {allowed:?}"
+                        ));
+                    }
                 }
                 if APART
                     .iter()

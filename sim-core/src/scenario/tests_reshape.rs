@@ -1,6 +1,6 @@
-//! Tests of the reshaped scenario module: its imports (the layering), the
-//! held-on current of the operating-point check, and study values set
-//! on a scenario directly.
+//! Tests of the reshaped scenario module (its imports are checked with
+//! every module's by `tests/layering.rs`): the held-on current of the
+//! operating-point check, and study values set on a scenario directly.
 
 use super::*;
 use crate::error::ScenarioError;
@@ -18,59 +18,6 @@ pub(super) fn bundled() -> Vec<Scenario> {
     .iter()
     .map(|t| Scenario::from_json_str(t).expect("bundled scenario loads"))
     .collect()
-}
-
-/// The `use crate::…` modules named in the non-test code of a source text.
-fn crate_imports(text: &str) -> Vec<String> {
-    let code = text.split("#[cfg(test)]").next().unwrap_or(text);
-    let mut out = Vec::new();
-    for (k, _) in code.match_indices("crate::") {
-        let rest = &code[k + "crate::".len()..];
-        let name: String = rest
-            .chars()
-            .take_while(|c| c.is_alphanumeric() || *c == '_')
-            .collect();
-        if !out.contains(&name) {
-            out.push(name);
-        }
-    }
-    out
-}
-
-/// `devices` (ground) names nothing of `scenario`, and `scenario` names
-/// only the ground modules (units, error, devices) in its non-test code:
-/// the devices↔scenario and scenario→study/shooting cycles stay broken.
-#[test]
-fn scenario_imports_only_ground_modules_and_devices_not_scenario() {
-    let devices = include_str!("../devices.rs");
-    assert!(
-        !crate_imports(devices).contains(&"scenario".to_string()),
-        "devices.rs names crate::scenario"
-    );
-    let files = [
-        ("scenario.rs", include_str!("../scenario.rs")),
-        ("checker.rs", include_str!("checker.rs")),
-        ("de.rs", include_str!("de.rs")),
-        ("diagnose.rs", include_str!("diagnose.rs")),
-        ("elements.rs", include_str!("elements.rs")),
-        ("junctions.rs", include_str!("junctions.rs")),
-        ("load.rs", include_str!("load.rs")),
-        ("parts.rs", include_str!("parts.rs")),
-        ("paths.rs", include_str!("paths.rs")),
-        ("settings.rs", include_str!("settings.rs")),
-        ("template.rs", include_str!("template.rs")),
-        ("tolerances.rs", include_str!("tolerances.rs")),
-        ("validate.rs", include_str!("validate.rs")),
-        ("validate_parts.rs", include_str!("validate_parts.rs")),
-    ];
-    for (name, text) in files {
-        for m in crate_imports(text) {
-            assert!(
-                ["units", "error", "devices", "scenario"].contains(&m.as_str()),
-                "scenario/{name} names crate::{m}"
-            );
-        }
-    }
 }
 
 /// The held-on current as the validation found it before: a 200-step
